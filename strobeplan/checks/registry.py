@@ -1,0 +1,76 @@
+"""The one registry of rules: plan -> findings.
+
+A rule is a small function registered with :func:`rule`. It takes the plan and returns
+None, one :class:`Hit` or a list of hits; the registry turns hits into
+:class:`~strobeplan.plan.Finding` objects carrying the rule's code and severity. One code
+has one severity (a condition that can be a warning or a hazard gets two codes).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from dataclasses import dataclass
+
+from ..plan import SEVERITIES, SEVERITY_RANK, Finding
+
+
+@dataclass(frozen=True)
+class Hit:
+    """What a rule found: the message, the figure and its limit (SI, with unit), a hint."""
+
+    message: str
+    value: float | None = None
+    limit: float | None = None
+    unit: str | None = None
+    hint: str | None = None
+    subject: str | None = None
+
+
+@dataclass(frozen=True)
+class Rule:
+    code: str
+    severity: str
+    trigger: str
+    fix: str
+    func: Callable
+
+    @property
+    def subject(self) -> str:
+        return self.code.split(".", 1)[0]
+
+
+RULES: dict[str, Rule] = {}
+
+
+def rule(code: str, severity: str, trigger: str, fix: str):
+    """Register a rule under a stable dotted lower-case code (``section.condition``)."""
+    if severity not in SEVERITIES:
+        raise ValueError(f"unknown severity {severity!r}")
+    if code in RULES:
+        raise ValueError(f"duplicate finding code {code!r}")
+    if code != code.lower() or "." not in code:
+        raise ValueError(f"finding code {code!r} must be dotted lower case")
+
+    def register(func):
+        RULES[code] = Rule(code, severity, trigger, fix, func)
+        return func
+
+    return register
+
+
+def run_rules(plan) -> list[Finding]:
+    """Every registered rule over the plan; findings sorted by severity, then code."""
+    found: list[Finding] = []
+    for r in RULES.values():
+        result = r.func(plan)
+        if result is None:
+            continue
+        hits = result if isinstance(result, list) else [result]
+        for h in hits:
+            found.append(Finding(
+                code=r.code, severity=r.severity, subject=h.subject or r.subject,
+                message=h.message, value=h.value, limit=h.limit, unit=h.unit,
+                hint=h.hint or r.fix,
+            ))
+    found.sort(key=lambda f: (SEVERITY_RANK[f.severity], f.code))
+    return found

@@ -1,0 +1,140 @@
+"""Timing rules: flashes in the exposure, rolling-shutter window, sweep resolution, clocks."""
+
+from __future__ import annotations
+
+from ..units import render
+from .registry import Hit, rule
+
+# Contrast kept across one exposure below which clock drift or slow motion counts as a
+# visible smear: 98 % (common practice: a 2 % loss is about one grey level at 6 bits).
+SMEAR_LIMIT = 0.98
+
+
+@rule("timing.no_flash_in_exposure", "fault",
+      trigger="a camera is given and no whole flash falls inside the exposure window "
+              "(for a rolling shutter, the window in which all rows expose)",
+      fix="lengthen camera.exposure to at least one flash period plus the light pulse, "
+          "reduce strobe.every, or shorten camera.trigger_latency")
+def no_flash_in_exposure(plan):
+    t, cam = plan.timing, plan.rig.camera
+    if cam is None or plan.rig.strobe.continuous or t.flashes_per_frame:
+        return None
+    if t.window_s is not None and t.window_s < plan.flash.light_length_s:
+        return None  # reported as rolling_window_too_short / window too short below
+    period = t.flash_period_ticks * t.tick_s
+    return Hit(f"no whole flash falls inside the {render(t.window_s, 'time')} exposure window "
+               f"(flash period {render(period, 'time')}): the frame stays dark",
+               value=0, limit=1, unit="flashes")
+
+
+@rule("timing.rolling_window_too_short", "fault",
+      trigger="rolling shutter and exposure - readout is shorter than one light pulse, so "
+              "no flash can light every row",
+      fix="lengthen camera.exposure beyond camera.readout by at least one flash period, or "
+          "use a global-shutter camera")
+def rolling_window_too_short(plan):
+    t, cam = plan.timing, plan.rig.camera
+    if cam is None or cam.shutter != "rolling":
+        return None
+    if t.window_s >= plan.flash.light_length_s:
+        return None
+    return Hit(f"all rows expose together for only {render(t.window_s, 'time')} "
+               f"(exposure {render(cam.exposure, 'time')} - readout "
+               f"{render(cam.readout, 'time')}); a flash outside it bands the image",
+               value=t.window_s, limit=plan.flash.light_length_s, unit="s")
+
+
+@rule("timing.window_too_short", "fault",
+      trigger="global shutter whose exposure window is shorter than one light pulse",
+      fix="lengthen camera.exposure to at least one flash period plus the light pulse")
+def window_too_short(plan):
+    t, cam = plan.timing, plan.rig.camera
+    if cam is None or cam.shutter != "global" or t.window_s >= plan.flash.light_length_s:
+        return None
+    return Hit(f"the exposure ({render(t.window_s, 'time')}) is shorter than one light pulse "
+               f"({render(plan.flash.light_length_s, 'time')})",
+               value=t.window_s, limit=plan.flash.light_length_s, unit="s")
+
+
+@rule("timing.phase_step_below_resolution", "warning",
+      trigger="a phase-sweep step is finer than the timer's phase resolution "
+              "(360 deg x tick x f), so neighbouring frames repeat the same edge",
+      fix="use fewer sweep steps, a larger span per step, or a faster controller.clock")
+def phase_step_below_resolution(plan):
+    t = plan.timing
+    if t.sweep_step_deg is None or t.sweep_step_deg >= t.phase_resolution_deg:
+        return None
+    return Hit(f"sweep step {t.sweep_step_deg:.4g} deg is finer than the timer resolution "
+               f"{t.phase_resolution_deg:.4g} deg", value=t.sweep_step_deg,
+               limit=t.phase_resolution_deg, unit="deg")
+
+
+@rule("timing.clock_drift_smear", "warning",
+      trigger="separate clocks (shared_clock = false) drift far enough within one exposure "
+              f"to keep less than {SMEAR_LIMIT:.0%} of the contrast",
+      fix="drive the emitter and the strobe from one clock (shared_clock = true), or shorten "
+          "the exposure")
+def clock_drift_smear(plan):
+    t = plan.timing
+    if plan.rig.controller.shared_clock or t.drift_per_exposure_deg is None:
+        return None
+    if t.mode == "slow_motion" or t.smear >= SMEAR_LIMIT:
+        return None
+    return Hit(f"the clocks drift {t.drift_per_exposure_deg:.3g} deg within one exposure; "
+               f"{t.smear:.1%} of the contrast is kept", value=t.smear, limit=SMEAR_LIMIT,
+               unit="1")
+
+
+@rule("timing.phase_unlocked", "warning",
+      trigger="shared_clock = false: the flash is not locked to the drive, so the frozen "
+              "phase wanders from frame to frame at 360 deg x f x tolerance per second",
+      fix="derive the emitter drive and the flash timer from one clock, or re-synchronise "
+          "on a drive edge every frame")
+def phase_unlocked(plan):
+    t = plan.timing
+    if plan.rig.controller.shared_clock:
+        return None
+    return Hit(f"the frozen phase can wander by up to {t.clock_drift_deg_per_s:.3g} deg/s "
+               "with separate clocks", value=t.clock_drift_deg_per_s, unit="deg/s")
+
+
+@rule("timing.slow_motion_smear", "warning",
+      trigger=f"slow motion advances the phase so fast that the flashes of one exposure keep "
+              f"less than {SMEAR_LIMIT:.0%} of the contrast",
+      fix="lower sweep.slow_motion, shorten the exposure, or raise strobe.every")
+def slow_motion_smear(plan):
+    t = plan.timing
+    if t.mode != "slow_motion" or plan.rig.camera is None or t.smear >= SMEAR_LIMIT:
+        return None
+    return Hit(f"{t.flashes_per_frame} flashes per frame at "
+               f"{360 * t.slow_motion_step_ticks / t.drive_period_ticks:.3g} deg apart keep "
+               f"{t.smear:.1%} of the contrast", value=t.smear, limit=SMEAR_LIMIT, unit="1")
+
+
+@rule("timing.slow_motion_quantised", "warning",
+      trigger="the apparent frequency the timer can realise (an integer tick step per flash) "
+              "differs from sweep.slow_motion by more than 5 %",
+      fix="use a faster controller.clock or choose an apparent frequency near the reported one")
+def slow_motion_quantised(plan):
+    t = plan.timing
+    if t.mode != "slow_motion":
+        return None
+    want = plan.rig.sweep.slow_motion
+    if abs(t.apparent_frequency_hz - want) <= 0.05 * abs(want):
+        return None
+    return Hit(f"slow motion realises {render(t.apparent_frequency_hz, 'frequency')} for the "
+               f"requested {render(want, 'frequency')}", value=t.apparent_frequency_hz,
+               limit=want, unit="Hz")
+
+
+@rule("timing.frame_rate_adjusted", "note",
+      trigger="the frame period was rounded to a whole number of flash periods and the "
+              "realised frame rate differs from camera.frame_rate by more than 0.1 %",
+      fix="pick a frame rate that divides the flash rate, or accept the reported one")
+def frame_rate_adjusted(plan):
+    t, cam = plan.timing, plan.rig.camera
+    if cam is None or abs(t.frame_rate_hz - cam.frame_rate) <= 1e-3 * cam.frame_rate:
+        return None
+    return Hit(f"frames run at {render(t.frame_rate_hz, 'frequency')} (asked "
+               f"{render(cam.frame_rate, 'frequency')}) to stay locked to the drive",
+               value=t.frame_rate_hz, limit=cam.frame_rate, unit="Hz")

@@ -1,0 +1,176 @@
+"""Command line (design §5). Thin: parse arguments, call the solver, render. No physics.
+
+Exit status: 0 pass or warn, 1 fail (a hazard or fault), 2 bad input or usage, 3 internal
+error. Heavy modules (numpy, pydantic, the solver) are imported inside the commands so
+that ``strobeplan --help`` stays fast.
+"""
+
+from __future__ import annotations
+
+import sys
+from contextlib import contextmanager
+
+import click
+
+EXIT_OK = 0
+EXIT_FAIL = 1
+EXIT_INPUT = 2
+EXIT_INTERNAL = 3
+
+EXAMPLES = ("levitator-40k", "rangefinder-58k", "unsafe-bench")
+
+
+class InputError(click.ClickException):
+    """Bad input or an unwritable output: one line, exit status 2."""
+
+    exit_code = EXIT_INPUT
+
+    def show(self, file=None):
+        click.echo(f"error: {self.format_message()}", err=True, file=file)
+
+
+@contextmanager
+def user_errors():
+    """Turn the core's own exceptions into exit-2 messages."""
+    from .errors import StrobeplanError
+
+    try:
+        yield
+    except StrobeplanError as exc:
+        raise InputError(str(exc)) from None
+
+
+def exit_code_for(verdict: str) -> int:
+    """The one place that maps a verdict to an exit status."""
+    return EXIT_FAIL if verdict == "fail" else EXIT_OK
+
+
+def _solve(rig_path: str):
+    from .rig import load_rig
+    from .solve import solve
+
+    with user_errors():
+        return solve(load_rig(rig_path))
+
+
+def _same_file(a: str, b: str) -> bool:
+    import os
+
+    try:
+        return a != "-" and os.path.samefile(a, b)
+    except OSError:
+        return False
+
+
+def _write_or_echo(text: str, output: str | None, rig_path: str | None = None) -> None:
+    from .io import write_atomic
+
+    if output is None or output == "-":
+        click.echo(text, nl=False)
+        return
+    if rig_path is not None and _same_file(rig_path, output):
+        raise InputError(f"{output}: is the rig file itself; choose another output file")
+    with user_errors():
+        write_atomic(output, text)
+
+
+@click.group(context_settings={"help_option_names": ["-h", "--help"]})
+@click.option("--debug", is_flag=True, help="Show a traceback on internal errors.")
+@click.version_option(package_name="strobeplan")
+@click.pass_context
+def cli(ctx, debug):
+    """Plan and check a phase-locked LED strobe rig for imaging ultrasound.
+
+    Reads one TOML rig file (use - for standard input), computes timer settings, exposure,
+    thermal and electrical margins, and flags every unsafe or ineffective combination with
+    a reason and a fix.
+    """
+    ctx.ensure_object(dict)
+    ctx.obj["debug"] = debug
+
+
+@cli.command()
+@click.argument("rig", type=click.Path(allow_dash=True))
+@click.option("--json", "as_json", is_flag=True, help="Print the plan JSON (and nothing else).")
+def check(rig, as_json):
+    """Compute the plan and list findings; exit 1 when any hazard or fault is found."""
+    from .report.text import plan_json, plan_text
+
+    plan = _solve(rig)
+    click.echo(plan_json(plan) if as_json else plan_text(plan), nl=False)
+    sys.exit(exit_code_for(plan.verdict))
+
+
+@cli.command()
+@click.argument("rig", type=click.Path(allow_dash=True))
+@click.option("-o", "--output", type=click.Path(allow_dash=True), default=None,
+              help="Write to FILE (atomically) instead of standard output.")
+@click.option("--format", "fmt", type=click.Choice(["csv", "json"]), default="csv",
+              show_default=True)
+@click.option("--steps", type=click.IntRange(1, 100_000), default=None,
+              help="Frames in the phase sweep (overrides [sweep] steps).")
+@click.option("--ticks", is_flag=True, help="Print only the integer timer values.")
+def schedule(rig, output, fmt, steps, ticks):
+    """Per-frame trigger schedule: phase targets, timer edges, camera triggers."""
+    from .report.tables import schedule_csv, schedule_json, schedule_ticks
+    from .solve import build_schedule
+
+    plan = _solve(rig)
+    with user_errors():
+        sched = build_schedule(plan, steps=steps)
+    if ticks:
+        text = schedule_ticks(sched)
+    else:
+        text = schedule_json(sched) if fmt == "json" else schedule_csv(sched)
+    _write_or_echo(text, output, rig)
+
+
+@cli.command()
+@click.option("--example", type=click.Choice(EXAMPLES), default="levitator-40k",
+              show_default=True, help="Which bundled example to start from.")
+@click.option("-o", "--output", type=click.Path(), default=None,
+              help="Write the starter rig to FILE (refuses to overwrite).")
+@click.option("--force", is_flag=True, help="Overwrite FILE if it exists.")
+def new(example, output, force):
+    """Write a commented starter rig (a bundled example)."""
+    from importlib.resources import files
+    from pathlib import Path
+
+    text = (files("strobeplan.examples") / f"{example}.toml").read_text(encoding="utf-8")
+    if output and Path(output).exists() and not force:
+        raise InputError(f"{output}: exists; choose another name or pass --force")
+    _write_or_echo(text, output)
+
+
+def main(argv=None) -> None:
+    """Console entry point: maps every outcome to the exit codes of design §5."""
+    args = list(sys.argv[1:] if argv is None else argv)
+    debug = "--debug" in args
+    try:
+        code = cli.main(args=args, prog_name="strobeplan", standalone_mode=False)
+    except click.ClickException as exc:
+        exc.show()
+        sys.exit(exc.exit_code)
+    except click.exceptions.Exit as exc:
+        sys.exit(exc.exit_code)
+    except click.Abort:
+        click.echo("aborted", err=True)
+        sys.exit(EXIT_INPUT)
+    except BrokenPipeError:
+        sys.exit(EXIT_OK)
+    except SystemExit:
+        raise
+    except Exception as exc:  # noqa: BLE001 - the last line of defence
+        if debug:
+            import traceback
+
+            traceback.print_exc()
+        click.echo(f"internal error: {type(exc).__name__}: {exc}\n"
+                   "This is a bug in strobeplan: please report it with the rig file "
+                   "(run with --debug for a traceback).", err=True)
+        sys.exit(EXIT_INTERNAL)
+    sys.exit(code if isinstance(code, int) else EXIT_OK)
+
+
+if __name__ == "__main__":
+    main()

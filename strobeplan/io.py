@@ -1,0 +1,47 @@
+"""Atomic output: a temporary file in the target's folder, then os.replace."""
+
+from __future__ import annotations
+
+import os
+import tempfile
+from pathlib import Path
+
+from .errors import OutputError
+
+
+def check_target(path: str | Path) -> Path:
+    """Raise OutputError unless ``path`` can be written as a file."""
+    p = Path(path)
+    parent = p.parent if str(p.parent) else Path(".")
+    if p.is_dir():
+        raise OutputError(f"{p}: is a directory, expected a file name")
+    if not parent.is_dir():
+        raise OutputError(f"{p}: the folder {parent} does not exist")
+    if not os.access(parent, os.W_OK):
+        raise OutputError(f"{p}: the folder {parent} is not writable")
+    return p
+
+
+def write_atomic(path: str | Path, data: str | bytes) -> None:
+    """Write ``data`` to ``path`` so that readers see the old file or the whole new one."""
+    p = check_target(path)
+    raw = data.encode("utf-8") if isinstance(data, str) else data
+    fd, tmp = tempfile.mkstemp(prefix=f".{p.name}.", suffix=".tmp", dir=p.parent or ".")
+    try:
+        with os.fdopen(fd, "wb") as fh:
+            fh.write(raw)
+            fh.flush()
+            os.fsync(fh.fileno())
+        os.replace(tmp, p)
+    except OSError as exc:
+        try:
+            os.unlink(tmp)
+        except OSError:
+            pass
+        raise OutputError(f"{p}: cannot be written ({exc.strerror})") from None
+    except BaseException:
+        try:
+            os.unlink(tmp)
+        except OSError:
+            pass
+        raise

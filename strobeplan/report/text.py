@@ -1,0 +1,93 @@
+"""Text output for people: aligned tables with SI prefixes, findings last with their hints."""
+
+from __future__ import annotations
+
+import json
+import math
+
+from ..units import render
+
+# Field-name suffix -> (unit kind for render, how many trailing characters to strip).
+_SUFFIX_KINDS = [
+    ("_deg_per_s", None, "deg/s"), ("_kelvin_deg", None, "deg/K"),
+    ("_ppm", None, "ppm"), ("_db_m", None, "dB/m"), ("_kg_m3", None, "kg/m3"),
+    ("_m_s", None, "m/s"), ("_ticks", None, "ticks"),
+    ("_s", "time", None), ("_hz", "frequency", None), ("_v", "voltage", None),
+    ("_a", "current", None), ("_w", "power", None), ("_j", "energy", None),
+    ("_ohm", "resistance", None), ("_m", "length", None), ("_k", "temperature_difference", None),
+    ("_db", None, "dB"), ("_deg", None, "deg"), ("_rad", None, "rad"), ("_pa", "pressure", None),
+    ("_f", "capacitance", None), ("_c", None, "\u00b0C"),
+]
+
+CAUTION = ("Caution: strobeplan is a planning aid, not a safety certification. Overdriven LEDs "
+           "can be bright enough to injure eyes; storage capacitors hold dangerous charge; "
+           "airborne ultrasound can harm hearing; resistors, LEDs and MOSFETs get hot. Follow "
+           "the datasheets, local codes and licensed practice.")
+
+
+def label_and_value(name: str, value) -> tuple[str, str]:
+    """Readable label and rendered value for a section field."""
+    if isinstance(value, bool) or value is None or isinstance(value, str):
+        shown = "n/a" if value is None else str(value)
+        label = name
+        for suffix, _kind, _unit in _SUFFIX_KINDS:
+            if value is None and name.endswith(suffix):
+                label = name[: -len(suffix)]
+                break
+        return label.replace("_", " "), shown
+    if isinstance(value, (list, tuple)):
+        return name.replace("_", " "), ", ".join(_number(v) for v in value)
+    for suffix, kind, unit in _SUFFIX_KINDS:
+        if name.endswith(suffix):
+            label = name[: -len(suffix)].replace("_", " ")
+            if kind is not None:
+                return label, render(float(value), kind)
+            return label, f"{_number(value)} {unit}"
+    return name.replace("_", " "), _number(value)
+
+
+def _number(v) -> str:
+    if v is None:
+        return "n/a"
+    if isinstance(v, int) and not isinstance(v, bool):
+        return str(v)
+    try:
+        x = float(v)
+    except (TypeError, ValueError):
+        return str(v)
+    if not math.isfinite(x):
+        return "n/a"
+    return f"{x:.4g}"
+
+
+def plan_text(plan) -> str:
+    """The whole plan as aligned text."""
+    lines = [f"strobeplan: {plan.rig.name}", f"verdict: {plan.verdict.upper()}", ""]
+    for name, section in plan.sections():
+        data = section.to_json()
+        lines.append(f"[{name}]")
+        rows = [label_and_value(k, v) for k, v in vars(section).items()
+                if not k.startswith("_") and not isinstance(v, (dict,)) and k in data]
+        width = max((len(r[0]) for r in rows), default=0)
+        lines += [f"  {label:<{width}}  {value}" for label, value in rows]
+        lines.append("")
+    lines.append(findings_text(plan))
+    if any(f.severity == "hazard" for f in plan.findings):
+        lines += ["", CAUTION]
+    return "\n".join(lines).rstrip() + "\n"
+
+
+def findings_text(plan) -> str:
+    if not plan.findings:
+        return "findings: none"
+    out = [f"findings ({len(plan.findings)}):"]
+    for f in plan.findings:
+        out.append(f"  {f.severity.upper():<8} {f.code}: {f.message}")
+        if f.hint:
+            out.append(f"           fix: {f.hint}")
+    return "\n".join(out)
+
+
+def plan_json(plan) -> str:
+    """The plan JSON of design §4 (no NaN or Infinity: undefined figures are null)."""
+    return json.dumps(plan.to_json(), indent=2, allow_nan=False) + "\n"

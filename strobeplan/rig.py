@@ -1,0 +1,556 @@
+"""The rig file (design §3, a contract): pydantic models holding SI floats.
+
+A rig file is TOML; every dimensioned value is a string with its unit ("40 kHz", "1.5 us",
+"2.2 kohm", "23 degC", "45 %"); plain numbers only for counts and ratios. Unknown keys are
+errors with a "did you mean". :func:`load_rig` is the way in: it reads bytes, decodes UTF-8,
+parses TOML, validates, cross-checks, and raises :class:`~strobeplan.errors.RigError` (one
+line: key path, value, what was expected) for anything it cannot accept.
+
+Defaults (documented in README and docs/rig-format.md): air 20 degC, 50 % RH, 101.325 kPa,
+400 ppm CO2; strobe phase 0 deg, every 1, min_retention 90 %; led ambient 25 degC,
+efficiency 0 (conservative: all electrical power heats the junction), no phosphor; camera
+global shutter, 8 bit; trigger link E24 with the series' own tolerance.
+"""
+
+from __future__ import annotations
+
+import difflib
+import math
+import tomllib
+from pathlib import Path
+from typing import Annotated, Any, Literal
+
+from pydantic import BaseModel, BeforeValidator, ConfigDict, Field, ValidationError
+
+from . import units
+from .errors import MISSING, RigError
+
+__all__ = ["Rig", "load_rig", "loads_rig", "rig_from_dict", "E_SERIES_NAMES"]
+
+E_SERIES_NAMES = ("E3", "E6", "E12", "E24", "E48", "E96", "E192")
+
+
+def _parser(kind: str):
+    def parse(value):
+        if value is None:
+            return None
+        try:
+            return units.parse(value, kind)
+        except units.UnitError as exc:
+            raise ValueError(str(exc)) from None
+
+    return parse
+
+
+def Q(kind: str, **constraints):  # noqa: N802 - a type factory reads like a type
+    """``Annotated[float, ...]`` for a quantity of ``kind`` with pydantic constraints."""
+    return Annotated[
+        float,
+        BeforeValidator(_parser(kind)),
+        Field(json_schema_extra={"kind": kind, "example": units.kind_example(kind)},
+              **constraints),
+    ]
+
+
+def _strict_int(value):
+    if isinstance(value, bool) or not isinstance(value, int):
+        raise ValueError(f"expected a whole number, got {value!r}")
+    return value
+
+
+def Count(**constraints):  # noqa: N802
+    return Annotated[int, BeforeValidator(_strict_int), Field(**constraints)]
+
+
+def _plain_number(value):
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        raise ValueError(f"expected a plain number, got {value!r}")
+    if not math.isfinite(value):
+        raise ValueError(f"expected a finite number, got {value!r}")
+    return float(value)
+
+
+def Number(**constraints):  # noqa: N802
+    return Annotated[float, BeforeValidator(_plain_number), Field(**constraints)]
+
+
+class _Model(BaseModel):
+    model_config = ConfigDict(extra="forbid", frozen=True)
+
+
+# --- sections -----------------------------------------------------------------------------
+
+
+class Wave(_Model):
+    frequency: Q("frequency", gt=0, description="Wave (emitter drive) frequency.")
+    kind: Literal["travelling", "standing"] = "travelling"
+    speed: Q("speed", gt=0, description="Speed of sound; default from [air].") | None = None
+    harmonics: Count(ge=1, le=20, description="Harmonics to evaluate retention at.") = 1
+
+
+class Air(_Model):
+    temperature: Q("temperature", gt=223.15, lt=353.15) = 293.15
+    relative_humidity: Q("ratio", ge=0, le=1) = 0.5
+    pressure: Q("pressure", gt=50e3, lt=120e3) = 101325.0
+    co2: Q("ppm", ge=0, le=0.01) = 4.0e-4
+
+
+class Filter(_Model):
+    kind: Literal["rc", "butterworth"]
+    order: Count(ge=1, le=8) = 1
+    cutoff: Q("frequency", gt=0)
+
+
+class Synthesis(_Model):
+    carrier: Q("frequency", gt=0, description="PWM carrier frequency.") | None = None
+    samples_per_cycle: Count(ge=4, le=4096) | None = None
+    filter: Filter | None = None
+    amplifier_bandwidth: Q("frequency", gt=0) | None = None
+
+
+class Emitter(_Model):
+    resonance: Q("frequency", gt=0)
+    quality_factor: Number(gt=0, le=1e5)
+    distance_to_view: Q("length", gt=0, le=100)
+    spl_at_reference: Q("sound_level", gt=0, lt=200) | None = None
+    reference_distance: Q("length", gt=0) | None = None
+    reference_voltage: Q("voltage", gt=0) | None = None
+    drive_voltage: Q("voltage", gt=0) | None = None
+    spl_at_view: Q("sound_level", gt=0, lt=200) | None = None
+    radius: Q("length", gt=0) | None = None
+    static_capacitance: Q("capacitance", gt=0) | None = None
+    synthesis: Synthesis | None = None
+
+
+class Controller(_Model):
+    clock: Q("frequency", gt=0, le=10e9)
+    jitter_rms: Q("time", ge=0) = 0.0
+    output: str = "lvcmos33"
+    output_resistance: Q("resistance", ge=0) | None = None
+    shared_clock: bool = True
+    clock_tolerance: Q("ppm", gt=0, le=0.01) | None = None
+
+
+class Strobe(_Model):
+    pulse_width: Q("time", gt=0, description="Gate-on time of one flash.")
+    phase: Q("angle", ge=-2 * math.pi, le=2 * math.pi) = 0.0
+    every: Count(ge=1, le=1_000_000) = 1
+    calibration_offset: Q("time") = 0.0
+    min_retention: Q("ratio", gt=0, lt=1) = 0.9
+    continuous: bool = False
+
+
+class Sweep(_Model):
+    steps: Count(ge=1, le=100_000) | None = None
+    span: Q("angle", gt=0, le=2 * math.pi) | None = None
+    slow_motion: Q("frequency") | None = None
+
+
+class ForwardPoint(_Model):
+    current: Q("current", gt=0)
+    voltage: Q("voltage", gt=0)
+
+
+class PulseRating(_Model):
+    width: Q("time", gt=0)
+    duty: Q("ratio", gt=0, le=1)
+    current: Q("current", gt=0)
+
+
+class FosterTerm(_Model):
+    resistance: Q("thermal_resistance", gt=0)
+    time_constant: Q("time", gt=0)
+
+
+class Led(_Model):
+    forward_voltage: list[ForwardPoint] = Field(min_length=1, max_length=3)
+    series_resistance: Q("resistance", ge=0) | None = None
+    max_dc_current: Q("current", gt=0)
+    max_pulse_current: Q("current", gt=0) | None = None
+    pulse_ratings: list[PulseRating] | None = None
+    junction_max: Q("temperature", gt=273.15, lt=573.15)
+    thermal: list[FosterTerm] = Field(min_length=1, max_length=8)
+    ambient: Q("temperature", gt=223.15, lt=373.15) = 298.15
+    efficiency: Q("ratio", ge=0, lt=1) = 0.0
+    phosphor_fraction: Q("ratio", ge=0, le=1) = 0.0
+    phosphor_decay: Q("time", gt=0) | None = None
+    rise_time: Q("time", ge=0) | None = None
+
+
+class Switch(_Model):
+    on_resistance: Q("resistance", gt=0)
+    rated_gate_voltage: Q("voltage", gt=0)
+    threshold_voltage: Q("voltage", gt=0)
+    plateau_voltage: Q("voltage", gt=0)
+    gate_charge: Q("charge", gt=0)
+    gate_source_charge: Q("charge", gt=0)
+    gate_drain_charge: Q("charge", gt=0)
+    max_drain_voltage: Q("voltage", gt=0)
+    max_pulse_current: Q("current", gt=0)
+    loop_inductance: Q("inductance", ge=0) | None = None
+
+
+class GateDriver(_Model):
+    supply: Q("voltage", gt=0)
+    output_resistance: Q("resistance", ge=0) = 0.0
+    gate_resistor: Q("resistance", ge=0) = 0.0
+    propagation_delay: Q("time", ge=0) = 0.0
+    input: str = "lvcmos33"
+    rise_time: Q("time", gt=0) | None = None
+    fall_time: Q("time", gt=0) | None = None
+    jitter_rms: Q("time", ge=0) = 0.0
+
+
+class Supply(_Model):
+    voltage: Q("voltage", gt=0)
+    series_resistor: Q("resistance", ge=0)
+    series_resistor_power: Q("power", gt=0)
+    storage_capacitance: Q("capacitance", gt=0)
+    esr: Q("resistance", ge=0) = 0.0
+    max_current: Q("current", gt=0)
+    max_power: Q("power", gt=0)
+
+
+class TriggerInput(_Model):
+    family: str
+    capacitance: Q("capacitance", gt=0) = 10e-12
+    tolerant: bool = False
+
+
+class Camera(_Model):
+    exposure: Q("time", gt=0)
+    frame_rate: Q("frequency", gt=0)
+    shutter: Literal["global", "rolling"] = "global"
+    readout: Q("time", ge=0) | None = None
+    trigger_latency: Q("time", ge=0) = 0.0
+    trigger_input: TriggerInput | None = None
+    object_pixel: Q("length", gt=0) | None = None
+    bit_depth: Count(ge=1, le=24) = 8
+
+
+class TriggerLink(_Model):
+    series: Literal[E_SERIES_NAMES] = "E24"  # type: ignore[valid-type]
+    tolerance: Q("ratio", gt=0, lt=0.5) | None = None
+    top: Q("resistance", gt=0) | None = None
+    bottom: Q("resistance", gt=0) | None = None
+
+
+class Optics(_Model):
+    passes: Literal[1, 2] = 1
+    cutoff_distance: Q("length", gt=0)
+    cutoff_opening: Q("length", gt=0)
+    sound_path: Q("length", gt=0)
+    light_wavelength: Q("length", gt=100e-9, lt=2e-6) = 630e-9
+    min_contrast: Q("ratio", gt=0, lt=1) | None = None
+
+
+class Rig(_Model):
+    name: str = "unnamed rig"
+    description: str = ""
+    wave: Wave
+    air: Air = Air()
+    emitter: Emitter | None = None
+    controller: Controller
+    strobe: Strobe
+    sweep: Sweep | None = None
+    led: Led | None = None
+    switch: Switch | None = None
+    gate_driver: GateDriver | None = None
+    supply: Supply | None = None
+    camera: Camera | None = None
+    trigger_link: TriggerLink | None = None
+    optics: Optics | None = None
+
+
+# --- loading ------------------------------------------------------------------------------
+
+
+def load_rig(source: str | Path) -> Rig:
+    """Read and validate a rig file. ``"-"`` reads standard input.
+
+    Raises
+    ------
+    RigError
+        For anything unreadable, malformed, out of range or contradictory.
+    """
+    if str(source) == "-":
+        import sys
+
+        data = sys.stdin.buffer.read()
+        where = "<stdin>"
+    else:
+        path = Path(source)
+        try:
+            data = path.read_bytes()
+        except FileNotFoundError:
+            raise RigError("", str(source), "no such rig file") from None
+        except IsADirectoryError:
+            raise RigError("", str(source), "is a directory, expected a rig file") from None
+        except OSError as exc:
+            raise RigError("", str(source), f"cannot be read ({exc.strerror})") from None
+        where = str(source)
+    return loads_rig(data, where)
+
+
+def loads_rig(data: bytes | str, where: str = "<rig>") -> Rig:
+    """Validate rig-file text (bytes or str); see :func:`load_rig`."""
+    if isinstance(data, bytes):
+        if b"\x00" in data:
+            raise RigError("", where, "is a binary file, expected TOML text")
+        try:
+            text = data.decode("utf-8")
+        except UnicodeDecodeError as exc:
+            raise RigError("", where, f"is not UTF-8 text (byte {exc.start})") from None
+    else:
+        text = data
+    if not text.strip():
+        raise RigError("", where, "is empty, expected a TOML rig file (try `strobeplan new`)")
+    try:
+        raw = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise RigError("", where, f"TOML syntax error: {exc}") from None
+    return rig_from_dict(raw)
+
+
+def rig_from_dict(raw: dict[str, Any]) -> Rig:
+    """Validate a parsed rig dictionary (TOML tables as dicts)."""
+    try:
+        rig = Rig.model_validate(raw)
+    except ValidationError as exc:
+        raise _first_error(exc, raw) from None
+    cross_check(rig, raw)
+    return rig
+
+
+def _lookup(raw, loc):
+    node = raw
+    for part in loc:
+        try:
+            node = node[part]
+        except (KeyError, IndexError, TypeError):
+            return MISSING
+    return node
+
+
+def _model_at(loc) -> type[BaseModel] | None:
+    model: Any = Rig
+    for part in loc:
+        if isinstance(part, int):
+            continue
+        field = getattr(model, "model_fields", {}).get(part)
+        if field is None:
+            return None
+        model = _inner_model(field.annotation)
+        if model is None:
+            return None
+    return model
+
+
+def _inner_model(annotation):
+    import typing
+
+    if isinstance(annotation, type) and issubclass(annotation, BaseModel):
+        return annotation
+    for arg in typing.get_args(annotation):
+        found = _inner_model(arg)
+        if found is not None:
+            return found
+    return None
+
+
+def _field_kind(loc) -> str | None:
+    model = _model_at(loc[:-1])
+    if model is None:
+        return None
+    field = model.model_fields.get(loc[-1]) if isinstance(loc[-1], str) else None
+    if field is None:
+        return None
+    extra = field.json_schema_extra
+    if isinstance(extra, dict) and "kind" in extra:
+        return extra["kind"]
+    return _kind_in(field.annotation)
+
+
+def _kind_in(annotation):
+    import typing
+
+    for meta in getattr(annotation, "__metadata__", ()):
+        extra = getattr(meta, "json_schema_extra", None)
+        if isinstance(extra, dict) and "kind" in extra:
+            return extra["kind"]
+    for arg in typing.get_args(annotation):
+        found = _kind_in(arg)
+        if found:
+            return found
+    return None
+
+
+def _path(loc) -> str:
+    out = ""
+    for part in loc:
+        if isinstance(part, int):
+            out += f"[{part}]"
+        else:
+            out += ("." if out else "") + str(part)
+    return out
+
+
+def _first_error(exc: ValidationError, raw) -> RigError:
+    errors = exc.errors(include_url=False)
+    # Prefer the most informative error: drop union-branch noise about None.
+    errors = [e for e in errors if e["type"] != "none_required"] or errors
+    # An unknown key usually explains a "missing" one (a typo): report it first.
+    errors.sort(key=lambda e: e["type"] != "extra_forbidden")
+    err = errors[0]
+    loc = tuple(p for p in err["loc"] if not (isinstance(p, str) and p.startswith("function-")))
+    loc = tuple(p for p in loc if p not in ("float", "int", "str", "bool", "list"))
+    path = _path(loc)
+    value = _lookup(raw, loc)
+    kind = _field_kind(loc) if loc else None
+    etype = err["type"]
+    more = f" (and {len(errors) - 1} more problem{'s' if len(errors) > 2 else ''})" \
+        if len(errors) > 1 else ""
+    if etype == "extra_forbidden":
+        model = _model_at(loc[:-1])
+        names = list(model.model_fields) if model else []
+        guess = difflib.get_close_matches(str(loc[-1]), names, n=1, cutoff=0.5)
+        hint = f"; did you mean '{guess[0]}'?" if guess else ""
+        where = _path(loc[:-1]) or "the top level"
+        known = ", ".join(names)
+        return RigError(path, value, f"unknown key in {where}{hint} (known: {known}){more}")
+    if etype == "missing":
+        what = f"a {kind.replace('_', ' ')} like '{units.kind_example(kind)}'" if kind \
+            else "a value"
+        return RigError(path, MISSING, f"required key is missing: expected {what}{more}")
+    msg = err["msg"]
+    if msg.startswith("Value error, "):
+        msg = msg[len("Value error, "):]
+    ctx = err.get("ctx") or {}
+    unit = units.KINDS[kind].display if kind else ""
+    for key, word in (("gt", "greater than"), ("ge", "at least"), ("lt", "less than"),
+                      ("le", "at most")):
+        if etype in ("greater_than", "greater_than_equal", "less_than", "less_than_equal") \
+                and key in ctx:
+            limit = ctx[key]
+            shown = units.render(float(limit), kind) if kind else str(limit)
+            if kind and float(limit) == 0:
+                shown = f"0 {unit}".strip()
+            msg = f"expected a value {word} {shown}"
+            break
+    if etype in ("too_short", "too_long"):
+        msg = msg.replace("List should", "expected a list that has")
+    if etype == "literal_error":
+        msg = msg.replace("Input should be", "expected")
+    if etype in ("dict_type", "model_type"):
+        msg = "expected a table (a [section] or { ... })"
+    if etype == "list_type":
+        msg = "expected a list [ ... ]"
+    if etype in ("string_type", "bool_type", "bool_parsing"):
+        msg = msg.replace("Input should be", "expected")
+    return RigError(path, value, msg + more)
+
+
+def _fail(raw, path: str, expected: str):
+    loc = tuple(int(p) if p.isdigit() else p for p in path.replace("[", ".").replace("]", "")
+                .split("."))
+    value = _lookup(raw, loc)
+    raise RigError(path, None if value is MISSING else value, expected)
+
+
+def cross_check(rig: Rig, raw: dict | None = None) -> None:
+    """Settings that are each valid but contradict one another (raise RigError)."""
+    raw = raw or {}
+    r = units.render
+    f = rig.wave.frequency
+    synth = rig.emitter.synthesis if rig.emitter else None
+    flash_period = rig.strobe.every / f
+    if rig.strobe.pulse_width >= flash_period:
+        _fail(raw, "strobe.pulse_width",
+              f"expected shorter than the flash period {r(flash_period, 'time')} "
+              f"(every = {rig.strobe.every} at {r(f, 'frequency')})")
+    drive_rate = f
+    if synth is not None:
+        if synth.carrier is None and synth.samples_per_cycle is None:
+            _fail(raw, "emitter.synthesis",
+                  "expected 'carrier' or 'samples_per_cycle' (the PWM carrier)")
+        if synth.carrier is not None and synth.samples_per_cycle is not None:
+            implied = synth.samples_per_cycle * f
+            if abs(implied - synth.carrier) > 0.02 * synth.carrier:
+                _fail(raw, "emitter.synthesis.samples_per_cycle",
+                      f"contradicts carrier {r(synth.carrier, 'frequency')} (implies "
+                      f"{r(implied, 'frequency')}); give one of the two")
+        if synth.carrier is not None and synth.carrier < 4 * f:
+            _fail(raw, "emitter.synthesis.carrier",
+                  f"expected at least 4x the wave frequency ({r(4 * f, 'frequency')})")
+        drive_rate = synth.carrier or synth.samples_per_cycle * f
+        if synth.filter is not None and synth.filter.kind == "rc" and synth.filter.order != 1:
+            _fail(raw, "emitter.synthesis.filter.order",
+                  "expected 1 for kind = 'rc' (use kind = 'butterworth' for higher orders)")
+    if rig.controller.clock < 2 * drive_rate:
+        _fail(raw, "controller.clock",
+              f"expected at least 2x the fastest timer rate ({r(2 * drive_rate, 'frequency')})")
+    if not rig.controller.shared_clock and rig.controller.clock_tolerance is None:
+        _fail(raw, "controller.clock_tolerance",
+              "required when shared_clock = false (the ppm tolerance between the clocks)")
+    if rig.controller.shared_clock and rig.controller.clock_tolerance is not None:
+        _fail(raw, "controller.clock_tolerance",
+              "given, but shared_clock = true: remove it or set shared_clock = false")
+    if rig.sweep is not None:
+        s = rig.sweep
+        if s.slow_motion is not None and (s.steps is not None or s.span is not None):
+            _fail(raw, "sweep.slow_motion",
+                  "contradicts sweep.steps/span: a sweep is either phase steps or slow motion")
+        if s.slow_motion is None and s.steps is None:
+            _fail(raw, "sweep", "expected 'steps' (with optional 'span') or 'slow_motion'")
+        if s.slow_motion is not None:
+            if s.slow_motion == 0:
+                _fail(raw, "sweep.slow_motion", "expected a non-zero apparent frequency")
+            if abs(s.slow_motion) >= f / (2 * rig.strobe.every):
+                _fail(raw, "sweep.slow_motion",
+                      f"expected below half the flash rate "
+                      f"({r(f / (2 * rig.strobe.every), 'frequency')})")
+    cam = rig.camera
+    if cam is not None:
+        if cam.exposure > 1.0 / cam.frame_rate:
+            _fail(raw, "camera.exposure",
+                  f"expected no longer than the frame period {r(1 / cam.frame_rate, 'time')}")
+        if cam.shutter == "rolling" and cam.readout is None:
+            _fail(raw, "camera.readout", "required for shutter = 'rolling' (the row readout time)")
+        if cam.frame_rate > f / rig.strobe.every:
+            _fail(raw, "camera.frame_rate", "expected no faster than the flash rate")
+    if rig.emitter is not None:
+        e = rig.emitter
+        quad = ("spl_at_reference", "reference_distance", "reference_voltage", "drive_voltage")
+        given = [k for k in quad if getattr(e, k) is not None]
+        if given and len(given) != len(quad):
+            missing = [k for k in quad if k not in given][0]
+            _fail(raw, f"emitter.{missing}",
+                  f"required with {given[0]} (the SPL reference needs all of "
+                  f"{', '.join(quad)})")
+    led = rig.led
+    if led is not None:
+        pts = led.forward_voltage
+        cur = [p.current for p in pts]
+        if len(set(cur)) != len(cur):
+            _fail(raw, "led.forward_voltage", "expected points at distinct currents")
+        order = sorted(range(len(pts)), key=lambda i: cur[i])
+        volts = [pts[i].voltage for i in order]
+        if any(b <= a for a, b in zip(volts, volts[1:], strict=False)):
+            _fail(raw, "led.forward_voltage", "expected the voltage to rise with the current")
+        if led.phosphor_fraction > 0 and led.phosphor_decay is None:
+            _fail(raw, "led.phosphor_decay", "required when phosphor_fraction > 0")
+        if led.max_pulse_current is not None and led.max_pulse_current < led.max_dc_current:
+            _fail(raw, "led.max_pulse_current", "expected at least led.max_dc_current")
+        if led.junction_max <= led.ambient:
+            _fail(raw, "led.junction_max", "expected above led.ambient")
+    sw = rig.switch
+    if sw is not None:
+        if not sw.threshold_voltage < sw.plateau_voltage:
+            _fail(raw, "switch.plateau_voltage", "expected above switch.threshold_voltage")
+        if sw.gate_source_charge + sw.gate_drain_charge > sw.gate_charge * 1.0001:
+            _fail(raw, "switch.gate_charge",
+                  "expected at least gate_source_charge + gate_drain_charge")
+    tl = rig.trigger_link
+    if tl is not None and (tl.top is None) != (tl.bottom is None):
+        _fail(raw, "trigger_link.top" if tl.top is None else "trigger_link.bottom",
+              "give both top and bottom (to check a pair) or neither (to propose one)")

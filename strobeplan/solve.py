@@ -1,0 +1,28 @@
+"""Compose physics and timing into a Plan: rig -> stages -> checks -> findings."""
+
+from __future__ import annotations
+
+from . import timing
+from .checks import run_checks
+from .plan import Plan
+from .stages import air as air_stage
+from .stages import flash as flash_stage
+
+
+def solve(rig) -> Plan:
+    """Compute every section the rig has inputs for, then run all checks.
+
+    Stage order matters: air (speed of sound) and flash (delays, edges, centroid) feed the
+    timing core; later stages read the timing (flashes per frame, duty) and one another.
+    """
+    plan = Plan(rig=rig)
+    air_stage.build(rig, plan)
+    flash_stage.build(rig, plan)
+    plan.lock = timing.build(rig, plan)
+    plan.findings = run_checks(plan)
+    return plan
+
+
+def build_schedule(plan: Plan, steps: int | None = None) -> timing.Schedule:
+    """The per-frame schedule of a solved plan."""
+    return timing.schedule(plan.rig, plan, plan.lock, steps=steps)

@@ -1,0 +1,537 @@
+"""The phase-locked timing core: ticks, drive synthesis, chain delay, flash edge, schedules.
+
+Everything a hardware timer needs is an integer number of ticks of the controller clock
+(1 tick = 1/clock). The drive period is N_d = M * N_c ticks (M carrier periods of N_c
+ticks; M = 1 for a plain square drive). The flash timer runs at exactly ``every`` drive
+periods, so the flash is locked to the drive by construction; its compare value (the edge,
+in ticks after the drive period starts) places the optical centroid at the requested wave
+phase *at the view*, after the drive chain's phase delay and the acoustic travel time.
+
+The functions here are pure over floats and ints (no pydantic): :func:`build` is the stage
+that reads the rig and stores the ``timing`` and ``drive`` sections on the plan.
+
+References
+----------
+1. A. V. Oppenheim, R. W. Schafer, Discrete-Time Signal Processing, 3rd ed. (2010), §5.1
+   (phase delay of a steady sinusoid).
+2. Dirichlet kernel: the mean of n unit phasors spaced by delta has magnitude
+   |sin(n delta/2) / (n sin(delta/2))| (e.g. Oppenheim & Schafer, §2.7).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+from .physics import air as air_model
+from .physics import drive as drive_model
+from .plan import Section
+
+TWO_PI = 2.0 * math.pi
+
+
+# --- pure helpers -------------------------------------------------------------------------
+
+
+def choose_drive(clock: float, frequency: float, carrier: float | None = None,
+                 samples_per_cycle: int | None = None) -> tuple[int, int]:
+    """Integers (M, N_c) whose drive frequency clock/(M N_c) is closest to ``frequency``.
+
+    Ties in frequency go to the carrier closest to the requested one.
+
+    Parameters
+    ----------
+    clock : float
+        Timer clock. [Hz]
+    frequency : float
+        Requested drive (wave) frequency. [Hz]
+    carrier : float, optional
+        Requested PWM carrier. [Hz]
+    samples_per_cycle : int, optional
+        Carrier periods per drive cycle, fixing M.
+
+    Returns
+    -------
+    (int, int)
+        M carrier periods per drive cycle, N_c ticks per carrier period.
+    """
+    if samples_per_cycle:
+        ms = [int(samples_per_cycle)]
+    elif carrier:
+        m0 = carrier / frequency
+        ms = sorted({max(1, math.floor(m0)), max(1, math.ceil(m0))})
+    else:
+        ms = [1]
+    best = None
+    for m in ms:
+        n0 = clock / (m * frequency)
+        for nc in {max(1, math.floor(n0)), max(1, math.ceil(n0))}:
+            realised = clock / (m * nc)
+            c_err = abs(clock / nc - carrier) / carrier if carrier else 0.0
+            key = (abs(realised - frequency) / frequency, c_err, m)
+            if best is None or key < best[0]:
+                best = (key, m, nc)
+    assert best is not None
+    return best[1], best[2]
+
+
+def wrap_phase(phase: float) -> float:
+    """Phase wrapped to [0, 2 pi). [rad]"""
+    return phase % TWO_PI
+
+
+def wrap_error(phase: float) -> float:
+    """Phase difference wrapped to [-pi, pi). [rad]"""
+    return (phase + math.pi) % TWO_PI - math.pi
+
+
+def edge_ticks_for_phase(phase: float, frequency: float, clock: float, period_ticks: int,
+                         chain_delay: float, flash_delay: float) -> int:
+    """Compare value (ticks after the drive period starts) that puts the optical centroid
+    at wave phase ``phase`` at the view.
+
+    Parameters
+    ----------
+    phase : float
+        Requested wave phase at the view. [rad]
+    frequency : float
+        Realised drive frequency. [Hz]
+    clock : float
+        Timer clock. [Hz]
+    period_ticks : int
+        Drive period. [ticks]
+    chain_delay : float
+        Drive edge to wave at the view (filter, amplifier, transducer, travel, calibration). [s]
+    flash_delay : float
+        Timer edge to optical centroid (driver, switch, LED). [s]
+    """
+    t_target = chain_delay + wrap_phase(phase) / (TWO_PI * frequency)
+    return int(round((t_target - flash_delay) * clock)) % period_ticks
+
+
+def phase_of_edge(edge_ticks: int, frequency: float, clock: float, chain_delay: float,
+                  flash_delay: float) -> float:
+    """Wave phase at the view when the flash of a given edge is seen. [rad]"""
+    t_centroid = edge_ticks / clock + flash_delay
+    return wrap_phase(TWO_PI * frequency * (t_centroid - chain_delay))
+
+
+def dirichlet_smear(n: int, step: float) -> float:
+    """Contrast kept when n equal flashes land at phases spaced by ``step`` (Dirichlet).
+
+    Parameters
+    ----------
+    n : int
+        Flashes averaged in one image.
+    step : float
+        Phase advance between consecutive flashes. [rad]
+
+    Returns
+    -------
+    float
+        |sin(n step/2) / (n sin(step/2))|, 1 for n <= 1 or step = 0. [1]
+    """
+    if n <= 1:
+        return 1.0
+    half = 0.5 * step
+    if abs(math.sin(half)) < 1e-15:
+        return 1.0
+    return abs(math.sin(n * half) / (n * math.sin(half)))
+
+
+def slow_motion_step(apparent: float, clock: float, period_ticks: int, every: int) -> int:
+    """Extra ticks s per flash period (every*N_d + s) for an apparent frequency.
+
+    Each flash advances the seen phase by 2 pi s/N_d, at a flash rate clock/(every N_d + s),
+    so apparent = s clock / (N_d (every N_d + s)), solved for s and rounded.
+    """
+    nd = period_ticks
+    s = apparent * every * nd * nd / (clock - apparent * nd)
+    return int(round(s))
+
+
+def slow_motion_apparent(step_ticks: int, clock: float, period_ticks: int, every: int) -> float:
+    """Apparent frequency realised by a slow-motion step of ``step_ticks``. [Hz]"""
+    nd = period_ticks
+    return step_ticks * clock / (nd * (every * nd + step_ticks))
+
+
+def flashes_in_window(edge_ticks: int, spacing_ticks: int, clock: float, window_start: float,
+                      window_end: float, flash_delay: float, light_length: float
+                      ) -> tuple[int, int]:
+    """Flash slots (edge + j*spacing ticks, j >= 0) whose whole light pulse is in a window.
+
+    Returns
+    -------
+    (int, int)
+        (number of flashes, index j of the first one).
+    """
+    t0 = edge_ticks / clock + flash_delay
+    dt = spacing_ticks / clock
+    j_min = max(0, math.ceil((window_start - t0) / dt - 1e-9))
+    j_max = math.floor((window_end - light_length - t0) / dt + 1e-9)
+    return max(0, j_max - j_min + 1), j_min
+
+
+# --- sections -----------------------------------------------------------------------------
+
+
+@dataclass
+class DriveSection(Section):
+    """The emitter drive chain at the realised frequency."""
+
+    waveform: str
+    carrier_periods_per_cycle: int
+    carrier_period_ticks: int
+    pwm_resolution_bits: float | None
+    filter_delay_s: float
+    amplifier_delay_s: float
+    transducer_delay_s: float
+    transducer_phase_deg: float
+    detuning_db: float | None
+    travel_time_s: float
+    calibration_offset_s: float
+    carrier_attenuation_db: float | None
+
+
+@dataclass
+class TimingSection(Section):
+    """Timer settings and what they achieve (design §4 ``timing``)."""
+
+    tick_s: float
+    drive_frequency_hz: float
+    drive_frequency_error_ppm: float
+    drive_period_ticks: int
+    carrier_frequency_hz: float | None
+    flash_period_ticks: int
+    flash_rate_hz: float
+    chain_delay_s: float
+    flash_delay_s: float
+    flash_edge_ticks: int
+    flash_edge_s: float
+    phase_requested_deg: float
+    phase_achieved_deg: float
+    phase_error_deg: float
+    phase_resolution_deg: float
+    mode: str
+    frame_period_ticks: int | None
+    frame_rate_hz: float | None
+    window_start_s: float | None
+    window_s: float | None
+    flashes_per_frame: int | None
+    first_flash_ticks: int | None
+    duty_in_burst: float
+    duty_average: float
+    phase_per_kelvin_deg: float
+    sweep_step_deg: float | None
+    slow_motion_step_ticks: int | None
+    apparent_frequency_hz: float | None
+    clock_drift_deg_per_s: float | None
+    drift_per_exposure_deg: float | None
+    smear: float
+
+
+@dataclass(frozen=True)
+class Lock:
+    """The integers and delays the schedule needs (internal, not an output section)."""
+
+    clock: float
+    frequency: float
+    period_ticks: int
+    flash_ticks: int
+    every: int
+    chain_delay: float
+    flash_delay: float
+    light_length: float
+    frame_ticks: int | None
+    window_start: float | None
+    window_end: float | None
+    slow_step: int | None
+
+
+def _chain(rig, frequency: float, speed: float) -> tuple[DriveSection, float]:
+    em = rig.emitter
+    synth = em.synthesis if em else None
+    filt = synth.filter if synth else None
+    if filt is None:
+        phi_f = 0.0
+    elif filt.kind == "rc":
+        phi_f = float(math.atan2(-frequency / filt.cutoff, 1.0))
+    else:
+        phi_f = float(drive_model.butterworth_phase(frequency, filt.cutoff, filt.order))
+    amp_bw = synth.amplifier_bandwidth if synth else None
+    phi_a = float(math.atan2(-frequency / amp_bw, 1.0)) if amp_bw else 0.0
+    if em is not None:
+        h_t = complex(drive_model.motional_response(frequency, em.resonance, em.quality_factor))
+        phi_t = math.atan2(h_t.imag, h_t.real)
+        detune = float(drive_model.attenuation_db(h_t))
+        travel = em.distance_to_view / speed
+    else:
+        phi_t, detune, travel = 0.0, None, 0.0
+    d_f = float(drive_model.phase_delay(phi_f, frequency))
+    d_a = float(drive_model.phase_delay(phi_a, frequency))
+    d_t = float(drive_model.phase_delay(phi_t, frequency))
+    chain = d_f + d_a + d_t + travel + rig.strobe.calibration_offset
+    m, nc = choose_drive(rig.controller.clock, rig.wave.frequency,
+                         synth.carrier if synth else None,
+                         synth.samples_per_cycle if synth else None)
+    carrier_att = None
+    if synth is not None:
+        fc = rig.controller.clock / nc
+
+        def gain(f):
+            g = 1.0
+            if filt is not None:
+                h = drive_model.rc_response(f, filt.cutoff) if filt.kind == "rc" else \
+                    drive_model.butterworth_response(f, filt.cutoff, filt.order)
+                g *= abs(complex(h))
+            if amp_bw:
+                g *= abs(complex(drive_model.single_pole_response(f, amp_bw)))
+            return g
+
+        carrier_att = 20.0 * math.log10(gain(frequency) / gain(fc))
+    section = DriveSection(
+        waveform="pwm" if synth else "square",
+        carrier_periods_per_cycle=m,
+        carrier_period_ticks=nc,
+        pwm_resolution_bits=math.log2(nc) if synth else None,
+        filter_delay_s=d_f,
+        amplifier_delay_s=d_a,
+        transducer_delay_s=d_t,
+        transducer_phase_deg=math.degrees(phi_t),
+        detuning_db=detune,
+        travel_time_s=travel,
+        calibration_offset_s=rig.strobe.calibration_offset,
+        carrier_attenuation_db=carrier_att,
+    )
+    return section, chain
+
+
+def build(rig, plan) -> Lock:
+    """Timing stage: store ``plan.timing`` and ``plan.drive``; return the :class:`Lock`.
+
+    Needs ``plan.air`` (speed of sound) and ``plan.flash`` (delay to the optical
+    centroid, pulse length) to be computed first.
+    """
+    clock = rig.controller.clock
+    strobe = rig.strobe
+    synth = rig.emitter.synthesis if rig.emitter else None
+    m, nc = choose_drive(clock, rig.wave.frequency, synth.carrier if synth else None,
+                         synth.samples_per_cycle if synth else None)
+    nd = m * nc
+    f = clock / nd
+    speed = plan.air.speed_of_sound_m_s
+    drive, chain = _chain(rig, f, speed)
+    flash_delay = plan.flash.delay_s + plan.flash.centroid_s
+    light_length = plan.flash.light_length_s
+    every = strobe.every
+    flash_ticks = every * nd
+    edge = edge_ticks_for_phase(strobe.phase, f, clock, nd, chain, flash_delay)
+    achieved = phase_of_edge(edge, f, clock, chain, flash_delay)
+    err = wrap_error(achieved - wrap_phase(strobe.phase))
+
+    sweep = rig.sweep
+    slow_step = None
+    apparent = None
+    mode = "frozen"
+    sweep_step = None
+    if sweep is not None and sweep.slow_motion is not None:
+        mode = "slow_motion"
+        slow_step = slow_motion_step(sweep.slow_motion, clock, nd, every)
+        if slow_step == 0:
+            slow_step = 1 if sweep.slow_motion > 0 else -1
+        apparent = slow_motion_apparent(slow_step, clock, nd, every)
+        flash_ticks = every * nd + slow_step
+    elif sweep is not None:
+        mode = "sweep"
+        sweep_step = (sweep.span or TWO_PI) / sweep.steps
+
+    cam = rig.camera
+    frame_ticks = window_start = window_end = None
+    n_frame = first = None
+    frame_rate = None
+    width = strobe.pulse_width
+    if cam is not None:
+        if mode == "slow_motion":
+            frame_ticks = max(1, round(clock / cam.frame_rate))
+        else:
+            frame_ticks = max(1, round(clock / cam.frame_rate / flash_ticks)) * flash_ticks
+        frame_rate = clock / frame_ticks
+        readout = cam.readout if cam.shutter == "rolling" else 0.0
+        window_start = cam.trigger_latency + readout
+        window_end = cam.trigger_latency + cam.exposure
+        if strobe.continuous:
+            n_frame = int(max(0.0, (window_end - window_start)) * clock // flash_ticks)
+            first = None
+        else:
+            n_frame, j0 = flashes_in_window(edge, flash_ticks, clock, window_start, window_end,
+                                            flash_delay - plan.flash.centroid_s, light_length)
+            first = edge + j0 * flash_ticks if n_frame else None
+    duty_burst = width / (flash_ticks / clock)
+    if cam is not None and not strobe.continuous:
+        duty_avg = (n_frame or 0) * width * frame_rate
+    else:
+        duty_avg = duty_burst
+
+    # Separate clocks: the strobe timer slips against the drive by tol per unit time.
+    drift_rate = drift_exp = None
+    smear = 1.0
+    if not rig.controller.shared_clock:
+        tol = rig.controller.clock_tolerance
+        drift_rate = 360.0 * f * tol
+        if cam is not None:
+            drift_exp = drift_rate * cam.exposure
+            smear *= dirichlet_smear(n_frame or 0, TWO_PI * tol * f * flash_ticks / clock)
+    if mode == "slow_motion" and cam is not None:
+        smear *= dirichlet_smear(n_frame or 0, TWO_PI * slow_step / nd)
+
+    # Sensitivity of the frozen phase to air temperature: d(phase)/dT = w d/c^2 dc/dT.
+    if rig.emitter is not None and rig.wave.speed is None:
+        a = rig.air
+        dc_dt = (air_model.speed_of_sound(a.temperature + 0.5, a.relative_humidity, a.pressure,
+                                          a.co2)
+                 - air_model.speed_of_sound(a.temperature - 0.5, a.relative_humidity,
+                                            a.pressure, a.co2))
+        per_k = math.degrees(TWO_PI * f * rig.emitter.distance_to_view / speed**2 * dc_dt)
+    else:
+        per_k = 0.0
+
+    plan.drive = drive
+    plan.timing = TimingSection(
+        tick_s=1.0 / clock,
+        drive_frequency_hz=f,
+        drive_frequency_error_ppm=(f - rig.wave.frequency) / rig.wave.frequency * 1e6,
+        drive_period_ticks=nd,
+        carrier_frequency_hz=clock / nc if synth else None,
+        flash_period_ticks=flash_ticks,
+        flash_rate_hz=clock / flash_ticks,
+        chain_delay_s=chain,
+        flash_delay_s=flash_delay,
+        flash_edge_ticks=edge,
+        flash_edge_s=edge / clock,
+        phase_requested_deg=math.degrees(wrap_phase(strobe.phase)),
+        phase_achieved_deg=math.degrees(achieved),
+        phase_error_deg=math.degrees(err),
+        phase_resolution_deg=360.0 * f / clock,
+        mode=mode,
+        frame_period_ticks=frame_ticks,
+        frame_rate_hz=frame_rate,
+        window_start_s=window_start,
+        window_s=(window_end - window_start) if cam is not None else None,
+        flashes_per_frame=n_frame,
+        first_flash_ticks=first,
+        duty_in_burst=duty_burst,
+        duty_average=duty_avg,
+        phase_per_kelvin_deg=per_k,
+        sweep_step_deg=math.degrees(sweep_step) if sweep_step is not None else None,
+        slow_motion_step_ticks=slow_step,
+        apparent_frequency_hz=apparent,
+        clock_drift_deg_per_s=drift_rate,
+        drift_per_exposure_deg=drift_exp,
+        smear=smear,
+    )
+    return Lock(clock=clock, frequency=f, period_ticks=nd, flash_ticks=flash_ticks,
+                every=every, chain_delay=chain, flash_delay=flash_delay,
+                light_length=light_length, frame_ticks=frame_ticks,
+                window_start=window_start, window_end=window_end, slow_step=slow_step)
+
+
+# --- schedule -----------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class ScheduleRow:
+    frame: int
+    target_phase_deg: float
+    achieved_phase_deg: float
+    phase_error_deg: float
+    edge_ticks: int
+    edge_time_s: float
+    camera_trigger_ticks: int
+    first_flash_ticks: int | None
+    flashes: int | None
+
+
+@dataclass(frozen=True)
+class Schedule:
+    mode: str
+    clock_hz: float
+    drive_period_ticks: int
+    flash_period_ticks: int
+    frame_period_ticks: int | None
+    rows: list[ScheduleRow]
+
+    COLUMNS = ("frame", "target_phase_deg", "achieved_phase_deg", "phase_error_deg",
+               "edge_ticks", "edge_time_s", "camera_trigger_ticks", "first_flash_ticks",
+               "flashes")
+
+
+MAX_ROWS = 100_000
+
+
+def schedule(rig, plan, lock: Lock, steps: int | None = None) -> Schedule:
+    """One row per camera frame: target and achieved phase, timer edge, flashes.
+
+    Sweep: frames step the phase by span/steps from ``strobe.phase`` (``steps`` overrides
+    ``sweep.steps``; without a [sweep] section, ``steps`` sweeps a full cycle). Slow
+    motion: flashes run continuously at every*N_d + s ticks; each row is the first flash
+    seen in that frame. Frozen (no sweep, no ``steps``): one row.
+    """
+    t = plan.timing
+    clock = lock.clock
+    nd = lock.period_ticks
+    frame_ticks = lock.frame_ticks or lock.flash_ticks
+    rows: list[ScheduleRow] = []
+    base = rig.strobe.phase
+    cam = rig.camera
+
+    def count(edge_abs_in_frame: int, spacing: int):
+        if cam is None:
+            return None, None
+        n, j0 = flashes_in_window(edge_abs_in_frame, spacing, clock, lock.window_start,
+                                  lock.window_end, lock.flash_delay - plan.flash.centroid_s,
+                                  lock.light_length)
+        return n, j0
+
+    if t.mode == "slow_motion":
+        n_rows = steps or min(MAX_ROWS, max(1, math.ceil(
+            (t.frame_rate_hz or t.flash_rate_hz) / abs(t.apparent_frequency_hz))))
+        edge0 = t.flash_edge_ticks
+        for k in range(min(n_rows, MAX_ROWS)):
+            start = k * frame_ticks
+            # first flash index whose edge is at or after this frame's start
+            j = max(0, math.ceil((start - edge0) / lock.flash_ticks))
+            edge_abs = edge0 + j * lock.flash_ticks
+            n, j0 = count(edge_abs - start, lock.flash_ticks)
+            if j0:
+                j += j0
+                edge_abs = edge0 + j * lock.flash_ticks
+            achieved = phase_of_edge(edge_abs % nd, lock.frequency, clock, lock.chain_delay,
+                                     lock.flash_delay)
+            target = wrap_phase(base + TWO_PI * t.apparent_frequency_hz * (edge_abs - edge0)
+                                / clock)
+            rows.append(ScheduleRow(k, math.degrees(target), math.degrees(achieved),
+                                    math.degrees(wrap_error(achieved - target)), edge_abs % nd,
+                                    (edge_abs % nd) / clock, start,
+                                    edge_abs if (n is None or n) else None, n))
+    else:
+        if steps is not None:
+            span = rig.sweep.span if (rig.sweep and rig.sweep.span) else TWO_PI
+            n_rows, step = steps, span / steps
+        elif t.mode == "sweep":
+            n_rows, step = rig.sweep.steps, math.radians(t.sweep_step_deg)
+        else:
+            n_rows, step = 1, 0.0
+        for k in range(min(n_rows, MAX_ROWS)):
+            target = wrap_phase(base + k * step)
+            edge = edge_ticks_for_phase(target, lock.frequency, clock, nd, lock.chain_delay,
+                                        lock.flash_delay)
+            achieved = phase_of_edge(edge, lock.frequency, clock, lock.chain_delay,
+                                     lock.flash_delay)
+            start = k * frame_ticks
+            n, j0 = count(edge, lock.flash_ticks)
+            first = start + edge + j0 * lock.flash_ticks if n else None
+            rows.append(ScheduleRow(k, math.degrees(target), math.degrees(achieved),
+                                    math.degrees(wrap_error(achieved - target)), edge,
+                                    edge / clock, start, first, n))
+    return Schedule(t.mode, clock, nd, lock.flash_ticks, lock.frame_ticks, rows)

@@ -1,0 +1,26 @@
+"""docs/findings.md and the rule registry list the same codes (regenerate on change)."""
+
+from __future__ import annotations
+
+import re
+
+from strobeplan.checks import RULES, findings_markdown, load_all
+from tests.conftest import ROOT
+
+
+def test_findings_doc_is_current():
+    text = (ROOT / "docs" / "findings.md").read_text(encoding="utf-8")
+    assert text == findings_markdown(), (
+        "docs/findings.md is stale: run `python -m strobeplan.checks > docs/findings.md`")
+
+
+def test_doc_and_registry_list_the_same_codes():
+    load_all()
+    text = (ROOT / "docs" / "findings.md").read_text(encoding="utf-8")
+    documented = set(re.findall(r"^## `([a-z_.]+)`", text, flags=re.M))
+    assert documented == set(RULES)
+    for r in RULES.values():
+        assert r.trigger and r.fix  # every code says what triggers it and how to fix it
+        assert r.code.split(".")[0] in {
+            "timing", "drive", "air", "exposure", "optics", "led", "switch", "supply",
+            "stuck_on", "trigger_link", "gate_link", "safety", "plan"}
