@@ -52,16 +52,22 @@ def edges(rig) -> tuple[float, float, float, str]:
 def centroid(rig, width: float, rise: float, fall: float) -> tuple[float, float]:
     """(centroid delay after the current starts, length of the light pulse). [s]
 
-    Trapezoid: ramp 0->1 over ``rise``, hold, ramp 1->0 over ``fall`` from t = width.
+    Exposure model (strobeplan.physics.exposure): the slew-limited current (ramp 0->1 over
+    ``rise``, fall from t = width at 1/``fall``; cut short at width/rise when the gate is
+    shorter than the rise) convolved with the LED response (fast part plus a phosphor
+    fraction w with single-exponential decay tau). The centroid is the first moment of that
+    optical pulse; the length runs to the end of the current plus 3 tau of phosphor tail
+    (95 % of the tail's light).
     """
-    rise = min(rise, width)
-    area = rise / 2 + (width - rise) + fall / 2
-    moment = rise**2 / 3 + (width**2 - rise**2) / 2 + fall / 2 * (width + fall / 3)
-    c = moment / area
+    from ..physics import exposure as exposure_model
+
     w = rig.led.phosphor_fraction if rig.led else 0.0
     tau = (rig.led.phosphor_decay or 0.0) if rig.led else 0.0
-    # The phosphor shifts the centroid by w*tau; its tail is counted to 3 tau (95 %).
-    return c + w * tau, width + fall + (3 * tau if w > 0 else 0.0)
+    if tau == 0.0:
+        w = 0.0
+    c = float(exposure_model.optical_centroid(width, rise, fall, w, tau))
+    peak = min(width / rise, 1.0) if rise > 0 else 1.0
+    return c, width + peak * fall + (3 * tau if w > 0 else 0.0)
 
 
 def build(rig, plan) -> None:
