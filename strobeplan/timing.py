@@ -156,21 +156,33 @@ def slow_motion_apparent(step_ticks: int, clock: float, period_ticks: int, every
     return step_ticks * clock / (nd * (every * nd + step_ticks))
 
 
-def flashes_in_window(edge_ticks: int, spacing_ticks: int, clock: float, window_start: float,
-                      window_end: float, flash_delay: float, light_length: float
-                      ) -> tuple[int, int]:
-    """Flash slots (edge + j*spacing ticks, j >= 0) whose whole light pulse is in a window.
+def align_camera(edge_ticks: int, spacing_ticks: int, clock: float, light_delay: float,
+                 light_length: float, lead: float, window: float) -> tuple[int, int, int]:
+    """Place the camera trigger so that its exposure window opens at a flash.
+
+    The flash slots are ``edge + j*spacing`` ticks (j >= 0) after the frame start; the light
+    of slot j starts ``light_delay`` later and lasts ``light_length``. The window opens
+    ``lead`` after the trigger (trigger latency, plus the readout for a rolling shutter) and
+    lasts ``window``. The trigger goes at the latest tick that still opens the window before
+    the light of the first slot that can be reached (trigger tick >= 0).
 
     Returns
     -------
-    (int, int)
-        (number of flashes, index j of the first one).
+    (int, int, int)
+        Trigger offset after the frame start [ticks], flashes whose whole light falls in
+        the window, offset of the first of them after the frame start [ticks].
     """
-    t0 = edge_ticks / clock + flash_delay
+    t_light0 = edge_ticks / clock + light_delay
     dt = spacing_ticks / clock
-    j_min = max(0, math.ceil((window_start - t0) / dt - 1e-9))
-    j_max = math.floor((window_end - light_length - t0) / dt + 1e-9)
-    return max(0, j_max - j_min + 1), j_min
+    j = max(0, math.ceil((lead - t_light0) / dt - 1e-12))
+    t_light = t_light0 + j * dt
+    trigger = max(0, math.floor((t_light - lead) * clock + 1e-9))
+    w_start = trigger / clock + lead
+    w_end = w_start + window
+    if w_end - light_length < t_light - 1e-12:
+        return trigger, 0, edge_ticks + j * spacing_ticks
+    n = math.floor((w_end - light_length - t_light) / dt + 1e-9) + 1
+    return trigger, n, edge_ticks + j * spacing_ticks
 
 
 # --- sections -----------------------------------------------------------------------------
@@ -216,6 +228,7 @@ class TimingSection(Section):
     mode: str
     frame_period_ticks: int | None
     frame_rate_hz: float | None
+    camera_trigger_offset_ticks: int | None
     window_start_s: float | None
     window_s: float | None
     flashes_per_frame: int | None
@@ -242,10 +255,11 @@ class Lock:
     every: int
     chain_delay: float
     flash_delay: float
+    light_delay: float
     light_length: float
     frame_ticks: int | None
-    window_start: float | None
-    window_end: float | None
+    lead: float | None
+    window: float | None
     slow_step: int | None
 
 
@@ -347,10 +361,11 @@ def build(rig, plan) -> Lock:
         sweep_step = (sweep.span or TWO_PI) / sweep.steps
 
     cam = rig.camera
-    frame_ticks = window_start = window_end = None
+    frame_ticks = lead = window = trigger = None
     n_frame = first = None
     frame_rate = None
     width = strobe.pulse_width
+    light_delay = flash_delay - plan.flash.centroid_s
     if cam is not None:
         if mode == "slow_motion":
             frame_ticks = max(1, round(clock / cam.frame_rate))
@@ -358,18 +373,13 @@ def build(rig, plan) -> Lock:
             frame_ticks = max(1, round(clock / cam.frame_rate / flash_ticks)) * flash_ticks
         frame_rate = clock / frame_ticks
         readout = cam.readout if cam.shutter == "rolling" else 0.0
-        window_start = cam.trigger_latency + readout
-        window_end = cam.trigger_latency + cam.exposure
-        if strobe.continuous:
-            n_frame = int(max(0.0, (window_end - window_start)) * clock // flash_ticks)
-            first = None
-        else:
-            n_frame, j0 = flashes_in_window(edge, flash_ticks, clock, window_start, window_end,
-                                            flash_delay - plan.flash.centroid_s, light_length)
-            first = edge + j0 * flash_ticks if n_frame else None
+        lead = cam.trigger_latency + readout
+        window = cam.exposure - readout
+        trigger, n_frame, first = align_camera(edge, flash_ticks, clock, light_delay,
+                                               light_length, lead, window)
     duty_burst = width / (flash_ticks / clock)
     if cam is not None and not strobe.continuous:
-        duty_avg = (n_frame or 0) * width * frame_rate
+        duty_avg = n_frame * width * frame_rate
     else:
         duty_avg = duty_burst
 
@@ -416,8 +426,9 @@ def build(rig, plan) -> Lock:
         mode=mode,
         frame_period_ticks=frame_ticks,
         frame_rate_hz=frame_rate,
-        window_start_s=window_start,
-        window_s=(window_end - window_start) if cam is not None else None,
+        camera_trigger_offset_ticks=trigger,
+        window_start_s=(trigger / clock + lead) if cam is not None else None,
+        window_s=window,
         flashes_per_frame=n_frame,
         first_flash_ticks=first,
         duty_in_burst=duty_burst,
@@ -432,8 +443,8 @@ def build(rig, plan) -> Lock:
     )
     return Lock(clock=clock, frequency=f, period_ticks=nd, flash_ticks=flash_ticks,
                 every=every, chain_delay=chain, flash_delay=flash_delay,
-                light_length=light_length, frame_ticks=frame_ticks,
-                window_start=window_start, window_end=window_end, slow_step=slow_step)
+                light_delay=light_delay, light_length=light_length, frame_ticks=frame_ticks,
+                lead=lead, window=window, slow_step=slow_step)
 
 
 # --- schedule -----------------------------------------------------------------------------
@@ -485,13 +496,23 @@ def schedule(rig, plan, lock: Lock, steps: int | None = None) -> Schedule:
     base = rig.strobe.phase
     cam = rig.camera
 
-    def count(edge_abs_in_frame: int, spacing: int):
-        if cam is None:
-            return None, None
-        n, j0 = flashes_in_window(edge_abs_in_frame, spacing, clock, lock.window_start,
-                                  lock.window_end, lock.flash_delay - plan.flash.centroid_s,
-                                  lock.light_length)
-        return n, j0
+    def frame_row(k: int, target: float, edge_in_frame: int, spacing: int) -> ScheduleRow:
+        """Row for frame k whose first flash slot is ``edge_in_frame`` ticks after its start."""
+        start = k * frame_ticks
+        if cam is not None:
+            trig, n, first = align_camera(edge_in_frame, spacing, clock, lock.light_delay,
+                                          lock.light_length, lock.lead, lock.window)
+        else:
+            trig, n, first = 0, None, edge_in_frame
+        edge_abs = start + first
+        achieved = phase_of_edge(edge_abs % nd, lock.frequency, clock, lock.chain_delay,
+                                 lock.flash_delay) if t.mode == "slow_motion" else \
+            phase_of_edge(edge_in_frame % nd, lock.frequency, clock, lock.chain_delay,
+                          lock.flash_delay)
+        edge = (edge_abs % nd) if t.mode == "slow_motion" else edge_in_frame % nd
+        return ScheduleRow(k, math.degrees(target), math.degrees(achieved),
+                           math.degrees(wrap_error(achieved - target)), edge, edge / clock,
+                           start + trig, edge_abs if (n is None or n) else None, n)
 
     if t.mode == "slow_motion":
         n_rows = steps or min(MAX_ROWS, max(1, math.ceil(
@@ -499,21 +520,11 @@ def schedule(rig, plan, lock: Lock, steps: int | None = None) -> Schedule:
         edge0 = t.flash_edge_ticks
         for k in range(min(n_rows, MAX_ROWS)):
             start = k * frame_ticks
-            # first flash index whose edge is at or after this frame's start
             j = max(0, math.ceil((start - edge0) / lock.flash_ticks))
-            edge_abs = edge0 + j * lock.flash_ticks
-            n, j0 = count(edge_abs - start, lock.flash_ticks)
-            if j0:
-                j += j0
-                edge_abs = edge0 + j * lock.flash_ticks
-            achieved = phase_of_edge(edge_abs % nd, lock.frequency, clock, lock.chain_delay,
-                                     lock.flash_delay)
-            target = wrap_phase(base + TWO_PI * t.apparent_frequency_hz * (edge_abs - edge0)
+            first_abs = edge0 + j * lock.flash_ticks
+            target = wrap_phase(base + TWO_PI * t.apparent_frequency_hz * (first_abs - edge0)
                                 / clock)
-            rows.append(ScheduleRow(k, math.degrees(target), math.degrees(achieved),
-                                    math.degrees(wrap_error(achieved - target)), edge_abs % nd,
-                                    (edge_abs % nd) / clock, start,
-                                    edge_abs if (n is None or n) else None, n))
+            rows.append(frame_row(k, target, first_abs - start, lock.flash_ticks))
     else:
         if steps is not None:
             span = rig.sweep.span if (rig.sweep and rig.sweep.span) else TWO_PI
@@ -526,12 +537,5 @@ def schedule(rig, plan, lock: Lock, steps: int | None = None) -> Schedule:
             target = wrap_phase(base + k * step)
             edge = edge_ticks_for_phase(target, lock.frequency, clock, nd, lock.chain_delay,
                                         lock.flash_delay)
-            achieved = phase_of_edge(edge, lock.frequency, clock, lock.chain_delay,
-                                     lock.flash_delay)
-            start = k * frame_ticks
-            n, j0 = count(edge, lock.flash_ticks)
-            first = start + edge + j0 * lock.flash_ticks if n else None
-            rows.append(ScheduleRow(k, math.degrees(target), math.degrees(achieved),
-                                    math.degrees(wrap_error(achieved - target)), edge,
-                                    edge / clock, start, first, n))
+            rows.append(frame_row(k, target, edge, lock.flash_ticks))
     return Schedule(t.mode, clock, nd, lock.flash_ticks, lock.frame_ticks, rows)

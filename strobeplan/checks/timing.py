@@ -11,20 +11,18 @@ SMEAR_LIMIT = 0.98
 
 
 @rule("timing.no_flash_in_exposure", "fault",
-      trigger="a camera is given and no whole flash falls inside the exposure window "
-              "(for a rolling shutter, the window in which all rows expose)",
-      fix="lengthen camera.exposure to at least one flash period plus the light pulse, "
-          "reduce strobe.every, or shorten camera.trigger_latency")
+      trigger="a camera is given and no whole light pulse fits inside the exposure window, "
+              "even with the camera trigger placed just before a flash (rolling shutters "
+              "are reported as timing.rolling_window_too_short)",
+      fix="lengthen camera.exposure to at least the light pulse "
+          "(flash.light_length_s), or shorten strobe.pulse_width")
 def no_flash_in_exposure(plan):
     t, cam = plan.timing, plan.rig.camera
-    if cam is None or plan.rig.strobe.continuous or t.flashes_per_frame:
+    if cam is None or t.flashes_per_frame or cam.shutter == "rolling":
         return None
-    if t.window_s is not None and t.window_s < plan.flash.light_length_s:
-        return None  # reported as rolling_window_too_short / window too short below
-    period = t.flash_period_ticks * t.tick_s
-    return Hit(f"no whole flash falls inside the {render(t.window_s, 'time')} exposure window "
-               f"(flash period {render(period, 'time')}): the frame stays dark",
-               value=0, limit=1, unit="flashes")
+    return Hit(f"the {render(t.window_s, 'time')} exposure is shorter than one light pulse "
+               f"({render(plan.flash.light_length_s, 'time')}): the frame stays dark",
+               value=t.window_s, limit=plan.flash.light_length_s, unit="s")
 
 
 @rule("timing.rolling_window_too_short", "fault",
@@ -36,23 +34,11 @@ def rolling_window_too_short(plan):
     t, cam = plan.timing, plan.rig.camera
     if cam is None or cam.shutter != "rolling":
         return None
-    if t.window_s >= plan.flash.light_length_s:
+    if t.flashes_per_frame:
         return None
     return Hit(f"all rows expose together for only {render(t.window_s, 'time')} "
                f"(exposure {render(cam.exposure, 'time')} - readout "
                f"{render(cam.readout, 'time')}); a flash outside it bands the image",
-               value=t.window_s, limit=plan.flash.light_length_s, unit="s")
-
-
-@rule("timing.window_too_short", "fault",
-      trigger="global shutter whose exposure window is shorter than one light pulse",
-      fix="lengthen camera.exposure to at least one flash period plus the light pulse")
-def window_too_short(plan):
-    t, cam = plan.timing, plan.rig.camera
-    if cam is None or cam.shutter != "global" or t.window_s >= plan.flash.light_length_s:
-        return None
-    return Hit(f"the exposure ({render(t.window_s, 'time')}) is shorter than one light pulse "
-               f"({render(plan.flash.light_length_s, 'time')})",
                value=t.window_s, limit=plan.flash.light_length_s, unit="s")
 
 

@@ -1,0 +1,75 @@
+"""Every finding code is reachable: one rig per documented code that triggers it.
+
+Each case starts from a bundled example and patches a few keys (a dict of dotted paths;
+``None`` deletes the key). The table must cover the registry exactly, so a new code
+without a reachability case fails here.
+"""
+
+from __future__ import annotations
+
+import copy
+import tomllib
+
+import pytest
+
+from strobeplan.checks import RULES, load_all
+from strobeplan.rig import rig_from_dict
+from strobeplan.solve import solve
+from tests.conftest import EXAMPLES, example
+
+BASES = {name: tomllib.loads(example(name).read_text()) for name in EXAMPLES}
+
+# code -> (base example, {dotted.path: new value or None to delete})
+CASES: dict[str, tuple[str, dict]] = {
+    "timing.no_flash_in_exposure": ("levitator-40k", {"camera.exposure": "500 ns"}),
+    "timing.rolling_window_too_short": ("rangefinder-58k", {"camera.readout": "2 ms"}),
+    "timing.phase_step_below_resolution": ("rangefinder-58k", {"sweep.steps": 1000}),
+    "timing.clock_drift_smear": ("levitator-40k", {
+        "controller.shared_clock": False, "controller.clock_tolerance": "1000 ppm",
+        "camera.exposure": "20 ms"}),
+    "timing.phase_unlocked": ("levitator-40k", {
+        "controller.shared_clock": False, "controller.clock_tolerance": "20 ppm"}),
+    "timing.slow_motion_smear": ("levitator-40k", {
+        "sweep": {"slow_motion": "300 Hz"}, "strobe.every": 1}),
+    "timing.slow_motion_quantised": ("levitator-40k", {
+        "sweep": {"slow_motion": "1 Hz"}, "strobe.every": 1}),
+    "timing.frame_rate_adjusted": ("levitator-40k", {
+        "strobe.every": 7, "camera.frame_rate": "53 Hz"}),
+    "drive.frequency_error": ("rangefinder-58k", {"controller.clock": "1 MHz"}),
+    "drive.off_resonance": ("levitator-40k", {"emitter.resonance": "40.6 kHz"}),
+    "drive.carrier_not_filtered": ("levitator-40k", {
+        "emitter.synthesis.filter": {"kind": "rc", "cutoff": "200 kHz"}}),
+    "drive.pwm_resolution_low": ("levitator-40k", {"controller.clock": "20 MHz"}),
+}
+
+
+def patched(base: str, patch: dict) -> dict:
+    raw = copy.deepcopy(BASES[base])
+    for dotted, value in patch.items():
+        node = raw
+        parts = dotted.split(".")
+        for p in parts[:-1]:
+            node = node.setdefault(p, {})
+        if value is None:
+            node.pop(parts[-1], None)
+        else:
+            node[parts[-1]] = value
+    return raw
+
+
+def test_every_registered_code_has_a_case():
+    load_all()
+    assert set(CASES) == set(RULES), (
+        f"missing cases: {sorted(set(RULES) - set(CASES))}; "
+        f"stale cases: {sorted(set(CASES) - set(RULES))}")
+
+
+@pytest.mark.parametrize("code", sorted(CASES))
+def test_code_is_reachable(code):
+    base, patch = CASES[code]
+    plan = solve(rig_from_dict(patched(base, patch)))
+    codes = {f.code for f in plan.findings}
+    assert code in codes, f"{code} not raised; got {sorted(codes)}"
+    severity = RULES[code].severity
+    if severity in ("hazard", "fault"):
+        assert plan.verdict == "fail"
