@@ -142,6 +142,64 @@ def new(example, output, force):
     _write_or_echo(text, output)
 
 
+def _quantity(text: str, kind: str, option: str) -> float:
+    """Parse an option value through strobeplan.units; bare resistances ("1k", "470") get
+    "ohm" appended."""
+    from . import units
+
+    try:
+        return units.parse(text, kind)
+    except units.UnitError as exc:
+        if kind == "resistance":
+            try:
+                return units.parse(text.strip() + "ohm", kind)
+            except units.UnitError:
+                pass
+        raise InputError(f"{option} {text!r}: {exc}") from None
+
+
+@cli.command()
+@click.option("--from", "source", required=True, metavar="FAMILY",
+              help="Driving output family (e.g. lvcmos33).")
+@click.option("--to", "destination", required=True, metavar="FAMILY",
+              help="Receiving input family (e.g. lvcmos18).")
+@click.option("--series", type=click.Choice(["E3", "E6", "E12", "E24", "E48", "E96", "E192"],
+                                            case_sensitive=False),
+              default="E24", show_default=True, help="IEC 60063 series to search.")
+@click.option("--tolerance", default=None, metavar="RATIO",
+              help="Resistor tolerance, e.g. 1%  [default: the series' own, E24 5 %]")
+@click.option("--capacitance", default="10pF", show_default=True,
+              help="Input plus trace capacitance.")
+@click.option("--check", "pair", nargs=2, default=None, metavar="TOP BOTTOM",
+              help="Check this pair (e.g. --check 1k 2k: 1 k on top) instead of proposing.")
+@click.option("--tolerant", is_flag=True, help="The input is over-voltage tolerant (5.5 V).")
+@click.option("--edge-limit", default=None, metavar="TIME",
+              help="Longest acceptable 10-90 % edge, e.g. 50ns.")
+@click.option("--count", type=click.IntRange(1, 100), default=5, show_default=True,
+              help="How many ranked pairs to show.")
+@click.option("--json", "as_json", is_flag=True,
+              help="Print the trigger_link section, findings and verdict as JSON.")
+def divider(source, destination, series, tolerance, capacitance, pair, tolerant, edge_limit,
+            count, as_json):
+    """Size or check a resistor divider between two logic families, worst case."""
+    from .report.text import plan_json, plan_text
+    from .stages.link import standalone
+
+    kwargs = dict(
+        series=series.upper(), capacitance=_quantity(capacitance, "capacitance",
+                                                     "--capacitance"),
+        tolerance=None if tolerance is None else _quantity(tolerance, "ratio", "--tolerance"),
+        tolerant=tolerant, count=count,
+        edge_limit=None if edge_limit is None else _quantity(edge_limit, "time", "--edge-limit"),
+    )
+    if pair:
+        kwargs["top"] = _quantity(pair[0], "resistance", "--check TOP")
+        kwargs["bottom"] = _quantity(pair[1], "resistance", "--check BOTTOM")
+    with user_errors():
+        plan = standalone(source, destination, **kwargs)
+    click.echo(plan_json(plan) if as_json else plan_text(plan), nl=False)
+    sys.exit(exit_code_for(plan.verdict))
+
 def main(argv=None) -> None:
     """Console entry point: maps every outcome to the exit codes of design §5."""
     args = list(sys.argv[1:] if argv is None else argv)

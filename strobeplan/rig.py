@@ -228,11 +228,28 @@ class Camera(_Model):
     bit_depth: Count(ge=1, le=24) = 8
 
 
+class LogicFamily(_Model):
+    """A custom logic family from a part's datasheet (absolute thresholds)."""
+
+    vdd: Q("voltage", gt=0, description="Nominal supply.")
+    vdd_min: Q("voltage", gt=0, description="Lowest supply; default 90 % of vdd.") | None = None
+    vdd_max: Q("voltage", gt=0, description="Highest supply; default 110 % of vdd.") | None = None
+    vih: Q("voltage", gt=0, description="VIH min.")
+    vil: Q("voltage", ge=0, description="VIL max.")
+    voh: Q("voltage", gt=0, description="VOH min at output_current.")
+    vol: Q("voltage", ge=0, description="VOL max at output_current.")
+    output_current: Q("current", gt=0, description="Test (rated) current of voh and vol.")
+    input_leakage: Q("current", ge=0, description="Input leakage magnitude.") = 1e-6
+
+
 class TriggerLink(_Model):
     series: Literal[E_SERIES_NAMES] = "E24"  # type: ignore[valid-type]
     tolerance: Q("ratio", gt=0, lt=0.5) | None = None
     top: Q("resistance", gt=0) | None = None
     bottom: Q("resistance", gt=0) | None = None
+    families: dict[str, LogicFamily] | None = Field(
+        default=None, description="Custom logic families by name, usable wherever a family "
+        "name is asked (controller.output, camera.trigger_input.family, gate_driver.input).")
 
 
 class Optics(_Model):

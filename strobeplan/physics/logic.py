@@ -766,3 +766,58 @@ def _why_none(source, destination, tol, closest, failures, n, tolerant, tolerant
             f"current, {f.low_above_vil} low level above VIL, {f.edge_too_slow} edge too "
             f"slow); closest {closest.top:g}/"
             f"{closest.bottom:g} ohm: {why}")
+
+
+# ---------------------------------------------------------------------------------------------
+# Direct connection (no divider), e.g. controller -> gate-driver logic input
+# ---------------------------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class DirectLink:
+    """Worst-case levels of an output wired straight to an input. [V]"""
+
+    v_high_min: float  # source VOH min at its lowest supply, carrying the input leakage
+    v_high_max: float  # source highest supply
+    v_low_max: float  # source VOL max at its highest supply
+    vih: float  # destination VIH at its highest supply
+    vil: float  # destination VIL at its lowest supply
+    input_max: float  # destination input maximum
+    margin_high: float  # v_high_min - vih
+    margin_max: float  # input_max - v_high_max
+    margin_low: float  # vil - v_low_max
+
+
+def direct_link(source: Family, destination: Family, *, tolerant: bool = False,
+                tolerant_max: float = TOLERANT_INPUT_MAX,
+                leakage: float | None = None) -> DirectLink:
+    """Worst-case levels of a direct output-to-input connection.
+
+    Parameters
+    ----------
+    source, destination : Family
+        Driving and receiving families.
+    tolerant : bool, optional
+        The input is over-voltage tolerant up to ``tolerant_max``.
+    tolerant_max : float, optional
+        Input maximum of a tolerant input (e.g. a gate driver's own supply). [V]
+    leakage : float, optional
+        Input current magnitude drawn from the output; default the destination's. [A]
+
+    Returns
+    -------
+    DirectLink
+
+    References
+    ----------
+    1. JESD8C.01 / JESD8-5A.01 / JESD8-7A / JESD8-12A.01 DC tables.
+    """
+    i_hi = destination.input_leakage_high if leakage is None else float(leakage)
+    i_lo = destination.input_leakage_low if leakage is None else float(leakage)
+    v_hi_min = float(source.voh_min(i_hi, source.vdd_min))
+    v_hi_max = float(source.vdd_max)
+    v_lo_max = float(source.vol_max(i_lo, source.vdd_max))
+    vih, vil = destination.vih_worst, destination.vil_worst
+    vin_max = destination.input_max(tolerant, tolerant_max)
+    return DirectLink(v_hi_min, v_hi_max, v_lo_max, vih, vil, vin_max, v_hi_min - vih,
+                      vin_max - v_hi_max, vil - v_lo_max)

@@ -1,0 +1,233 @@
+"""Link stage: controller -> camera trigger divider, and controller -> gate-driver input.
+
+``trigger_link``: between ``controller.output`` and ``camera.trigger_input``. With
+``[trigger_link] top/bottom`` the given pair is checked; without, a pair is proposed by the
+worst-case E-series search (physics/logic.py). The edge limit is 1 % of the shorter of the
+flash pulse width and the camera's trigger latency (common practice: a trigger edge that is a
+small fraction of the timing it serves adds no visible jitter); the proposal first looks for
+pairs within it, and falls back to the best pair without it (the edge finding then says so).
+
+``gate_link``: the controller output wired straight to ``gate_driver.input``, whose input is
+rated to the driver's own supply + 0.3 V (common practice for gate-driver logic inputs).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from types import SimpleNamespace
+
+from ..errors import RigError
+from ..physics import logic
+from ..plan import Plan, Section
+from ..units import render
+
+EDGE_FRACTION = 0.01  # edge limit = 1 % of the pulse width / trigger latency (issue 5)
+
+
+@dataclass
+class LinkAlternative:
+    """One ranked divider pair."""
+
+    top_ohm: float
+    bottom_ohm: float
+    margin_v: float
+    current_a: float
+    edge_time_s: float
+
+    def __str__(self) -> str:
+        return (f"{render(self.top_ohm, 'resistance')}/{render(self.bottom_ohm, 'resistance')}"
+                f" (margin {render(self.margin_v, 'voltage')}, "
+                f"{render(self.current_a, 'current')}, edge {render(self.edge_time_s, 'time')})")
+
+
+@dataclass
+class TriggerLinkSection(Section):
+    source_family: str
+    destination_family: str
+    mode: str  # "checked" | "proposed" | "infeasible"
+    series: str
+    tolerance: float
+    tolerant: bool
+    top_ohm: float | None
+    bottom_ohm: float | None
+    v_nominal_v: float | None
+    v_high_min_v: float | None
+    v_high_max_v: float | None
+    v_low_max_v: float | None
+    vih_v: float
+    vil_v: float
+    input_max_v: float
+    margin_high_v: float | None
+    margin_max_v: float | None
+    margin_low_v: float | None
+    current_a: float | None
+    rated_current_a: float
+    thevenin_ohm: float | None
+    capacitance_f: float
+    edge_time_s: float | None  # nominal 10-90 %, ln 9 * Rth * C
+    edge_time_max_s: float | None  # resistors at + tolerance
+    delay_to_vih_s: float | None
+    edge_limit_s: float | None
+    pairs_evaluated: int | None = None
+    pairs_feasible: int | None = None
+    alternatives: list[LinkAlternative] = field(default_factory=list)
+    reason: str | None = None
+    recommendation: str | None = None
+    _check: object = field(default=None, repr=False)
+
+
+@dataclass
+class GateLinkSection(Section):
+    source_family: str
+    destination_family: str
+    v_high_min_v: float
+    v_high_max_v: float
+    v_low_max_v: float
+    vih_v: float
+    vil_v: float
+    input_max_v: float
+    margin_high_v: float
+    margin_max_v: float
+    margin_low_v: float
+
+
+def resolve_family(name: str, path: str, custom=None) -> logic.Family:
+    """A family by name: custom ones from ``[trigger_link.families]`` first, then the table."""
+    if custom and name in custom:
+        c = custom[name]
+        return logic.Family.custom(name, c.vdd, c.vih, c.vil, c.voh, c.vol, c.output_current,
+                                   c.vdd_min, c.vdd_max, c.input_leakage)
+    try:
+        return logic.family(name)
+    except KeyError:
+        known = ", ".join(list(logic.FAMILIES) + sorted(custom or {}))
+        raise RigError(path, name, f"unknown logic family (known: {known}; or define it "
+                                   "in [trigger_link.families])") from None
+
+
+def edge_limit_for(pulse_width: float | None, trigger_latency: float | None) -> float | None:
+    """1 % of the shorter of the pulse width and the trigger latency (None: no limit). [s]"""
+    times = [t for t in (pulse_width, trigger_latency) if t]
+    return EDGE_FRACTION * min(times) if times else None
+
+
+def link_section(source: logic.Family, destination: logic.Family, *, series: str = "E24",
+                 tolerance: float | None = None, capacitance: float = 10e-12,
+                 tolerant: bool = False, top: float | None = None,
+                 bottom: float | None = None, edge_limit: float | None = None,
+                 source_resistance: float | None = None, count: int = 5
+                 ) -> TriggerLinkSection:
+    """Check the given pair, or propose one, and return the ``trigger_link`` section."""
+    tol = logic.series_tolerance(series) if tolerance is None else tolerance
+    limit = float("inf") if edge_limit is None else edge_limit
+    kw = dict(tolerant=tolerant, source_resistance=source_resistance or 0.0)
+    n_eval = n_feas = None
+    alternatives: list[LinkAlternative] = []
+    reason = recommendation = None
+    if top is not None and bottom is not None:
+        mode = "checked"
+        chk = logic.evaluate_divider(top, bottom, source, destination, tol, capacitance,
+                                     edge_limit=limit, **kw)
+        if not chk.feasible:
+            found = logic.search_dividers(source, destination, series, tol, capacitance,
+                                          edge_limit=limit, count=count, **kw)
+            if not found.best:  # nothing meets the edge limit: the best without it
+                found = logic.search_dividers(source, destination, series, tol, capacitance,
+                                              count=count, **kw)
+            n_eval, n_feas = found.pairs_evaluated, found.pairs_feasible
+            alternatives = [_alt(b) for b in found.best]
+            reason, recommendation = found.reason, found.recommendation
+    else:
+        found = logic.search_dividers(source, destination, series, tol, capacitance,
+                                      edge_limit=limit, count=count, **kw)
+        if not found.best and edge_limit is not None:
+            found = logic.search_dividers(source, destination, series, tol, capacitance,
+                                          count=count, **kw)
+        n_eval, n_feas = found.pairs_evaluated, found.pairs_feasible
+        reason, recommendation = found.reason, found.recommendation
+        if found.best:
+            mode = "proposed"
+            chk = logic.evaluate_divider(found.best[0].top, found.best[0].bottom, source,
+                                         destination, tol, capacitance, edge_limit=limit, **kw)
+            alternatives = [_alt(b) for b in found.best[1:]]
+        else:
+            mode, chk = "infeasible", None
+    some = chk is not None
+
+    def g(name):
+        return getattr(chk, name) if some else None
+
+    return TriggerLinkSection(
+        source_family=source.name, destination_family=destination.name, mode=mode,
+        series=series.upper(), tolerance=tol, tolerant=tolerant,
+        top_ohm=g("top"), bottom_ohm=g("bottom"), v_nominal_v=g("v_nominal"),
+        v_high_min_v=g("v_high_min"), v_high_max_v=g("v_high_max"), v_low_max_v=g("v_low_max"),
+        vih_v=destination.vih_worst, vil_v=destination.vil_worst,
+        input_max_v=destination.input_max(tolerant),
+        margin_high_v=g("margin_high"), margin_max_v=g("margin_max"),
+        margin_low_v=g("margin_low"), current_a=g("current"),
+        rated_current_a=source.rated_current, thevenin_ohm=g("thevenin"),
+        capacitance_f=capacitance, edge_time_s=g("edge_time"),
+        edge_time_max_s=g("edge_time_max"), delay_to_vih_s=g("delay_to_vih"),
+        edge_limit_s=edge_limit, pairs_evaluated=n_eval, pairs_feasible=n_feas,
+        alternatives=alternatives, reason=reason, recommendation=recommendation, _check=chk,
+    )
+
+
+def _alt(c: logic.DividerCheck) -> LinkAlternative:
+    return LinkAlternative(c.top, c.bottom, c.margin, c.current, c.edge_time)
+
+
+def build(rig, plan) -> None:
+    """Set ``plan.trigger_link`` and ``plan.gate_link`` when their inputs are given."""
+    custom = rig.trigger_link.families if rig.trigger_link else None
+    ctrl = rig.controller
+    cam = rig.camera
+    if cam is not None and cam.trigger_input is not None:
+        ti = cam.trigger_input
+        src = resolve_family(ctrl.output, "controller.output", custom)
+        dst = resolve_family(ti.family, "camera.trigger_input.family", custom)
+        tl = rig.trigger_link
+        plan.trigger_link = link_section(
+            src, dst, series=tl.series if tl else "E24", tolerance=tl.tolerance if tl else None,
+            capacitance=ti.capacitance, tolerant=ti.tolerant,
+            top=tl.top if tl else None, bottom=tl.bottom if tl else None,
+            edge_limit=edge_limit_for(rig.strobe.pulse_width, cam.trigger_latency),
+            source_resistance=ctrl.output_resistance)
+    gd = rig.gate_driver
+    if gd is not None:
+        src = resolve_family(ctrl.output, "controller.output", custom)
+        dst = resolve_family(gd.input, "gate_driver.input", custom)
+        d = logic.direct_link(src, dst, tolerant=True, tolerant_max=gd.supply + 0.3)
+        plan.gate_link = GateLinkSection(
+            source_family=src.name, destination_family=dst.name, v_high_min_v=d.v_high_min,
+            v_high_max_v=d.v_high_max, v_low_max_v=d.v_low_max, vih_v=d.vih, vil_v=d.vil,
+            input_max_v=d.input_max, margin_high_v=d.margin_high, margin_max_v=d.margin_max,
+            margin_low_v=d.margin_low)
+
+
+def standalone(source: str, destination: str, **kwargs) -> Plan:
+    """The ``divider`` command's plan: only a trigger_link section and its findings.
+
+    Only the ``trigger_link.*`` rules run (the others need sections this plan lacks).
+    """
+    from ..checks import RULES, load_all
+    from ..plan import SEVERITY_RANK, Finding
+
+    src = resolve_family(source, "--from")
+    dst = resolve_family(destination, "--to")
+    plan = Plan(rig=SimpleNamespace(name=f"divider {src.name} -> {dst.name}"))
+    plan.trigger_link = link_section(src, dst, **kwargs)
+    load_all()
+    found = []
+    for code, r in RULES.items():
+        if not code.startswith("trigger_link."):
+            continue
+        result = r.func(plan)
+        for h in [] if result is None else result if isinstance(result, list) else [result]:
+            found.append(Finding(code=code, severity=r.severity, subject=h.subject or r.subject,
+                                 message=h.message, value=h.value, limit=h.limit, unit=h.unit,
+                                 hint=h.hint or r.fix))
+    found.sort(key=lambda f: (SEVERITY_RANK[f.severity], f.code))
+    plan.findings = found
+    return plan
