@@ -7,6 +7,7 @@ from .checks import run_checks
 from .plan import Plan
 from .stages import air as air_stage
 from .stages import flash as flash_stage
+from .stages import link as link_stage
 
 
 def solve(rig) -> Plan:
@@ -19,6 +20,7 @@ def solve(rig) -> Plan:
     air_stage.build(rig, plan)
     flash_stage.build(rig, plan)
     plan.lock = timing.build(rig, plan)
+    link_stage.build(rig, plan)
     plan.findings = run_checks(plan)
     return plan
 
