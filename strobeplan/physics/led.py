@@ -305,6 +305,7 @@ class OperatingPoint(NamedTuple):
 
 
 _PI2_6 = np.pi**2 / 6.0
+_GL6 = np.polynomial.legendre.leggauss(6)
 # B_n / (n + 1)! for the Bernoulli-number series of the dilogarithm, n = 0, 1, 2, 4, ... 20.
 _LI2_COEF = np.array([
     1.0, -1.0 / 4.0, 1.0 / 36.0, 0.0, -1.0 / 3600.0, 0.0, 1.0 / 211680.0, 0.0,
@@ -347,13 +348,16 @@ def dilog_neg(ln_y):
     return np.where(big, -_PI2_6 - 0.5 * ly * ly - s, s)
 
 
-def _discharge_time(u, u0, i0, ib, i_s, a, r_tot, c):
-    """Time for the loop current to fall from i0 = ib + e^u0 to ib + e^u (closed form)."""
+def _discharge_time(v, i0, ib, i_s, a, r_tot, c):
+    """Time for the loop current to fall from i0 to ib + (i0 - ib)*e^-v (closed form).
+
+    With ``B = Ib + Is``: ``t = C [R_tot v + (a/B) ln(1 + x)]``,
+    ``x = (I0 - I) B / ((I - Ib)(I0 + Is)) = (e^v - 1) B / (I0 + Is)``.
+    """
     b = ib + i_s
     with np.errstate(divide="ignore", invalid="ignore"):
-        # ln x with x = (I0 - I)*B / ((I - Ib)*(I0 + Is)), I0 - I = -e^u0*expm1(u - u0)
-        ln_x = u0 + np.log(-np.expm1(u - u0)) + np.log(b) - np.log(i0 + i_s) - u
-    return c * (r_tot * (u0 - u) + a / b * np.logaddexp(0.0, ln_x))
+        ln_x = v + np.log(-np.expm1(-v)) + np.log(b) - np.log(i0 + i_s)
+    return c * (r_tot * v + a / b * np.logaddexp(0.0, ln_x))
 
 
 def pulse_operating_point(supply_voltage, capacitance, esr, series_resistor, on_resistance,
@@ -426,28 +430,35 @@ def pulse_operating_point(supply_voltage, capacitance, esr, series_resistor, on_
     with np.errstate(divide="ignore", invalid="ignore"):
         u0 = np.log(i0_d - ib_d)
     f_min = r_tot + a / (i0_d + i_s)  # smallest F'(I) along the discharge
-    lo = u0 - tp / (c * f_min)  # t(lo) >= tp
-    u1 = _solve_end(lo, u0.copy(), tp, u0, i0_d, ib_d, i_s, a, r_tot, c, droops)
-
-    e0, e1 = np.exp(u0), np.exp(u1)
+    du = _solve_end(tp / (c * f_min), tp, i0_d, ib_d, i_s, a, r_tot, c, droops)  # t(hi) >= tp
+    u1 = u0 - du
+    e0 = i0_d - ib_d
+    e1 = e0 * np.exp(-du)
     i1 = ib_d + e1
-    du = u0 - u1
+    de = -e0 * np.expm1(-du)  # e0 - e1 without cancellation
     d = ib_d + i_s  # X = I + Is = d + e^u
     x0, x1 = d + e0, d + e1
-    lx0, lx1 = np.log(x0), np.log(x1)
+    lx1 = np.log(x1)
+    dl = np.log1p(de / x1)  # ln X0 - ln X1
     with np.errstate(divide="ignore"):
         ln_d = np.log(d)
-    vc_drop = r_tot * (e0 - e1) + a * (lx0 - lx1)
+    vc_drop = r_tot * de + a * dl
     charge = c * vc_drop + ib_d * tp
     # integral of du/X from u1 to u0, times D:  ln((X-D)/X) difference
     d_inv_x = np.logaddexp(0.0, ln_d - u1) - np.logaddexp(0.0, ln_d - u0)
-    i2_r = ib_d**2 * du + 2.0 * ib_d * (e0 - e1) + 0.5 * (e0 - e1) * (e0 + e1)
-    i2_a = (ib_d - i_s) * du + (e0 - e1) + i_s * (i_s / d) * d_inv_x
+    i2_r = ib_d**2 * du + 2.0 * ib_d * de + 0.5 * de * (e0 + e1)
+    i2_a = (ib_d - i_s) * du + de + i_s * (i_s / d) * d_inv_x
     i2t = c * (r_tot * i2_r + a * i2_a)
-    # P1 = int ln X du, P2 = int X ln X du, P3-part: int (1 - Is/X) ln X du
-    dp1 = ln_d * du - (dilog_neg(u0 - ln_d) - dilog_neg(u1 - ln_d))
-    dp2 = (x0 * lx0 - x0) - (x1 * lx1 - x1) + d * dp1
-    dp3 = (ib_d / d) * dp1 + (i_s / d) * 0.5 * (lx0 - lx1) * (lx0 + lx1)
+    # P1 = int ln X du (dilogarithm; short intervals by 6-node Gauss-Legendre, where the
+    # difference of two dilogarithms would cancel), P2 = int X ln X du,
+    # P3 = int (1 - Is/X) ln X du
+    dp1_li = ln_d * du - (dilog_neg(u0 - ln_d) - dilog_neg(u1 - ln_d))
+    gx, gw = _GL6
+    un = 0.5 * (u0 + u1)[..., None] + 0.5 * du[..., None] * gx
+    dp1_gl = 0.5 * du * np.sum(gw * np.logaddexp(ln_d[..., None], un), axis=-1)
+    dp1 = np.where(du < 0.5, dp1_gl, dp1_li)
+    dp2 = de * (lx1 - 1.0) + x0 * dl + d * dp1  # [X ln X - X] difference + D*P1
+    dp3 = (ib_d / d) * dp1 + (i_s / d) * 0.5 * dl * (2.0 * lx1 + dl)
     j = r_tot * (dp2 - i_s * dp1) + a * dp3  # int I ln(I + Is) F'(I) du
     e_led = rs * i2t + a * (c * j - np.log(i_s) * charge)
 
@@ -463,37 +474,40 @@ def pulse_operating_point(supply_voltage, capacitance, esr, series_resistor, on_
     return out
 
 
-def _solve_end(lo, hi, tp, u0, i0, ib, i_s, a, r_tot, c, mask, iterations=100):
-    """Root of t(u) = tp on [lo, hi] (t decreasing in u), with active-set compaction.
+def _solve_end(hi, tp, i0, ib, i_s, a, r_tot, c, mask, iterations=100):
+    """Root ``v`` of ``t(v) = tp`` on ``[0, hi]`` (t increasing), with active-set compaction.
 
-    Newton's method on ``ln t(u) - ln tp``, which is nearly linear both where the series
-    resistance dominates and where the diode term dominates; a step leaving the bracket
-    falls back to bisection.
+    Solving for the e-folds ``v = ln((I0 - Ib)/(I1 - Ib))`` rather than for ``ln(I1 - Ib)``
+    keeps full relative precision for tiny droops. Newton's method on ``ln t(v) - ln tp``
+    (nearly linear where either the series resistance or the diode term dominates), with
+    bisection when a step leaves the bracket.
     """
-    lo, hi = lo.astype(float).copy(), hi.astype(float).copy()
-    u = lo.copy()
-    active = np.flatnonzero(np.broadcast_to(mask, u.shape))
-    flat = [np.ravel(np.broadcast_to(x, u.shape)) for x in (tp, u0, i0, ib, i_s, a, r_tot, c)]
-    uf, lof, hif = u.ravel(), lo.ravel(), hi.ravel()
+    hi = np.asarray(hi, dtype=float).copy()
+    v = hi.copy()
+    lo = np.zeros_like(hi)
+    active = np.flatnonzero(np.broadcast_to(mask, v.shape))
+    flat = [np.ravel(np.broadcast_to(x, v.shape)) for x in (tp, i0, ib, i_s, a, r_tot, c)]
+    vf, lof, hif = v.ravel(), lo.ravel(), hi.ravel()
     for _ in range(iterations):
         if active.size == 0:
             break
-        tp_, u0_, i0_, ib_, is_, a_, r_, c_ = (x[active] for x in flat)
-        ua = uf[active]
-        t = _discharge_time(ua, u0_, i0_, ib_, is_, a_, r_, c_)
-        dt = -c_ * (r_ + a_ / (ib_ + np.exp(ua) + is_))
-        pos = t > tp_
-        lo_a = np.where(pos, ua, lof[active])
-        hi_a = np.where(pos, hif[active], ua)
+        tp_, i0_, ib_, is_, a_, r_, c_ = (x[active] for x in flat)
+        va = vf[active]
+        t = _discharge_time(va, i0_, ib_, is_, a_, r_, c_)
+        e = (i0_ - ib_) * np.exp(-va)
+        dt = c_ * (r_ + a_ / (ib_ + e + is_))
+        big = t > tp_
+        lo_a = np.where(big, lof[active], va)
+        hi_a = np.where(big, va, hif[active])
         lof[active], hif[active] = lo_a, hi_a
         with np.errstate(divide="ignore", invalid="ignore"):
-            new = ua - (np.log(t) - np.log(tp_)) * t / dt
+            new = va - (np.log(t) - np.log(tp_)) * t / dt
         inside = (new > lo_a) & (new < hi_a)
         new = np.where(inside, new, 0.5 * (lo_a + hi_a))
-        done = (np.abs(t - tp_) <= 1e-12 * tp_) | (np.abs(new - ua) <= 1e-14 * np.abs(ua))
-        uf[active] = np.where(done, ua, new)
+        done = (np.abs(t - tp_) <= 1e-13 * tp_) | (np.abs(new - va) <= 1e-15 * va)
+        vf[active] = np.where(done, va, new)
         active = active[~done]
-    return uf.reshape(u.shape)
+    return vf.reshape(v.shape)
 
 
 def rated_pulse_current(width, duty, table_width, table_duty, table_current):
