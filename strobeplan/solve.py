@@ -6,8 +6,10 @@ from . import timing
 from .checks import run_checks
 from .plan import Plan
 from .stages import air as air_stage
+from .stages import exposure as exposure_stage
 from .stages import flash as flash_stage
 from .stages import link as link_stage
+from .stages import optics as optics_stage
 
 
 def solve(rig) -> Plan:
@@ -20,6 +22,8 @@ def solve(rig) -> Plan:
     air_stage.build(rig, plan)
     flash_stage.build(rig, plan)
     plan.lock = timing.build(rig, plan)
+    exposure_stage.build(rig, plan)
+    optics_stage.build(rig, plan)
     link_stage.build(rig, plan)
     plan.findings = run_checks(plan)
     return plan

@@ -133,7 +133,7 @@ def detuning_loss_db(motional_magnitude):
     1. Van Dyke (1928) (motional branch R1, L1, C1 of the equivalent network).
     """
     h = np.abs(np.asarray(motional_magnitude, dtype=float))
-    return _out(-20.0 * np.log10(h))
+    return _out(-20.0 * np.log10(h) + 0.0)  # + 0.0: no "-0 dB" at resonance
 
 
 def spl_at_view(

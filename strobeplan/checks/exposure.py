@@ -1,0 +1,76 @@
+"""Exposure rules: contrast retention, phosphor tail, motion blur."""
+
+from __future__ import annotations
+
+from ..units import render
+from .registry import Hit, rule
+
+# A gate pulse shorter than this many phosphor decay times is shaped by the phosphor.
+PHOSPHOR_RATIO = 3.0
+# Blur above this many pixels is a visible smear of a travelling wave (common practice:
+# the eye and edge detectors resolve about a pixel; two leave margin).
+BLUR_PIXEL_LIMIT = 2.0
+
+
+@rule("exposure.retention_low", "fault",
+      trigger="contrast retention at the wave frequency (pulse shape x jitter x smear) is "
+              "below strobe.min_retention (default 90 %)",
+      fix="shorten strobe.pulse_width to at most exposure.max_pulse_width_s; if even a short "
+          "pulse misses, reduce the jitter, the phosphor decay or the smear")
+def retention_low(plan):
+    e = plan.exposure
+    if e is None or e.retention >= e.min_retention:
+        return None
+    width = plan.rig.strobe.pulse_width
+    if e.max_pulse_width_s is not None:
+        hint = (f"shorten strobe.pulse_width from {render(width, 'time')} to at most "
+                f"{render(e.max_pulse_width_s, 'time')}")
+    else:
+        hint = (f"no pulse width reaches {e.min_retention:.0%}: jitter keeps "
+                f"{e.jitter_retention:.1%}, the phosphor {e.phosphor_retention:.1%} and the "
+                f"smear {e.smear:.1%}; reduce those first")
+    return Hit(f"the {render(width, 'time')} flash keeps {e.retention:.1%} of the wave's "
+               f"contrast at {render(plan.timing.drive_frequency_hz, 'frequency')} (target "
+               f"{e.min_retention:.0%})", value=e.retention, limit=e.min_retention, unit="1",
+               hint=hint)
+
+
+@rule("exposure.phosphor_dominates", "note",
+      trigger=f"the gate pulse is shorter than {PHOSPHOR_RATIO:g} x led.phosphor_decay (with "
+              "a phosphor fraction above 0): the light outlasts the gate and its tail, not "
+              "the gate, sets the flash",
+      fix="expect the reported optical duration rather than the gate time; a direct-emitting "
+          "(non-phosphor) LED gives a sharper flash")
+def phosphor_dominates(plan):
+    led = plan.rig.led
+    if led is None or led.phosphor_fraction <= 0 or not led.phosphor_decay:
+        return None
+    width = plan.rig.strobe.pulse_width
+    limit = PHOSPHOR_RATIO * led.phosphor_decay
+    if width >= limit:
+        return None
+    return Hit(f"the {render(width, 'time')} gate is under {PHOSPHOR_RATIO:g} phosphor decay "
+               f"times ({render(led.phosphor_decay, 'time')}); {led.phosphor_fraction:.0%} of "
+               f"the light trails it (optical FWHM "
+               f"{render(plan.exposure.optical_duration_s, 'time')})",
+               value=width, limit=limit, unit="s")
+
+
+@rule("exposure.blur_over_pixel", "warning",
+      trigger=f"travelling wave whose motion during the flash (speed of sound x optical "
+              f"duration) exceeds {BLUR_PIXEL_LIMIT:g} camera pixels at the object "
+              "(camera.object_pixel)",
+      fix="shorten strobe.pulse_width (blur scales with the optical duration) or accept a "
+          "coarser camera.object_pixel")
+def blur_over_pixel(plan):
+    e = plan.exposure
+    if (e is None or plan.rig.wave.kind != "travelling" or e.blur_pixels is None
+            or e.blur_pixels <= BLUR_PIXEL_LIMIT):
+        return None
+    pixel = plan.rig.camera.object_pixel
+    width_for_limit = BLUR_PIXEL_LIMIT * pixel / plan.air.speed_of_sound_m_s
+    return Hit(f"the wave moves {render(e.blur_distance_m, 'length')} "
+               f"({e.blur_pixels:.3g} px) during the {render(e.optical_duration_s, 'time')} "
+               "flash", value=e.blur_pixels, limit=BLUR_PIXEL_LIMIT, unit="px",
+               hint=f"an optical duration of at most {render(width_for_limit, 'time')} keeps "
+                    f"the blur within {BLUR_PIXEL_LIMIT:g} px")

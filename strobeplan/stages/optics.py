@@ -1,0 +1,103 @@
+"""Optics stage: SPL at the view, and whether the schlieren optics will show the wave.
+
+Runs after the exposure stage (it needs the absorption in ``plan.air`` and the retention
+in ``plan.exposure``). The SPL at the view is ``emitter.spl_at_view`` when given (a measured
+level, e.g. the antinode of a standing wave), else the datasheet estimate: SPL at the
+reference distance and voltage, + 20 log10(drive/reference voltage), spherical spreading,
+ISO 9613-1 absorption over the path difference and the Butterworth-Van Dyke detuning loss at
+the realised drive frequency. Without ``[optics]`` only the acoustic figures are computed.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+from ..physics import acoustics, drive, schlieren
+from ..plan import Section
+
+# Distance from the emitter at which the ultrasound-exposure caution is evaluated. [m]
+SAFETY_DISTANCE = 1.0
+
+
+@dataclass
+class OpticsSection(Section):
+    """Design §4 ``optics``: SPL at the view and the schlieren contrast it makes."""
+
+    spl_at_view_db: float
+    spl_source: str
+    spl_estimate_db: float | None
+    spl_at_1m_db: float | None
+    detuning_loss_db: float
+    pressure_amplitude_pa: float
+    near_field_m: float | None
+    in_near_field: bool | None
+    deflection_rad: float | None
+    contrast: float | None
+    visible_contrast: float | None
+    min_contrast: float | None
+    saturated: bool | None
+
+
+def _datasheet_spl(em, frequency, absorption, distance):
+    """Datasheet estimate at ``distance`` (None without a complete datasheet rating)."""
+    if em.spl_at_reference is None or em.reference_distance is None:
+        return None
+    ref_v, drive_v = em.reference_voltage, em.drive_voltage
+    if ref_v is None or drive_v is None:
+        ref_v = drive_v = 1.0  # no voltage correction without both voltages
+    h = abs(complex(drive.motional_response(frequency, em.resonance, em.quality_factor)))
+    return float(acoustics.spl_at_view(
+        em.spl_at_reference, em.reference_distance, ref_v, drive_v, distance, absorption, h,
+    ))
+
+
+def build(rig, plan) -> None:
+    """Store ``plan.optics`` when the emitter's level is known."""
+    em = rig.emitter
+    if em is None:
+        return
+    f = plan.timing.drive_frequency_hz
+    alpha = plan.air.absorption_db_m
+    speed = plan.air.speed_of_sound_m_s
+    estimate = _datasheet_spl(em, f, alpha, em.distance_to_view)
+    if em.spl_at_view is not None:
+        spl, source = em.spl_at_view, "emitter.spl_at_view (given)"
+    elif estimate is not None:
+        spl, source = estimate, "datasheet rating, spreading, absorption, detuning"
+    else:
+        return
+    at_1m = _datasheet_spl(em, f, alpha, SAFETY_DISTANCE)
+    if at_1m is None and rig.wave.kind == "travelling":
+        # A measured travelling-wave level extrapolates by spreading and absorption.
+        at_1m = float(acoustics.spl_at_distance(spl, em.distance_to_view, SAFETY_DISTANCE,
+                                                alpha))
+    loss = float(acoustics.detuning_loss_db(
+        abs(complex(drive.motional_response(f, em.resonance, em.quality_factor)))))
+    p = float(acoustics.pressure_amplitude(spl))
+    wavelength = speed / f
+    near = float(acoustics.near_field_distance(em.radius, wavelength)) if em.radius else None
+    section = OpticsSection(
+        spl_at_view_db=float(spl), spl_source=source, spl_estimate_db=estimate,
+        spl_at_1m_db=at_1m, detuning_loss_db=loss, pressure_amplitude_pa=p,
+        near_field_m=near, in_near_field=(em.distance_to_view < near) if near else None,
+        deflection_rad=None, contrast=None, visible_contrast=None, min_contrast=None,
+        saturated=None,
+    )
+    opt = rig.optics
+    if opt is not None:
+        rho = schlieren.density_amplitude(p, speed)
+        n1 = schlieren.index_amplitude(rho, schlieren.gladstone_dale(opt.light_wavelength))
+        eps = float(schlieren.deflection(opt.passes, opt.sound_path,
+                                         schlieren.wavenumber(f, speed), n1))
+        contrast = float(schlieren.knife_edge_contrast(opt.cutoff_distance, eps,
+                                                       opt.cutoff_opening))
+        retention = plan.exposure.retention if plan.exposure is not None else 1.0
+        bits = rig.camera.bit_depth if rig.camera is not None else 8
+        minimum = opt.min_contrast if opt.min_contrast is not None else \
+            float(schlieren.default_min_contrast(bits))
+        section.deflection_rad = eps
+        section.contrast = contrast
+        section.visible_contrast = float(schlieren.visible_contrast(contrast, retention))
+        section.min_contrast = minimum
+        section.saturated = bool(schlieren.saturated(contrast))
+    plan.optics = section

@@ -1,0 +1,220 @@
+"""Exposure and optics end to end: through strobeplan.solve and the CLI JSON (design §4).
+
+Each check value is recomputed here from the published formula with numpy or an external
+library, not read back from the module under test.
+"""
+
+from __future__ import annotations
+
+import copy
+import json
+import math
+import tomllib
+
+import numpy as np
+import pytest
+from acoustic_toolbox.atmosphere import Atmosphere
+
+from strobeplan.rig import rig_from_dict
+from strobeplan.solve import solve
+from tests.conftest import EXAMPLES, example, run_cli
+
+BASES = {name: tomllib.loads(example(name).read_text()) for name in EXAMPLES}
+
+# Design §4, binding keys.
+AIR_KEYS = {"speed_of_sound_m_s", "density_kg_m3", "absorption_db_m"}
+EXPOSURE_KEYS = {"optical_duration_s", "blur_distance_m", "blur_pixels", "wavelength_m",
+                 "retention", "retention_by_harmonic", "max_pulse_width_s"}
+OPTICS_KEYS = {"spl_at_view_db", "deflection_rad", "contrast", "visible_contrast",
+               "saturated"}
+MY_CODES = {"exposure.retention_low", "exposure.phosphor_dominates",
+            "exposure.blur_over_pixel", "optics.not_visible", "optics.saturated",
+            "optics.near_field", "safety.ultrasound_exposure"}
+
+
+def patched(base: str, patch: dict) -> dict:
+    raw = copy.deepcopy(BASES[base])
+    for dotted, value in patch.items():
+        node = raw
+        parts = dotted.split(".")
+        for p in parts[:-1]:
+            node = node.setdefault(p, {})
+        if value is None:
+            node.pop(parts[-1], None)
+        else:
+            node[parts[-1]] = value
+    return raw
+
+
+def plan_of(base: str, patch: dict | None = None):
+    return solve(rig_from_dict(patched(base, patch or {})))
+
+
+def codes(plan) -> set[str]:
+    return {f.code for f in plan.findings}
+
+
+# ------------------------------------------------------------------ CLI JSON contract
+@pytest.mark.parametrize("name", EXAMPLES)
+def test_json_sections(name):
+    r = run_cli("check", example(name), "--json")
+    data = json.loads(r.output)
+    assert AIR_KEYS <= set(data["air"])
+    assert EXPOSURE_KEYS <= set(data["exposure"])
+    assert OPTICS_KEYS <= set(data["optics"])
+    harmonics = BASES[name]["wave"].get("harmonics", 1)
+    assert len(data["exposure"]["retention_by_harmonic"]) == harmonics
+    assert data["exposure"]["retention_by_harmonic"][0] == data["exposure"]["retention"]
+
+
+def test_text_output_shows_the_answers():
+    # The issue's "done when": retention, blur in pixels, widest pulse, SPL, visibility.
+    out = run_cli("check", example("levitator-40k")).output
+    for label in ("retention", "blur pixels", "max pulse width", "spl at view",
+                  "visible contrast", "saturated"):
+        assert label in out
+
+
+# ------------------------------------------------------------------ the example rigs
+def test_levitator_passes_exposure_and_optics():
+    # Design §7: the levitator passes (warnings at most).
+    plan = plan_of("levitator-40k")
+    assert plan.verdict != "fail"
+    assert not {"exposure.retention_low", "optics.not_visible"} & codes(plan)
+    assert plan.exposure.blur_distance_m == 0.0  # standing wave: the pattern stays put
+    # Its 40 kHz emitter is ~115 dB at 1 m (datasheet 120 dB at 0.3 m, 10 V; driven at 20 V):
+    # the Howard, Hansen & Zander (2004) 110 dB caution applies.
+    assert "safety.ultrasound_exposure" in codes(plan)
+
+
+def test_rangefinder_blur_warning():
+    # Design §7: passes with warnings; a 2 us flash on a 346 m/s travelling wave moves
+    # ~0.69 mm, 3.5 px of 200 um [calc: c x duration / pixel].
+    plan = plan_of("rangefinder-58k")
+    assert "exposure.blur_over_pixel" in codes(plan)
+    assert not {"exposure.retention_low", "optics.not_visible"} & codes(plan)
+    e = plan.exposure
+    c = plan.air.speed_of_sound_m_s
+    assert e.blur_pixels == pytest.approx(c * e.optical_duration_s / 200e-6, rel=1e-9)
+    # 58 kHz lies above the 50 kHz one-third-octave band (upper edge 56.2 kHz): no caution.
+    assert "safety.ultrasound_exposure" not in codes(plan)
+
+
+def test_unsafe_bench_pulse_too_long():
+    # Design §7: the 10 us pulse at 40 kHz keeps |sinc(0.4)| = 0.757 < 0.9 (numpy sinc).
+    plan = plan_of("unsafe-bench")
+    assert plan.verdict == "fail"
+    found = {f.code: f for f in plan.findings}
+    assert "exposure.retention_low" in found
+    f_drive = plan.timing.drive_frequency_hz
+    assert plan.exposure.retention == pytest.approx(abs(np.sinc(f_drive * 10e-6)), abs=1e-9)
+    # The fix names the widest pulse: |sinc(f w)| = 0.9 at f w = 0.2504 (solved with
+    # numpy below), 6.26 us at 40 kHz.
+    grid = np.linspace(0.2, 0.3, 200001)
+    x = grid[np.argmin(np.abs(np.sinc(grid) - 0.9))]
+    assert plan.exposure.max_pulse_width_s == pytest.approx(x / f_drive, rel=1e-4)
+    assert "at most" in found["exposure.retention_low"].hint
+
+
+# ------------------------------------------------------------------ values through solve
+def test_air_absorption_matches_acoustic_toolbox_at_the_drive_frequency():
+    # Oracle: acoustic-toolbox ISO 9613-1 at the realised drive frequency (0.1 %).
+    plan = plan_of("rangefinder-58k")
+    a = plan.rig.air
+    oracle = Atmosphere(a.temperature, a.pressure / 1e3, 100 * a.relative_humidity)
+    expected = oracle.attenuation_coefficient(plan.timing.drive_frequency_hz)
+    assert plan.air.absorption_db_m == pytest.approx(float(expected), rel=1e-3)
+
+
+def test_retention_is_sinc_times_jitter_for_ideal_edges():
+    # Rectangle (no edge data, no phosphor) and 3 ns controller + 4 ns gate-driver jitter:
+    # |sinc(f w)| exp(-2 pi^2 f^2 sigma^2) with sigma = 5 ns (references.md, Johnson 1993).
+    plan = plan_of("unsafe-bench", {"controller.jitter_rms": "3 ns",
+                                    "gate_driver.jitter_rms": "4 ns",
+                                    "strobe.pulse_width": "2 us"})
+    f = plan.timing.drive_frequency_hz
+    expected = abs(np.sinc(f * 2e-6)) * math.exp(-2 * math.pi**2 * f**2 * (5e-9) ** 2)
+    assert plan.exposure.retention == pytest.approx(expected, rel=1e-9)
+    assert plan.exposure.jitter_rms_s == pytest.approx(5e-9)
+
+
+def test_optics_chain_for_a_given_spl():
+    # references.md worked chain, recomputed here: p = sqrt2 20 uPa 10^(SPL/20),
+    # rho' = p/c^2, n' = K rho' with K(630 nm) = 2.2244e-4 (1 + (63.7132/630)^2),
+    # eps = passes L k n', C = f2 eps / a (Settles 2001 eq. 3.6).
+    plan = plan_of("levitator-40k")
+    o, opt = plan.optics, plan.rig.optics
+    c, f = plan.air.speed_of_sound_m_s, plan.timing.drive_frequency_hz
+    p = math.sqrt(2) * 20e-6 * 10 ** (150 / 20)  # emitter.spl_at_view = 150 dB
+    k_gd = 2.2244e-4 * (1 + (63.7132 / 630) ** 2)
+    eps = opt.passes * opt.sound_path * (2 * math.pi * f / c) * k_gd * p / c**2
+    assert o.spl_at_view_db == 150.0
+    assert o.deflection_rad == pytest.approx(eps, rel=1e-9)
+    assert o.contrast == pytest.approx(opt.cutoff_distance * eps / opt.cutoff_opening, rel=1e-9)
+    assert o.visible_contrast == pytest.approx(o.contrast * plan.exposure.retention, rel=1e-9)
+    assert o.min_contrast == pytest.approx(2 / 2 ** (10 - 1))  # 10-bit camera, common practice
+
+
+def test_spl_estimate_follows_the_datasheet():
+    # references.md far-field form: SPL(r) = SPL(r0) + 20 log10(V/Vref) - 20 log10(r/r0)
+    # - alpha (r - r0) - detuning; resonance = drive here, so no detuning loss;
+    # alpha from acoustic-toolbox.
+    plan = plan_of("unsafe-bench")
+    a = plan.rig.air
+    alpha = float(Atmosphere(a.temperature, a.pressure / 1e3, 100 * a.relative_humidity)
+                  .attenuation_coefficient(plan.timing.drive_frequency_hz))
+    h = 1 / abs(1 + 1j * 30 * (plan.timing.drive_frequency_hz / 40e3
+                               - 40e3 / plan.timing.drive_frequency_hz))  # BVD, Q = 30
+    expected = (120 + 20 * math.log10(20 / 10) - 20 * math.log10(0.2 / 0.3)
+                - alpha * (0.2 - 0.3) + 20 * math.log10(h))
+    assert plan.optics.spl_at_view_db == pytest.approx(expected, abs=2e-3)
+
+
+# ------------------------------------------------------------------ every code is reachable
+CASES = {
+    "exposure.retention_low": ("levitator-40k", {"strobe.pulse_width": "9 us"}),
+    "exposure.phosphor_dominates": ("rangefinder-58k", {"strobe.pulse_width": "150 ns"}),
+    "exposure.blur_over_pixel": ("rangefinder-58k", {}),
+    "optics.not_visible": ("rangefinder-58k", {"emitter.drive_voltage": "2 V"}),
+    "optics.saturated": ("levitator-40k", {"optics.cutoff_opening": "20 um"}),
+    "optics.near_field": ("rangefinder-58k", {"emitter.radius": "40 mm"}),
+    "safety.ultrasound_exposure": ("unsafe-bench", {}),
+}
+
+
+def test_cases_cover_my_codes():
+    assert set(CASES) == MY_CODES
+
+
+@pytest.mark.parametrize("code", sorted(CASES))
+def test_code_is_reachable(code):
+    base, patch = CASES[code]
+    plan = plan_of(base, patch)
+    assert code in codes(plan), sorted(codes(plan))
+    if code in ("exposure.retention_low", "optics.not_visible"):
+        assert plan.verdict == "fail"
+
+
+def test_retention_unreachable_hint():
+    # 2 us of jitter at 40 kHz keeps exp(-2 pi^2 (f sigma)^2) = exp(-2 pi^2 0.08^2) = 0.881
+    # < 0.9 (Gaussian jitter, references.md), so no pulse width can reach the target and
+    # the hint says so.
+    plan = plan_of("levitator-40k", {"controller.jitter_rms": "2 us"})
+    found = {f.code: f for f in plan.findings}
+    assert plan.exposure.max_pulse_width_s is None
+    assert "no pulse width" in found["exposure.retention_low"].hint
+
+
+def test_phosphor_note_not_raised_for_long_pulse():
+    # 2 us gate vs 3 x 65 ns: the phosphor tail is a small part of the flash.
+    assert "exposure.phosphor_dominates" not in codes(plan_of("rangefinder-58k"))
+
+
+def test_saturation_threshold():
+    # Linear until |C| = 1 (references.md): the levitator's C = 0.074 at 0.5 mm opening
+    # scales as 1/a, so 0.5 mm x 0.074 / 1.2 (C = 1.2) saturates and / 0.8 does not.
+    c0 = plan_of("levitator-40k").optics.contrast
+    sat = plan_of("levitator-40k", {"optics.cutoff_opening": f"{0.5 * c0 / 1.2:.6g} mm"})
+    lin = plan_of("levitator-40k", {"optics.cutoff_opening": f"{0.5 * c0 / 0.8:.6g} mm"})
+    assert sat.optics.saturated and "optics.saturated" in codes(sat)
+    assert not lin.optics.saturated and "optics.saturated" not in codes(lin)
