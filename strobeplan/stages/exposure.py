@@ -10,6 +10,9 @@ Definitions used in the section (see strobeplan.physics.exposure for the pulse m
   ``energy_duration_s`` the shortest time holding 90 % of its light.
 * ``retention`` is the temporal MTF at the realised drive frequency: pulse shape (edges and
   phosphor) x Gaussian jitter (controller and gate driver in quadrature) x smear.
+  ``retention_by_harmonic`` evaluates pulse and jitter at n f but applies the timing core's
+  smear (computed at the fundamental) unchanged; only the fundamental is checked against
+  ``strobe.min_retention``.
 * ``blur_distance_m`` is c x optical_duration_s for a travelling wave and 0 for a standing
   wave (its pattern does not move; the retention still counts its oscillation).
 * ``max_pulse_width_s`` is the widest gate pulse whose retention at the drive frequency
