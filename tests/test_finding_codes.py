@@ -40,6 +40,31 @@ CASES: dict[str, tuple[str, dict]] = {
     "drive.carrier_not_filtered": ("levitator-40k", {
         "emitter.synthesis.filter": {"kind": "rc", "cutoff": "200 kHz"}}),
     "drive.pwm_resolution_low": ("levitator-40k", {"controller.clock": "20 MHz"}),
+    "exposure.retention_low": ("levitator-40k", {"strobe.pulse_width": "9 us"}),
+    "exposure.phosphor_dominates": ("rangefinder-58k", {"strobe.pulse_width": "150 ns"}),
+    "exposure.blur_over_pixel": ("rangefinder-58k", {}),
+    "optics.not_visible": ("rangefinder-58k", {"emitter.drive_voltage": "2 V"}),
+    "optics.saturated": ("levitator-40k", {"optics.cutoff_opening": "20 um"}),
+    "optics.near_field": ("rangefinder-58k", {"emitter.radius": "40 mm"}),
+    "safety.ultrasound_exposure": ("unsafe-bench", {}),
+    "trigger_link.over_input_max": ("unsafe-bench", {}),
+    "trigger_link.below_vih": ("unsafe-bench", {"trigger_link.top": "2 kohm",
+                                                "trigger_link.bottom": "1 kohm"}),
+    "trigger_link.low_above_vil": ("levitator-40k", {
+        "controller.output": "cmos5", "gate_driver.input": "cmos5",
+        "camera.trigger_input": {"family": "ttl5"}, "trigger_link.top": "10 kohm",
+        "trigger_link.bottom": "10 kohm"}),
+    "trigger_link.source_overloaded": ("unsafe-bench", {"trigger_link.top": "100 ohm",
+                                                        "trigger_link.bottom": "120 ohm"}),
+    "trigger_link.edge_too_slow": ("rangefinder-58k", {}),
+    "trigger_link.no_feasible_pair": ("levitator-40k", {
+        "controller.output": "lvcmos18", "gate_driver.input": "lvcmos18",
+        "camera.trigger_input": {"family": "lvcmos33"}}),
+    "gate_link.below_vih": ("levitator-40k", {
+        "controller.output": "lvcmos12", "camera.trigger_input": {"family": "lvcmos12"}}),
+    "gate_link.over_input_max": ("levitator-40k", {
+        "controller.output": "cmos5", "gate_driver.supply": "4 V",
+        "camera.trigger_input": {"family": "lvcmos33"}}),
 }
 
 

@@ -92,7 +92,7 @@ def source_overloaded(plan):
 
 @rule("trigger_link.edge_too_slow", "warning",
       trigger="the worst-case 10-90 % edge at the trigger input (ln 9 x Thevenin resistance x "
-              "input capacitance) exceeds 1 % of the shorter of strobe.pulse_width and "
+              "input capacitance) exceeds 1 % of the longer of strobe.pulse_width and "
               "camera.trigger_latency",
       fix="lower both divider resistors (same ratio), within the source's rated current, or "
           "use a logic-level translator")

@@ -106,9 +106,14 @@ def resolve_family(name: str, path: str, custom=None) -> logic.Family:
 
 
 def edge_limit_for(pulse_width: float | None, trigger_latency: float | None) -> float | None:
-    """1 % of the shorter of the pulse width and the trigger latency (None: no limit). [s]"""
+    """1 % of the longer of the pulse width and the trigger latency (None: no limit). [s]
+
+    The trigger edge shifts when the exposure opens; against a camera whose own latency is
+    microseconds, an edge of 1 % of that latency is lost in the latency's own spread
+    (project default, common practice for "negligible").
+    """
     times = [t for t in (pulse_width, trigger_latency) if t]
-    return EDGE_FRACTION * min(times) if times else None
+    return EDGE_FRACTION * max(times) if times else None
 
 
 def link_section(source: logic.Family, destination: logic.Family, *, series: str = "E24",
