@@ -61,8 +61,8 @@ from .physics import thermal as thermal_model
 
 __all__ = [
     "CONSTRAINTS", "Grid", "Limits", "Design", "TuneResult", "default_grid", "tune",
-    "evaluate_grid", "candidate_rig", "metrics_from_plan", "feasible_metrics",
-    "light_from_plan", "tuned_rig_text", "STUCK_ON_MIN_TIME",
+    "evaluate_grid", "candidate_rig", "violations_from_plan", "light_from_plan",
+    "tuned_rig_text", "result_text", "STUCK_ON_MIN_TIME",
 ]
 
 STUCK_ON_MIN_TIME = 10.0  # [s] a stuck gate must take this long to reach the junction limit
@@ -149,6 +149,7 @@ class Design:
     peak_current_a: float
     flashes_per_frame: int
     violates: list[str] = field(default_factory=list)
+    _flat: int = -1  # index in the grid (not output)
 
     def to_json(self) -> dict:
         from .plan import jsonable
@@ -247,11 +248,11 @@ def _require(rig) -> None:
 
 
 def _context(rig, plan, limits: Limits) -> _Context:
+    from .stages import power as power_stage
+
     _require(rig)
-    led = rig.led
-    pts = sorted(led.forward_voltage, key=lambda p: p.current)
-    fit = led_model.fit_forward_voltage([p.current for p in pts], [p.voltage for p in pts],
-                                        led.series_resistance, temperature=led.ambient)
+
+    fit = power_stage.diode(rig)
     from .stages import exposure as exposure_stage
 
     _w, rise, fall, w_ph, tau = exposure_stage.pulse_parameters(rig, plan)
@@ -305,14 +306,14 @@ def _with(rig, width: float | None = None, every: int | None = None,
 class _Timing:
     """Per (width, every) quantities from the ordinary timing stage; arrays (nW, nE)."""
 
-    n_frame: np.ndarray  # flashes per frame (1 without a camera)
+    n_frame: np.ndarray  # flashes per frame (1 without a camera): the light's multiplier
+    n_burst: np.ndarray  # flashes per heating burst (1 for a continuous train)
     spacing: np.ndarray  # [s] flash period
-    frame_period: np.ndarray  # [s]
+    frame_period: np.ndarray  # [s] burst period (the spacing for a continuous train)
     rate: np.ndarray  # [Hz] average flash rate
     duty: np.ndarray  # duty in the burst
     smear: np.ndarray
     window_ok: np.ndarray  # bool: camera window constraint met
-    burst: np.ndarray  # bool: heat as bursts (camera, not continuous) else a pulse train
     retention: np.ndarray
     area: np.ndarray  # [s] optical area per unit current
     rated: np.ndarray  # [A] rated pulse current (inf without ratings)
@@ -322,18 +323,21 @@ def _timing_table(ctx: _Context, widths, everys) -> _Timing:
     from . import timing
     from .plan import Plan
     from .stages import flash as flash_stage
+    from .stages import power as power_stage
 
     rig = ctx.rig
     nw, ne = widths.size, everys.size
     n_frame = np.ones((nw, ne))
+    n_burst = np.ones((nw, ne))
     spacing = np.empty((nw, ne))
     frame = np.empty((nw, ne))
+    rate = np.empty((nw, ne))
     smear = np.ones((nw, ne))
     ok = np.ones((nw, ne), dtype=bool)
     cam = rig.camera
-    burst = cam is not None and not rig.strobe.continuous
     # The timing stage is scalar (integer ticks); it depends on (width, every) only, so it
-    # runs once per pair, not per candidate.
+    # runs once per pair, not per candidate. The flash pattern the LED sees is the power
+    # stage's own (burst per frame or continuous train).
     for j, e in enumerate(everys):
         for i, w in enumerate(widths):
             r = _with(rig, width=w, every=int(e))
@@ -342,16 +346,16 @@ def _timing_table(ctx: _Context, widths, everys) -> _Timing:
             flash_stage.build(r, plan)
             timing.build(r, plan)
             t = plan.timing
-            spacing[i, j] = t.flash_period_ticks * t.tick_s
+            pat = power_stage.flash_pattern(r, t)
+            spacing[i, j] = pat.spacing
+            n_burst[i, j] = pat.n
+            frame[i, j] = pat.frame if pat.frame is not None else pat.spacing
+            rate[i, j] = pat.rate
             smear[i, j] = t.smear
             if cam is not None:
-                frame[i, j] = t.frame_period_ticks * t.tick_s
                 n_frame[i, j] = t.flashes_per_frame or 0
                 ok[i, j] = (t.flashes_per_frame or 0) >= 1 and \
                     cam.frame_rate <= rig.wave.frequency / int(e)
-            else:
-                frame[i, j] = spacing[i, j]
-    rate = np.where(burst, n_frame / frame, 1.0 / spacing) if cam is not None else 1.0 / spacing
     w2 = widths[:, None]
     duty = w2 / spacing
     retention = np.asarray(exposure_model.retention(
@@ -369,9 +373,8 @@ def _timing_table(ctx: _Context, widths, everys) -> _Timing:
             [p.width for p in led.pulse_ratings], [p.duty for p in led.pulse_ratings],
             [p.current for p in led.pulse_ratings])
         rated = np.minimum(rated, tab)
-    return _Timing(n_frame=n_frame, spacing=spacing, frame_period=frame, rate=rate,
-                   duty=duty, smear=smear, window_ok=ok,
-                   burst=np.full((nw, ne), burst), retention=retention,
+    return _Timing(n_frame=n_frame, n_burst=n_burst, spacing=spacing, frame_period=frame,
+                   rate=rate, duty=duty, smear=smear, window_ok=ok, retention=retention,
                    area=np.array(area), rated=rated)
 
 
@@ -379,7 +382,13 @@ def _timing_table(ctx: _Context, widths, everys) -> _Timing:
 
 
 def _stuck_table(ctx: _Context, resistors, voltages):
-    """Stuck-on gate per (resistor, voltage): time to the junction limit, resistor power."""
+    """Stuck-on gate per (resistor, voltage): the rise a stuck gate adds in 10 s, and the
+    series resistor's power.
+
+    The step response is monotonic, so "the limit is reached in no less than 10 s" is
+    exactly "heat x Zth(10 s) <= room left below junction_max", tested per candidate
+    without a root find.
+    """
     rig = ctx.rig
     led, sup = rig.led, rig.supply
     r2, v2 = resistors[:, None], voltages[None, :]
@@ -389,8 +398,8 @@ def _stuck_table(ctx: _Context, resistors, voltages):
     heat = (1.0 - led.efficiency) * np.asarray(st.led_power)
     rth = [t.resistance for t in led.thermal]
     tau = [t.time_constant for t in led.thermal]
-    t_limit = thermal_model.step_time_to_rise(heat, led.junction_max - led.ambient, rth, tau)
-    return np.asarray(t_limit, dtype=float), np.asarray(st.resistor_power, dtype=float)
+    rise_10s = heat * thermal_model.zth(STUCK_ON_MIN_TIME, rth, tau)
+    return np.asarray(rise_10s, dtype=float), np.asarray(st.resistor_power, dtype=float)
 
 
 def _evaluate_block(ctx: _Context, tt: _Timing, stuck, grid: Grid, iw, ir, iv,
@@ -411,29 +420,35 @@ def _evaluate_block(ctx: _Context, tt: _Timing, stuck, grid: Grid, iw, ir, iv,
     w_c = w[col]
     v_c = v[col]
     n = tt.n_frame[iw]
+    n_burst = tt.n_burst[iw]
     spacing = tt.spacing[iw]
     frame = tt.frame_period[iw]
     rate = tt.rate[iw]
     heat = (1.0 - led.efficiency) * energy / w_c
     rth = [t.resistance for t in led.thermal]
     tau = [t.time_constant for t in led.thermal]
-    if tt.burst[0, 0]:
-        rise_k = thermal_model.burst_peak(heat, w_c, spacing, np.maximum(n, 1), frame, rth, tau)
-    else:
-        rise_k = thermal_model.pulse_train_peak(heat, w_c, spacing, rth, tau)
+    # A continuous train is the burst of one flash per spacing (burst_peak reduces to the
+    # pulse-train peak exactly), so one call covers both patterns.
+    rise_k = thermal_model.burst_peak(heat, w_c, spacing, n_burst, frame, rth, tau)
     junction = led.ambient + np.asarray(rise_k)
     margin = led.junction_max - junction
     retention = tt.retention[iw]
     light = (charge / w_c) * tt.area[iw] * n
     avg_current = np.asarray(supply_model.average_current(charge, rate))
-    avg_power = np.asarray(supply_model.average_power(v_c * charge, rate))
+    # Energy drawn per flash: LED + series resistor + switch + ESR (the power stage's budget).
+    e_flash = energy + np.asarray(op.i2t)[col] * (r[col] + ctx.on_resistance + sup.esr)
+    avg_power = np.asarray(supply_model.average_power(e_flash, rate))
     droop = supply_model.burst_droop(charge, sup.storage_capacitance, sup.max_current, w_c,
-                                     spacing, np.maximum(n, 1))
+                                     spacing, n_burst)
     recharge = np.asarray(supply_model.recharge_time(sup.storage_capacitance,
                                                      np.asarray(droop.at_end), sup.max_current))
-    idle = np.where(tt.burst[iw], frame - n * spacing + (spacing - w_c), spacing - w_c)
-    t_limit, r_power = stuck
-    t_limit = t_limit[ir, iv][col]
+    idle = frame - (n_burst - 1) * spacing - w_c
+    rise_10s, r_power = stuck
+    rise_10s = rise_10s[ir, iv][col]
+    # The stuck gate's step response starts from the mean junction temperature of normal
+    # operation (the power stage's convention).
+    mean = thermal_model.mean_rise(heat, w_c * rate, rth)
+    allowed = led.junction_max - (led.ambient + mean)
     r_power = r_power[ir, iv][col]
 
     def bad(ok):  # nan counts as a violation
@@ -449,7 +464,7 @@ def _evaluate_block(ctx: _Context, tt: _Timing, stuck, grid: Grid, iw, ir, iv,
         "supply power": bad(avg_power <= sup.max_power),
         "supply current": bad(avg_current <= sup.max_current),
         "recharge time": bad(recharge <= idle),
-        "stuck-on gate": np.broadcast_to(bad(t_limit >= STUCK_ON_MIN_TIME), shape),
+        "stuck-on gate": bad((rise_10s <= allowed) & (allowed > 0)),
         "series resistor power": np.broadcast_to(bad(r_power <= sup.series_resistor_power),
                                                  shape),
     }
@@ -479,10 +494,13 @@ def evaluate_grid(rig, plan, grid: Grid, limits: Limits, flat=None):
     ctx = _context(rig, plan, limits)
     tt = _timing_table(ctx, grid.widths, grid.everys)
     stuck = _stuck_table(ctx, grid.resistors, grid.voltages)
-    nw, nr, ne, nv = grid.shape
     if flat is None:
         flat = np.arange(grid.size)
-    flat = np.asarray(flat)
+    return _evaluate_flat(ctx, tt, stuck, grid, limits, flat)
+
+
+def _evaluate_flat(ctx, tt, stuck, grid: Grid, limits: Limits, flat):
+    flat = np.asarray(flat, dtype=np.int64)
     iw, ir, ie, iv = np.unravel_index(flat, grid.shape)
     metrics, viol = _evaluate_block(ctx, tt, stuck, grid, iw, ir, iv, limits.min_retention,
                                     limits.min_margin)
@@ -552,7 +570,7 @@ def _design(grid, flat, metrics, viol, k, limited_by=None) -> Design:
         retention=float(metrics["retention"][k]), thermal_margin_k=float(metrics["margin"][k]),
         junction_peak_c=float(metrics["junction"][k]) - 273.15,
         peak_current_a=float(metrics["peak"][k]), flashes_per_frame=int(metrics["n_frame"][k]),
-        violates=[name for name, a in viol.items() if bool(a[k])],
+        violates=[name for name, a in viol.items() if bool(a[k])], _flat=int(flat),
     )
 
 
@@ -571,11 +589,11 @@ def _neighbours(grid: Grid, flat: int) -> list[int]:
 _AXIS_NAMES = ("pulse width", "series resistor", "every", "supply voltage")
 
 
-def _limited_by(rig, plan, grid, limits, flat, light) -> str:
+def _limited_by(ev, grid, flat, light) -> str:
     """The constraint a brighter grid neighbour violates most often (else the grid edge)."""
     nb = _neighbours(grid, flat)
     if nb:
-        m, v = evaluate_grid(rig, plan, grid, limits, nb)
+        m, v = ev(nb)
         counts: dict[str, int] = {}
         for k in range(len(nb)):
             if m["light"][k] <= light:
@@ -609,7 +627,7 @@ def _frontier(cell_light, cell_flat, cell_ret) -> list[tuple[int, float]]:
 
 def tune(rig, limits: Limits | None = None, grid: Grid | None = None, *,
          chunk: int = DEFAULT_CHUNK, runner_ups: int = 5, verify: int = 20,
-         progress=None) -> TuneResult:
+         progress=None, base=None) -> TuneResult:
     """Search the grid for the brightest feasible design; verify it through ``solve``.
 
     Parameters
@@ -626,14 +644,18 @@ def tune(rig, limits: Limits | None = None, grid: Grid | None = None, *,
         How many next-best designs to report.
     verify : int
         How many top designs to try, in order, through ``solve`` + checks: the first whose
-        verdict is not "fail" becomes the best (the others are listed as rejected).
+        verdict is not "fail" becomes the best (the others are listed as rejected). 0 skips
+        the verification (the search's own best is returned, ``plan`` stays None).
     progress : callable, optional
         ``progress(done, total)`` after each chunk (the CLI's progress bar).
+    base : Plan, optional
+        ``solve(rig)``, when the caller has it already.
     """
     from .solve import solve
 
     t0 = time.perf_counter()
-    base = solve(rig)
+    if base is None:
+        base = solve(rig)
     if limits is None:
         limits = Limits(min_retention=rig.strobe.min_retention)
     if grid is None:
@@ -700,15 +722,20 @@ def tune(rig, limits: Limits | None = None, grid: Grid | None = None, *,
         if progress is not None:
             progress(min(sub, start + per) * ne, grid.size)
 
+    def ev(flat):
+        return _evaluate_flat(ctx, tt, stuck, grid, limits, flat)
+
     reached["retention"] = float(np.nanmax(tt.retention)) if tt.retention.size else np.nan
     result_top: list[Design] = []
     if top_flat.size:
-        m, v = evaluate_grid(rig, base, grid, limits, top_flat)
+        m, v = ev(top_flat)
         result_top = [_design(grid, top_flat[k], m, v, k) for k in range(top_flat.size)]
     best = None
     rejected = []
     best_plan = None
-    for d in result_top[:max(1, verify)]:
+    if verify <= 0 and result_top:
+        best = result_top[0]
+    for d in result_top[:verify]:
         cand = candidate_rig(rig, d, _retention_override(rig, limits))
         plan = solve(cand)
         if plan.verdict != "fail":
@@ -720,18 +747,17 @@ def tune(rig, limits: Limits | None = None, grid: Grid | None = None, *,
                          "codes": sorted({f.code for f in plan.findings
                                           if f.severity in ("hazard", "fault")})})
     if best is not None:
-        flat_best = np.ravel_multi_index(_indices(grid, best), grid.shape)
-        best.limited_by = _limited_by(rig, base, grid, limits, flat_best, best.light_per_frame)
+        best.limited_by = _limited_by(ev, grid, best._flat, best.light_per_frame)
     others = [d for d in result_top if d is not best][:runner_ups]
     cell_ret = tt.retention.ravel()
     front_flat = _frontier(cell_light, cell_flat, cell_ret)
     frontier = []
     if front_flat:
-        m, v = evaluate_grid(rig, base, grid, limits, np.array(front_flat))
+        m, v = ev(np.array(front_flat))
         frontier = [_design(grid, front_flat[k], m, v, k) for k in range(len(front_flat))]
     explanation = None
     if best is None:
-        explanation = _explain(excluded, only, reached, limits, grid, rejected)
+        explanation = _explain(excluded, only, reached, limits, grid, rejected, feasible)
     return TuneResult(best=best, runner_ups=others, frontier=frontier, candidates=grid.size,
                       feasible=feasible, seconds=time.perf_counter() - t0, excluded=excluded,
                       only_excluded=only, best_reached=reached, explanation=explanation,
@@ -745,19 +771,12 @@ def _retention_override(rig, limits: Limits) -> float | None:
     return limits.min_retention
 
 
-def _indices(grid: Grid, d: Design) -> tuple[int, int, int, int]:
-    return (int(np.argmin(np.abs(grid.widths - d.pulse_width_s))),
-            int(np.argmin(np.abs(grid.resistors - d.series_resistor_ohm))),
-            int(np.argmin(np.abs(grid.everys - d.every))),
-            int(np.argmin(np.abs(grid.voltages - d.supply_voltage_v))))
-
-
-def _explain(excluded, only, reached, limits, grid, rejected) -> str:
-    if rejected and not any(excluded.values()):
+def _explain(excluded, only, reached, limits, grid, rejected, feasible) -> str:
+    if feasible and rejected:
         codes = sorted({c for r in rejected for c in r["codes"]})
-        return ("every candidate the search accepted still fails `check` on "
-                f"{', '.join(codes)}: fix those findings first (they do not depend on the "
-                "tuned values)")
+        return (f"{feasible} candidates meet the search's constraints, but the "
+                f"{len(rejected)} brightest still fail `check` on {', '.join(codes)}: fix "
+                "those findings first (the search does not vary what causes them)")
     if not excluded:
         return "the grid is empty"
     order = list(CONSTRAINTS)
@@ -803,36 +822,49 @@ def _quantity(value: float, kind: str) -> str:
     return f"{value!r} {unit}"
 
 
-def metrics_from_plan(plan) -> dict[str, float]:
-    """The quantities the constraints test, read from a solved plan (the scalar path)."""
-    out = {}
-    ex = plan.exposure
-    out["retention"] = ex.retention if ex is not None else math.nan
-    led = plan.led
-    out["thermal_margin_k"] = led.thermal_margin_k if led is not None else math.nan
-    out["peak_current_a"] = led.peak_current_a if led is not None else math.nan
-    out["flashes_per_frame"] = plan.timing.flashes_per_frame
+def violations_from_plan(plan, limits: Limits) -> dict[str, bool]:
+    """The search's constraints judged on a solved plan (the scalar path through ``solve``).
+
+    Same names as :data:`CONSTRAINTS`; True means violated. Reads only plan sections and
+    rig ratings, so the tests can compare it with the vectorised evaluation.
+    """
+    rig = plan.rig
+    led, sup, sw, cam = rig.led, rig.supply, rig.switch, rig.camera
+    t, ex, pl, su, so = plan.timing, plan.exposure, plan.led, plan.supply, plan.stuck_on
+    n = t.flashes_per_frame
+    out = {
+        "camera window": cam is not None and (not n or n < 1 or
+                                              cam.frame_rate > rig.wave.frequency
+                                              / rig.strobe.every),
+        "retention": not ex.retention >= limits.min_retention,
+        "junction temperature": not pl.thermal_margin_k >= limits.min_margin,
+    }
+    rated = min(pl.rated_pulse_current_a if pl.rated_pulse_current_a is not None else math.inf,
+                led.max_pulse_current if led.max_pulse_current is not None else math.inf)
+    out["LED pulse rating"] = not pl.peak_current_a <= rated
+    out["LED average current"] = not pl.average_current_a <= led.max_dc_current
+    out["supply power"] = not su.average_power_w <= sup.max_power
+    out["supply current"] = not su.average_current_a <= sup.max_current
+    out["recharge time"] = not su.recharge_time_s <= su.idle_time_s
+    out["stuck-on gate"] = so.time_to_limit_s is not None and \
+        not so.time_to_limit_s >= STUCK_ON_MIN_TIME
+    out["series resistor power"] = not so.resistor_power_w <= sup.series_resistor_power
+    if sw is not None:
+        out["switch pulse current"] = not pl.peak_current_a <= sw.max_pulse_current
+        vds = plan.switch.vds_peak_v if plan.switch is not None else None
+        out["drain voltage"] = not (vds if vds is not None else sup.voltage) <= \
+            sw.max_drain_voltage
+    o = plan.optics
+    if o is not None and o.visible_contrast is not None:
+        minimum = limits.min_contrast if limits.min_contrast is not None else o.min_contrast
+        out["visible contrast"] = not o.visible_contrast >= minimum
     return out
 
 
 def light_from_plan(plan) -> float:
     """Light per frame of a solved plan, from its sections (see the module docstring). [A s]"""
-    rig = plan.rig
-    led = plan.led
-    width = rig.strobe.pulse_width
-    mean_current = getattr(led, "mean_current_a", None)
-    if mean_current is None:
-        mean_current = led.charge_c / width
-    area = exposure_model.optical_area(width, plan.flash.rise_s, plan.flash.fall_s)
-    n = plan.timing.flashes_per_frame if rig.camera is not None else 1
-    return float(mean_current * area * (n or 0))
-
-
-def feasible_metrics(plan, limits: Limits) -> bool:
-    """Scalar feasibility of a solved plan: retention, margin, and no hazard or fault."""
-    m = metrics_from_plan(plan)
-    return (plan.verdict != "fail" and m["retention"] >= limits.min_retention
-            and m["thermal_margin_k"] >= limits.min_margin)
+    n = plan.timing.flashes_per_frame if plan.rig.camera is not None else 1
+    return float(plan.led.mean_current_a * plan.exposure.optical_area_s * (n or 0))
 
 
 # --- text output ---------------------------------------------------------------------------
