@@ -338,12 +338,19 @@ def _timing_table(ctx: _Context, widths, everys) -> _Timing:
     # The timing stage is scalar (integer ticks); it depends on (width, every) only, so it
     # runs once per pair, not per candidate. The flash pattern the LED sees is the power
     # stage's own (burst per frame or continuous train).
+    # The flash section depends on the width only: built once per width.
+    flashes = []
+    for w in widths:
+        r = _with(rig, width=w)
+        plan = Plan(rig=r)
+        flash_stage.build(r, plan)
+        flashes.append(plan.flash)
     for j, e in enumerate(everys):
         for i, w in enumerate(widths):
             r = _with(rig, width=w, every=int(e))
             plan = Plan(rig=r)
             plan.air = ctx.plan.air
-            flash_stage.build(r, plan)
+            plan.flash = flashes[i]
             timing.build(r, plan)
             t = plan.timing
             pat = power_stage.flash_pattern(r, t)
