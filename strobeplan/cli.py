@@ -200,6 +200,71 @@ def divider(source, destination, series, tolerance, capacitance, pair, tolerant,
     click.echo(plan_json(plan) if as_json else plan_text(plan), nl=False)
     sys.exit(exit_code_for(plan.verdict))
 
+
+PLOT_KINDS = ("timing", "pulse", "thermal", "tradeoff", "divider", "sweep")
+
+
+@cli.command()
+@click.argument("rig", type=click.Path(allow_dash=True))
+@click.option("--kind", type=click.Choice(PLOT_KINDS), required=True, help="Which plot.")
+@click.option("-o", "--output", type=click.Path(), required=True,
+              help="FILE.png or FILE.svg (the suffix decides the format; written atomically).")
+@click.option("--dpi", type=click.IntRange(20, 1200), default=150, show_default=True,
+              help="Resolution of a PNG.")
+def plot(rig, kind, output, dpi):
+    """Draw one plot of the plan (timing diagram, pulse, thermal, divider, sweep, tradeoff)."""
+    from pathlib import Path
+
+    suffix = Path(output).suffix.lower()
+    if suffix not in (".png", ".svg"):
+        raise InputError(f"{output}: expected a .png or .svg file name (the suffix decides "
+                         "the format)")
+    if _same_file(rig, output):
+        raise InputError(f"{output}: is the rig file itself; choose another output file")
+    plan = _solve(rig)
+    from .io import write_atomic
+    from .report.plots import figure_bytes
+    from .report.plots import plot as draw
+
+    with user_errors():
+        data = figure_bytes(draw(plan, kind), suffix[1:], dpi)
+        write_atomic(output, data)
+
+
+def _solve_with_text(rig_path: str):
+    """(plan, rig text as given) for outputs that show the rig file itself."""
+    from pathlib import Path
+
+    from .rig import load_rig, loads_rig
+    from .solve import solve
+
+    with user_errors():
+        if rig_path == "-":
+            data, where = sys.stdin.buffer.read(), "<stdin>"
+        else:
+            try:
+                data, where = Path(rig_path).read_bytes(), rig_path
+            except OSError:
+                load_rig(rig_path)  # raises the one-line RigError for this path
+                raise
+        rig = loads_rig(data, where)
+        return solve(rig), data.decode("utf-8")
+
+
+@cli.command()
+@click.argument("rig", type=click.Path(allow_dash=True))
+@click.option("-o", "--output", type=click.Path(allow_dash=True), required=True,
+              help="The HTML file to write (atomically); - for standard output.")
+def report(rig, output):
+    """Write one self-contained HTML report: verdict, findings, plots, tables, the rig."""
+    from .report.html import report_html
+
+    plan, text = _solve_with_text(rig)
+    with user_errors():
+        page = report_html(plan, rig_text=text)
+    _write_or_echo(page, output, rig)
+
+
 def main(argv=None) -> None:
     """Console entry point: maps every outcome to the exit codes of design §5."""
     args = list(sys.argv[1:] if argv is None else argv)

@@ -1,0 +1,678 @@
+"""Plots of a solved plan: one ``plot_X(plan, ax=None) -> Figure`` per picture.
+
+Pattern (design §8): the plan holds the computed data; each function here only draws it,
+using the plan's sections and the physics functions (never a second copy of a model).
+matplotlib is imported inside the functions and only its object-oriented API is used
+(``matplotlib.figure.Figure``, no pyplot state), so importing this module is cheap and
+nothing global changes. Every axis carries its unit with SI prefixes (``EngFormatter``)
+or in brackets, and curves differ by line style and marker, so a greyscale print reads.
+
+``ax``: ``None`` makes a new figure. One-panel plots draw into a given Axes. Two-panel
+plots (timing, pulse, sweep, thermal) take a pair of Axes, or one Axes for their main panel
+(the drive-period zoom, the retention curve, the achieved phase, the junction trace).
+
+A plot whose inputs the plan lacks raises :class:`strobeplan.errors.RigError` naming the
+missing section or key (exit 2 in the CLI).
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from ..errors import MISSING, RigError
+
+KINDS = ("timing", "pulse", "thermal", "tradeoff", "divider", "sweep")
+
+# Greyscale-readable styles: distinct dashes and markers, dark-to-mid greys.
+INK = "black"
+GREY = "0.45"
+LIGHT = "0.8"
+
+_FIG_ONE = (7.0, 3.6)
+_FIG_TWO = (7.0, 6.2)
+
+
+# --- helpers ------------------------------------------------------------------------------
+
+
+def _need(obj, name: str, what: str, path: str | None = None):
+    """``obj.name``, or a RigError naming the missing section (exit 2 in the CLI)."""
+    value = getattr(obj, name, None)
+    if value is None:
+        raise RigError(path or name, MISSING, f"the {what} plot needs it; add it to the rig")
+    return value
+
+
+def _new_figure(size):
+    from matplotlib.figure import Figure
+
+    return Figure(figsize=size, layout="constrained")
+
+
+def _one_axes(ax):
+    if ax is None:
+        fig = _new_figure(_FIG_ONE)
+        return fig, fig.add_subplot()
+    return ax.figure, ax
+
+
+def _two_axes(ax):
+    """(figure, first, second); with one given Axes the first panel is None."""
+    if ax is None:
+        fig = _new_figure(_FIG_TWO)
+        first, second = fig.subplots(2, 1)
+        return fig, first, second
+    if isinstance(ax, (list, tuple, np.ndarray)):
+        first, second = list(np.ravel(ax))[:2]
+        return second.figure, first, second
+    return ax.figure, None, ax
+
+
+def _eng(axis, unit: str, places: int | None = None):
+    """SI-prefixed tick labels ("10 µs") on an axis."""
+    from matplotlib.ticker import EngFormatter
+
+    axis.set_major_formatter(EngFormatter(unit=unit, places=places))
+
+
+def _percent(axis):
+    from matplotlib.ticker import PercentFormatter
+
+    axis.set_major_formatter(PercentFormatter(xmax=1.0, decimals=0))
+
+
+def _pulse_params(plan):
+    """(width, rise, fall, phosphor fraction, phosphor decay) of the flash. [s, s, s, 1, s]
+
+    The exposure stage's reading of the rig and the flash section (one source of truth).
+    """
+    from ..stages.exposure import pulse_parameters
+
+    _need(plan, "flash", "pulse")
+    return pulse_parameters(plan.rig, plan)
+
+
+def _jitter(plan) -> float:
+    """Combined RMS timing jitter of the flash: the exposure section's, else the rig's. [s]"""
+    from ..stages.exposure import jitter_rms
+
+    e = plan.exposure
+    if e is not None and getattr(e, "jitter_rms_s", None) is not None:
+        return float(e.jitter_rms_s)
+    return jitter_rms(plan.rig)
+
+
+def _deg(x: float) -> str:
+    return f"{x:.4g}\N{DEGREE SIGN}"
+
+
+def _si(value: float, kind: str) -> str:
+    """SI-prefixed quantity for a label ("178.3 µs")."""
+    from ..units import render
+
+    text = render(value, kind)
+    number, _, unit = text.partition(" ")
+    if unit.startswith("u") and len(unit) > 1:
+        unit = "\N{MICRO SIGN}" + unit[1:]
+    return f"{number} {unit}".strip()
+
+
+# --- timing -------------------------------------------------------------------------------
+
+
+def flash_starts(plan) -> tuple[np.ndarray, np.ndarray]:
+    """Light-start times of the flashes in frame 0 and whether each lies in the window.
+
+    Burst mode: the ``flashes_per_frame`` flashes from ``first_flash_ticks``. Continuous or
+    slow-motion strobe, or no camera: every flash slot from the first edge up to the end of
+    the exposure window.
+
+    Returns
+    -------
+    (ndarray, ndarray)
+        Times after the frame start [s]; True where the whole light pulse is inside the
+        exposure window (for a rolling shutter, the window in which all rows expose).
+    """
+    t, fl, rig = plan.timing, plan.flash, plan.rig
+    period = t.flash_period_ticks * t.tick_s
+    cam = rig.camera
+    burst = cam is not None and not rig.strobe.continuous and t.mode != "slow_motion"
+    if burst:
+        n = int(t.flashes_per_frame or 0)
+        first = (t.first_flash_ticks or 0) * t.tick_s
+        starts = first + fl.delay_s + period * np.arange(n)
+        return starts, np.ones(n, dtype=bool)
+    end = (t.window_start_s + t.window_s) if cam is not None else 4 * period
+    n = min(20_000, int(max(1, math.ceil(end * 1.05 / period) + 1)))
+    starts = t.flash_edge_s + fl.delay_s + period * np.arange(n)
+    if cam is None:
+        return starts, np.zeros(n, dtype=bool)
+    w0, w1 = t.window_start_s, t.window_start_s + t.window_s
+    inside = (starts >= w0 - 1e-12) & (starts + fl.light_length_s <= w1 + 1e-12)
+    return starts, inside
+
+
+def _drive_period_curves(plan, n: int = 2001) -> dict[str, np.ndarray]:
+    """Curves over one drive period: drive, wave at the view, optical pulse (all [1])."""
+    from ..physics import exposure as ex
+
+    t, fl = plan.timing, plan.flash
+    f = t.drive_frequency_hz
+    period = t.drive_period_ticks * t.tick_s
+    time = np.linspace(0.0, period, n)
+    phase = 2.0 * np.pi * f * time
+    waveform = plan.drive.waveform if plan.drive is not None else "square"
+    if waveform == "square":
+        drive = np.where(np.mod(phase, 2 * np.pi) < np.pi, 1.0, -1.0)
+    else:  # sine-weighted PWM: its reference (the fundamental the filter passes)
+        drive = np.sin(phase)
+    wave = np.sin(2.0 * np.pi * f * (time - t.chain_delay_s))
+    width, rise, fall, w, tau = _pulse_params(plan)
+    gate_open = np.mod(t.flash_edge_s + fl.delay_s, period)
+    since_gate = np.mod(time - gate_open, period)
+    light = np.asarray(ex.optical_pulse(since_gate, width, rise, fall, w, tau), dtype=float)
+    return {"time": time, "drive": drive, "wave": wave, "light": light, "waveform": waveform}
+
+
+def _frame_panel(plan, ax):
+    """Lanes over one frame: flashes (stems), camera exposure, all-rows window (bars)."""
+    t, rig = plan.timing, plan.rig
+    starts, inside = flash_starts(plan)
+    cam = rig.camera
+    lanes = {"flashes": 0.5}
+    if cam is not None:
+        lanes["exposure"] = 1.45
+        trigger = (t.camera_trigger_offset_ticks or 0) * t.tick_s
+        expo0 = trigger + cam.trigger_latency
+        ax.broken_barh([(expo0, cam.exposure)], (1.25, 0.4), facecolors="white",
+                       edgecolors=INK, hatch="//",
+                       label=f"camera exposure ({_si(cam.exposure, 'time')})")
+        if cam.shutter == "rolling":
+            lanes["all rows"] = 1.95
+            ax.broken_barh([(t.window_start_s, t.window_s)], (1.75, 0.4), facecolors=LIGHT,
+                           edgecolors=INK, hatch="..",
+                           label=f"all rows exposing ({_si(t.window_s, 'time')})")
+        ax.plot([trigger], [lanes["exposure"]], linestyle="none", marker=">", color=INK,
+                label="camera trigger")
+        span_end = max(t.window_start_s + t.window_s, expo0 + cam.exposure)
+    else:
+        span_end = float(starts[-1]) if starts.size else t.flash_period_ticks * t.tick_s
+    if starts.size and inside.any():
+        ax.vlines(starts[inside], 0.05, 0.95, colors=INK, linestyles="solid",
+                  label=f"flashes in the exposure ({int(inside.sum())})")
+    if starts.size and (~inside).any():
+        ax.vlines(starts[~inside], 0.2, 0.8, colors=GREY, linestyles="dotted",
+                  label=f"flashes outside it ({int((~inside).sum())})")
+    if not inside.any() and cam is not None:
+        ax.text(0.5, 0.25, "no whole flash inside the exposure", transform=ax.transAxes,
+                ha="center", va="center")
+    ax.set_xlim(-0.04 * span_end, 1.06 * span_end)
+    top = max(lanes.values()) + 0.35
+    ax.set_ylim(0.0, top + 0.55)
+    ax.set_yticks(list(lanes.values()), list(lanes))
+    frame = f", frame period {_si(1.0 / t.frame_rate_hz, 'time')}" if t.frame_rate_hz else ""
+    ax.set_title(f"One frame (frame 0{frame})", fontsize="medium")
+    ax.set_xlabel("time after the frame start")
+    _eng(ax.xaxis, "s")
+    ax.legend(loc="upper center", fontsize="small", ncols=3, framealpha=0.95)
+
+
+def plot_timing(plan, ax=None):
+    """Timing diagram: one camera frame with its burst of flashes, and one drive period.
+
+    Top: the camera trigger, the exposure window (and, for a rolling shutter, the window in
+    which all rows expose) and the flashes of frame 0. Bottom: one drive period - the drive
+    at the controller, the wave at the view (delayed by the chain), the optical pulse, the
+    requested phase and the achieved optical centroid.
+    """
+    t = _need(plan, "timing", "timing")
+    _need(plan, "flash", "timing")
+    fig, ax_frame, ax_zoom = _two_axes(ax)
+
+    if ax_frame is not None:
+        _frame_panel(plan, ax_frame)
+
+    c = _drive_period_curves(plan)
+    time = c["time"]
+    drive_label = ("drive at the controller (square)" if c["waveform"] == "square"
+                   else "drive at the controller (PWM reference)")
+    ax_zoom.plot(time, c["drive"], color=GREY, linestyle="--", label=drive_label)
+    ax_zoom.plot(time, c["wave"], color=INK, linestyle="-",
+                 label=f"wave at the view (chain delay {_si(t.chain_delay_s, 'time')})")
+    ax_zoom.fill_between(time, 0.0, c["light"], where=c["light"] > 1e-4, facecolor=LIGHT,
+                         edgecolor=INK, hatch="xx", linewidth=0.8,
+                         label="optical pulse (relative)")
+    period = t.drive_period_ticks * t.tick_s
+    f = t.drive_frequency_hz
+    t_req = math.fmod(t.chain_delay_s + math.radians(t.phase_requested_deg) / (2 * math.pi * f),
+                      period)
+    t_got = math.fmod(t.flash_edge_s + t.flash_delay_s, period)
+    ax_zoom.axvline(t_req, color=INK, linestyle="-.",
+                    label=f"requested phase {_deg(t.phase_requested_deg)}")
+    ax_zoom.plot([t_got], [math.sin(2 * math.pi * f * (t_got - t.chain_delay_s))],
+                 linestyle="none", marker="o", markerfacecolor="white", color=INK,
+                 label=f"optical centroid (achieved {_deg(t.phase_achieved_deg)})")
+    ax_zoom.set_xlim(0.0, period)
+    ax_zoom.set_ylim(-1.2, 2.1)
+    ax_zoom.set_xlabel("time in the drive period")
+    ax_zoom.set_ylabel("relative amplitude [1]")
+    ax_zoom.set_title(f"One drive period ({_si(f, 'frequency')}, "
+                      f"{t.drive_period_ticks} ticks)", fontsize="medium")
+    _eng(ax_zoom.xaxis, "s")
+    ax_zoom.legend(loc="upper center", fontsize="small", ncols=2, framealpha=0.95)
+    return fig
+
+
+# --- pulse --------------------------------------------------------------------------------
+
+
+def retention_curve(plan, frequency):
+    """Contrast retention at the given frequencies for the plan's flash (jitter, smear). [1]"""
+    from ..physics import exposure as ex
+
+    width, rise, fall, w, tau = _pulse_params(plan)
+    smear = plan.timing.smear if plan.timing is not None else 1.0
+    return ex.retention(frequency, width, rise, fall, w, tau, _jitter(plan), smear)
+
+
+def plot_pulse(plan, ax=None):
+    """The optical pulse and its contrast retention against frequency.
+
+    Top: LED current (trapezoid) and light output (with the phosphor tail) after the gate
+    opens. Bottom: retention |H(f)|/H(0) x jitter x smear on a log frequency axis, the
+    wave's harmonics marked, and the retention target.
+    """
+    from ..physics import exposure as ex
+
+    t = _need(plan, "timing", "pulse")
+    fl = _need(plan, "flash", "pulse")
+    width, rise, fall, w, tau = _pulse_params(plan)
+    fig, ax_shape, ax_ret = _two_axes(ax)
+
+    if ax_shape is not None:
+        length = fl.light_length_s
+        time = np.linspace(-0.1 * length, 1.3 * length, 1501)
+        current = ex.optical_pulse(time, width, rise, fall, 0.0, 0.0)
+        light = ex.optical_pulse(time, width, rise, fall, w, tau)
+        ax_shape.plot(time, current, color=GREY, linestyle="--", label="LED current (relative)")
+        ax_shape.plot(time, light, color=INK, linestyle="-", label="light output (relative)")
+        centroid = float(ex.optical_centroid(width, rise, fall, w, tau))
+        ax_shape.axvline(centroid, color=INK, linestyle=":",
+                         label=f"optical centroid ({_si(centroid, 'time')})")
+        ax_shape.set_xlabel("time after the gate opens")
+        ax_shape.set_ylabel("relative level [1]")
+        ax_shape.set_ylim(-0.05, 1.25)
+        ax_shape.set_title(f"Optical pulse (gate {_si(width, 'time')})", fontsize="medium")
+        _eng(ax_shape.xaxis, "s")
+        ax_shape.legend(loc="upper right", fontsize="small", framealpha=0.9)
+
+    f0 = t.drive_frequency_hz
+    n_harm = plan.rig.wave.harmonics
+    duration = max(fl.light_length_s, width)
+    f_hi = max(4.0 / duration, 3.0 * n_harm * f0)
+    freq = np.geomspace(0.1 * f0, f_hi, 1200)
+    ret = np.asarray(retention_curve(plan, freq), dtype=float)
+    ax_ret.plot(freq, ret, color=INK, linestyle="-", label="retention")
+    harmonics = f0 * np.arange(1, n_harm + 1)
+    at_h = np.asarray(retention_curve(plan, harmonics), dtype=float)
+    ax_ret.plot(harmonics, at_h, linestyle="none", marker="s", markerfacecolor="white",
+                color=INK, markeredgecolor=INK, label="wave harmonics")
+    for k, (fh, r) in enumerate(zip(harmonics, at_h, strict=True), start=1):
+        ax_ret.axvline(fh, color=GREY, linestyle=":", linewidth=0.8)
+        ax_ret.annotate(f"{k}f: {r:.1%}", (fh, r), textcoords="offset points",
+                        xytext=(4, -12 - 10 * ((k - 1) % 2)), fontsize="x-small")
+    target = plan.rig.strobe.min_retention
+    ax_ret.axhline(target, color=GREY, linestyle="--", label=f"target {target:.0%}")
+    ax_ret.set_xscale("log")
+    ax_ret.set_xlim(freq[0], freq[-1])
+    ax_ret.set_ylim(0.0, 1.05)
+    ax_ret.set_xlabel("frequency")
+    ax_ret.set_ylabel("contrast retention")
+    _eng(ax_ret.xaxis, "Hz")
+    _percent(ax_ret.yaxis)
+    ax_ret.set_title("Retention against frequency", fontsize="medium")
+    ax_ret.legend(loc="lower left", fontsize="small", framealpha=0.9)
+    return fig
+
+
+# --- thermal ------------------------------------------------------------------------------
+
+
+def junction_trace(plan, time):
+    """Junction temperature in the periodic steady state of the plan's flash pattern.
+
+    Superposition of the Foster step response (:func:`strobeplan.physics.thermal.step_rise`):
+    each flash adds ``P*Zth(t - start) - P*Zth(t - end)``. The frames of the last ``M``
+    frame periods are summed flash by flash (``M`` covers ten time constants of every term
+    up to 50 frame periods); older frames enter as their mean heat, ``P_mean*(Rth -
+    Zth(age))`` at the midpoint of their age, which is exact for terms that are slow
+    against the frame. The peak agrees with the exact burst peak of the plan
+    (:func:`strobeplan.physics.thermal.burst_peak`, tested).
+
+    Parameters
+    ----------
+    plan : Plan
+        A solved plan with ``led`` and ``timing`` sections.
+    time : ndarray
+        Times after the frame start, within one frame period. [s]
+
+    Returns
+    -------
+    ndarray
+        Junction temperature. [K]
+    """
+    from ..physics import thermal as th
+
+    led, rig = plan.led, plan.rig
+    r = np.array([t.resistance for t in rig.led.thermal])
+    tau = np.array([t.time_constant for t in rig.led.thermal])
+    width = rig.strobe.pulse_width
+    power = led.heat_per_pulse_j / width
+    spacing = led.flash_spacing_s
+    n = max(1, int(led.flashes_per_burst))
+    frame = led.frame_period_s if led.pattern == "burst" else spacing
+    first = _first_light(plan) if led.pattern == "burst" else 0.0
+    starts = first + spacing * np.arange(n)
+    slow = tau[tau <= 50.0 * frame]
+    m = int(np.clip(math.ceil(10.0 * (slow.max() if slow.size else 0.0) / frame), 2, 400))
+    t = np.asarray(time, dtype=float)
+    ages = t[:, None] + frame * np.arange(m)[None, :]  # time since each frame's start
+    rise = np.zeros_like(t)
+    for s0 in starts:  # n flashes (the pattern), vectorised over time and frames
+        on = np.clip(ages - s0, 0.0, None)
+        off = np.clip(ages - s0 - width, 0.0, None)
+        rise += (th.step_rise(power, on, r, tau) - th.step_rise(power, off, r, tau)).sum(axis=1)
+    mean_power = power * width * n / frame
+    centroid = float(starts.mean() + width / 2)
+    age_old = t + m * frame - centroid - frame / 2
+    rise += mean_power * (r.sum() - th.zth(age_old, r, tau))
+    return rig.led.ambient + rise
+
+
+def _first_light(plan) -> float:
+    """Start of the first flash's current after the frame start. [s]"""
+    t = plan.timing
+    first = t.first_flash_ticks if t.first_flash_ticks is not None else t.flash_edge_ticks
+    return first * t.tick_s + plan.flash.delay_s
+
+
+def plot_thermal(plan, ax=None):
+    """LED junction temperature over one frame period, with the limit and the margin.
+
+    Top: the whole frame period. Bottom: a zoom on the burst, where the peak is.
+    """
+    led = _need(plan, "led", "thermal", path="led")
+    _need(plan, "timing", "thermal")
+    rig = plan.rig
+    fig, ax_frame, ax_zoom = _two_axes(ax)
+    width = rig.strobe.pulse_width
+    spacing = led.flash_spacing_s
+    n = max(1, int(led.flashes_per_burst))
+    burst = led.pattern == "burst"
+    frame = led.frame_period_s if burst else spacing
+    t0 = _first_light(plan) if burst else 0.0
+    limit_c = led.junction_max_c
+    peak_c = led.junction_peak_c
+
+    def draw(ax, lo, hi, points, with_limit):
+        ends = t0 + spacing * np.arange(n) + width
+        base = np.linspace(lo, hi, points)
+        extra = np.concatenate([ends, ends - width, ends - 1e-3 * width])
+        time = np.unique(np.concatenate([base, extra[(extra >= lo) & (extra <= hi)]]))
+        temp_c = junction_trace(plan, np.mod(time, frame)) - 273.15
+        ax.plot(time, temp_c, color=INK, linestyle="-", label="junction (steady state)")
+        ax.axhline(led.junction_mean_c, color=GREY, linestyle=":",
+                   label=f"mean {led.junction_mean_c:.4g} \N{DEGREE SIGN}C")
+        ambient_c = rig.led.ambient - 273.15
+        if with_limit:
+            ax.axhline(limit_c, color=INK, linestyle="--",
+                       label=f"junction limit {limit_c:.4g} \N{DEGREE SIGN}C")
+            ax.axhline(ambient_c, color=GREY, linestyle="-.",
+                       label=f"ambient {ambient_c:.4g} \N{DEGREE SIGN}C")
+            k = int(np.argmax(temp_c))
+            ax.annotate("", xy=(time[k], limit_c), xytext=(time[k], peak_c),
+                        arrowprops={"arrowstyle": "<->", "color": INK})
+            ax.text(time[k], 0.5 * (peak_c + limit_c),
+                    f"  margin {led.thermal_margin_k:.3g} K", va="center", fontsize="small")
+            top = max(limit_c, peak_c)
+            ax.set_ylim(min(ambient_c, float(temp_c.min())) - 0.05 * (top - ambient_c),
+                        top + 0.12 * (top - ambient_c))
+        else:
+            spread = max(float(temp_c.max() - temp_c.min()), 0.1)
+            ax.set_ylim(float(temp_c.min()) - 0.2 * spread, float(temp_c.max()) + 0.45 * spread)
+        ax.set_xlim(lo, hi)
+        ax.set_ylabel("temperature [\N{DEGREE SIGN}C]")
+        _eng(ax.xaxis, "s")
+        return time, temp_c
+
+    if ax_frame is not None:
+        draw(ax_frame, 0.0, frame, 1500, with_limit=True)
+        ax_frame.set_xlabel("time after the frame start")
+        ax_frame.set_title(f"Junction temperature over one {'frame' if burst else 'flash'} "
+                           f"period ({_si(frame, 'time')}): peak {peak_c:.4g} "
+                           f"\N{DEGREE SIGN}C, margin {led.thermal_margin_k:.3g} K",
+                           fontsize="medium")
+        ax_frame.legend(loc="center right", fontsize="small", framealpha=0.95)
+    burst_end = t0 + (n - 1) * spacing + width
+    lo = max(0.0, t0 - 0.1 * (burst_end - t0) - spacing)
+    hi = min(frame, burst_end + 0.15 * (burst_end - t0) + 2 * spacing)
+    time, temp_c = draw(ax_zoom, lo, hi, 1500, with_limit=ax_frame is None)
+    k = int(np.argmax(temp_c))
+    ax_zoom.plot([time[k]], [temp_c[k]], linestyle="none", marker="^", color=INK,
+                 label=f"peak {peak_c:.4g} \N{DEGREE SIGN}C")
+    ax_zoom.set_xlabel("time after the frame start (the burst)")
+    ax_zoom.set_title(f"The burst: {n} flash{'es' if n > 1 else ''} of {_si(width, 'time')}"
+                      f" every {_si(spacing, 'time')}", fontsize="medium")
+    ax_zoom.legend(loc="upper left", fontsize="small", ncols=2, framealpha=0.95)
+    return fig
+
+
+# --- tradeoff -----------------------------------------------------------------------------
+
+
+def plot_tradeoff(plan, ax=None, result=None, cloud_widths: int = 60):
+    """Light per frame against retention over the tune space (``strobeplan tune``).
+
+    Every point is the brightest candidate of one (pulse width, every) cell of a
+    ``cloud_widths`` x every grid that meets every constraint except retention (and
+    visibility), the quantities the frontier trades; filled when it also meets the retention
+    target. The frontier of the full search, the feasible region (retention at or above the
+    target, light up to the frontier) shaded, the chosen design and the rig as given marked.
+    ``result`` reuses a :class:`strobeplan.tune.TuneResult`.
+    """
+    from .. import tune as tuner
+
+    _need(plan, "led", "tradeoff", path="led")
+    _need(plan, "supply", "tradeoff", path="supply")
+    rig = plan.rig
+    if result is None:
+        result = tuner.tune(rig)
+    limits = result.limits
+    grid = tuner.default_grid(rig, plan, widths=cloud_widths)
+    metrics, viol = tuner.evaluate_grid(rig, plan, grid, limits)
+    traded = ("retention", "visible contrast")
+    safe = ~np.any([v for k, v in viol.items() if k not in traded], axis=0)
+    light = np.asarray(metrics["light"], dtype=float)
+    ret = np.asarray(metrics["retention"], dtype=float)
+    iw, _ir, ie, _iv = np.unravel_index(np.arange(grid.size), grid.shape)
+    cell = iw * grid.shape[2] + ie
+    best = np.full(grid.shape[0] * grid.shape[2], -np.inf)
+    np.maximum.at(best, cell[safe], light[safe])
+    cell_ret = np.full(best.shape, np.nan)
+    cell_ret[cell] = ret  # retention depends on (width, every) only
+    shown = np.isfinite(best) & (best > 0)
+    ok = shown & (cell_ret >= limits.min_retention)
+
+    fig, ax = _one_axes(ax)
+    front = sorted(result.frontier, key=lambda d: d.retention)
+    fr = np.array([d.retention for d in front])
+    fl = np.array([d.light_per_frame for d in front])
+    y_lo = 0.5 * float(np.min(best[shown])) if shown.any() else 1e-9
+    if fr.size:
+        sel = fr >= limits.min_retention
+        if sel.any():
+            ax.fill_between(fr[sel], y_lo, fl[sel], step="post", facecolor=LIGHT,
+                            edgecolor=GREY, hatch="..", linewidth=0,
+                            label="feasible region")
+        ax.step(fr, fl, where="post", color=INK, linestyle="-", label="frontier (safe)")
+    ax.plot(cell_ret[shown & ~ok], best[shown & ~ok], linestyle="none", marker="o",
+            markersize=3, markerfacecolor="white", color=GREY,
+            label="safe, below the retention target")
+    ax.plot(cell_ret[ok], best[ok], linestyle="none", marker="o", markersize=3,
+            color=GREY, label="feasible (meets every constraint)")
+    ax.axvline(limits.min_retention, color=INK, linestyle="--",
+               label=f"retention target {limits.min_retention:.0%}")
+    if plan.exposure is not None:
+        here = tuner.light_from_plan(plan)
+        if here > 0:
+            ax.plot([plan.exposure.retention], [here], linestyle="none", marker="D",
+                    markerfacecolor="white", color=INK, markeredgecolor=INK, markersize=7,
+                    label="the rig as given")
+    if result.best is not None:
+        b = result.best
+        ax.plot([b.retention], [b.light_per_frame], linestyle="none", marker="*",
+                markersize=14, color=INK,
+                label=f"chosen: {_si(b.pulse_width_s, 'time')}, "
+                      f"{_si(b.series_resistor_ohm, 'resistance')}, every {b.every}")
+    else:
+        ax.text(0.5, 0.5, "no feasible design", transform=ax.transAxes, ha="center")
+    ax.set_yscale("log")
+    ax.set_ylim(bottom=y_lo)
+    ax.set_xlabel("contrast retention at the wave frequency")
+    ax.set_ylabel("light per frame (LED charge)")
+    _percent(ax.xaxis)
+    _eng(ax.yaxis, "A\N{MIDDLE DOT}s")
+    ax.set_title(f"Design space: {result.candidates} candidates, {result.feasible} feasible",
+                 fontsize="medium")
+    ax.legend(loc="lower left", fontsize="x-small", framealpha=0.95)
+    return fig
+
+
+# --- divider ------------------------------------------------------------------------------
+
+
+def plot_divider(plan, ax=None):
+    """Worst-case high and low levels of the camera-trigger divider against the input's
+    VIL, VIH and absolute maximum (the ``trigger_link`` section)."""
+    link = _need(plan, "trigger_link", "divider", path="trigger_link")
+    fig, ax = _one_axes(ax)
+    vih, vil, vmax = link.vih_v, link.vil_v, link.input_max_v
+    hi_min, hi_max, lo_max = link.v_high_min_v, link.v_high_max_v, link.v_low_max_v
+    known = [v for v in (vih, vil, vmax, hi_min, hi_max, lo_max) if v is not None]
+    right = 1.18 * max(known)
+    ax.axvspan(vil, vih, facecolor=LIGHT, edgecolor=GREY, hatch="..", linewidth=0,
+               label="undefined (between VIL and VIH)")
+    ax.axvspan(vmax, right, facecolor="white", edgecolor=GREY, hatch="\\\\", linewidth=0,
+               label="over the input maximum")
+    ax.axvline(vil, color=INK, linestyle="--", label=f"VIL {_si(vil, 'voltage')}")
+    ax.axvline(vih, color=INK, linestyle="-.", label=f"VIH {_si(vih, 'voltage')}")
+    ax.axvline(vmax, color=INK, linestyle="-", linewidth=2.0,
+               label=f"input maximum {_si(vmax, 'voltage')}")
+    if hi_min is not None and hi_max is not None and lo_max is not None:
+        ax.broken_barh([(hi_min, hi_max - hi_min)], (0.75, 0.5), facecolors="white",
+                       edgecolors=INK, hatch="//",
+                       label=f"high level, worst case {_si(hi_min, 'voltage')} to "
+                             f"{_si(hi_max, 'voltage')}")
+        ax.broken_barh([(0.0, lo_max)], (-0.25, 0.5), facecolors=GREY, edgecolors=INK,
+                       label=f"low level, worst case up to {_si(lo_max, 'voltage')}")
+        if link.v_nominal_v is not None:
+            ax.plot([link.v_nominal_v], [1.0], linestyle="none", marker="D", color=INK,
+                    markerfacecolor="white", label=f"nominal {_si(link.v_nominal_v, 'voltage')}")
+        pair = (f"{_si(link.top_ohm, 'resistance')} / {_si(link.bottom_ohm, 'resistance')} "
+                f"({link.mode})")
+    else:
+        ax.text(0.5, 0.5, link.reason or "no divider to show", transform=ax.transAxes,
+                ha="center", va="center", wrap=True)
+        pair = link.mode
+    ax.set_xlim(0.0, right)
+    ax.set_ylim(-0.7, 2.6)
+    ax.set_yticks([0.0, 1.0], ["low", "high"])
+    ax.set_xlabel("voltage at the camera trigger input")
+    _eng(ax.xaxis, "V")
+    ax.set_title(f"Trigger divider {pair}: {link.source_family} \N{RIGHTWARDS ARROW} "
+                 f"{link.destination_family}, {link.series} {link.tolerance:.0%}",
+                 fontsize="medium")
+    ax.legend(loc="upper left", fontsize="x-small", ncols=2, framealpha=0.95)
+    return fig
+
+
+# --- sweep --------------------------------------------------------------------------------
+
+
+def plot_sweep(plan, ax=None, steps: int | None = None):
+    """Achieved against target phase across the schedule, and the per-frame phase error.
+
+    ``steps`` overrides the number of frames, as ``strobeplan schedule --steps``.
+    """
+    from ..solve import build_schedule
+
+    t = _need(plan, "timing", "sweep")
+    if plan.lock is None:
+        raise RigError("timing", MISSING, "the sweep plot needs a solved plan")
+    sched = build_schedule(plan, steps=steps)
+    target = np.array([r.target_phase_deg for r in sched.rows])
+    achieved = np.array([r.achieved_phase_deg for r in sched.rows])
+    error = np.array([r.phase_error_deg for r in sched.rows])
+    frames = np.array([r.frame for r in sched.rows])
+    fig, ax_err, ax_main = _two_axes(ax)
+    # The error panel goes below the main one when both are drawn.
+    if ax_err is not None:
+        ax_main, ax_err = ax_err, ax_main
+
+    ax_main.plot([0, 360], [0, 360], color=GREY, linestyle="--", label="achieved = target")
+    ax_main.plot(target, achieved, linestyle="none", marker="o", markerfacecolor="white",
+                 color=INK, markeredgecolor=INK, markersize=4, label=f"frames ({len(frames)})")
+    ax_main.set_xlim(0, 360)
+    ax_main.set_ylim(0, 360)
+    ax_main.set_xticks(range(0, 361, 45))
+    ax_main.set_yticks(range(0, 361, 90))
+    ax_main.set_xlabel("target phase [deg]")
+    ax_main.set_ylabel("achieved phase [deg]")
+    ax_main.set_title(f"Phase across the schedule ({sched.mode})", fontsize="medium")
+    ax_main.legend(loc="upper left", fontsize="small", framealpha=0.9)
+
+    if ax_err is not None:
+        half = 0.5 * t.phase_resolution_deg
+        ax_err.axhspan(-half, half, facecolor=LIGHT, edgecolor=GREY, hatch="..",
+                       label=f"\N{PLUS-MINUS SIGN} half a tick ({_deg(half)})")
+        ax_err.plot(frames, error, color=INK, linestyle="-", marker=".", label="phase error")
+        ax_err.set_xlabel("frame [1]")
+        ax_err.set_ylabel("phase error [deg]")
+        ax_err.set_title(f"Phase error per frame (resolution {_deg(t.phase_resolution_deg)})",
+                         fontsize="medium")
+        bound = max(float(np.max(np.abs(error))) if error.size else 0.0, half) * 1.6
+        ax_err.set_ylim(-bound, bound)
+        ax_err.legend(loc="upper right", fontsize="small", framealpha=0.9)
+    return fig
+
+
+# --- dispatch -----------------------------------------------------------------------------
+
+
+SVG_HASHSALT = "strobeplan"  # fixed, so rebuilt SVGs are byte-identical
+
+
+def figure_bytes(fig, fmt: str, dpi: float = 150) -> bytes:
+    """The figure as PNG or SVG bytes, reproducible (fixed SVG hash salt, no date)."""
+    import io
+
+    import matplotlib
+
+    if fmt not in ("png", "svg"):
+        raise RigError("-o", fmt, "expected a .png or .svg file name")
+    buf = io.BytesIO()
+    with matplotlib.rc_context({"svg.hashsalt": SVG_HASHSALT}):
+        fig.savefig(buf, format=fmt, dpi=dpi,
+                    metadata={"Date": None} if fmt == "svg" else {"Software": None})
+    return buf.getvalue()
+
+
+def plot(plan, kind: str, ax=None):
+    """The plot of one ``kind`` (see :data:`KINDS`)."""
+    funcs = {"timing": plot_timing, "pulse": plot_pulse, "thermal": plot_thermal,
+             "tradeoff": plot_tradeoff, "divider": plot_divider, "sweep": plot_sweep}
+    if kind not in funcs:
+        raise RigError("--kind", kind, f"expected one of {', '.join(KINDS)}")
+    return funcs[kind](plan, ax=ax)
