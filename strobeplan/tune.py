@@ -92,10 +92,11 @@ CONSTRAINTS: dict[str, str] = {
                       "current limit",
     "recharge time": "a larger storage capacitor, a boost with a higher current limit, or "
                      "fewer flashes per frame",
-    "stuck-on gate": "a higher series resistor or a lower boost current limit (and a hardware "
-                     "limit on the gate's on-time plus a fuse)",
-    "series resistor power": "a series resistor rated for more power, or a lower boost "
-                             "current limit",
+    "stuck-on gate": "higher series resistors (widen --resistor-range upwards) or a lower "
+                     "boost current limit (and a hardware limit on the gate's on-time plus a "
+                     "fuse)",
+    "series resistor power": "a series resistor rated for more power, a lower boost current "
+                             "limit, or higher resistors (widen --resistor-range upwards)",
 }
 
 
@@ -789,15 +790,22 @@ def _explain(excluded, only, reached, limits, grid, rejected, feasible) -> str:
     order = list(CONSTRAINTS)
     worst = max(excluded, key=lambda c: (excluded[c], -order.index(c)))
     total = grid.size
-    parts = [f"nothing feasible among {total} candidates: '{worst}' excludes the most "
-             f"({excluded[worst]}, {100.0 * excluded[worst] / total:.3g} %)"]
-    if worst == "retention" and math.isfinite(reached.get("retention", np.nan)):
+    every_one = [c for c in order if excluded.get(c, 0) == total]
+    if len(every_one) > 1:
+        parts = [f"nothing feasible among {total} candidates: "
+                 + ", ".join(f"'{c}'" for c in every_one) + " each exclude every candidate"]
+    else:
+        parts = [f"nothing feasible among {total} candidates: '{worst}' excludes the most "
+                 f"({excluded[worst]}, {100.0 * excluded[worst] / total:.3g} %)"]
+    if "retention" in (every_one or [worst]) and math.isfinite(reached.get("retention", np.nan)):
         parts.append(f"the best retention on the grid is {reached['retention']:.4g} against "
                      f"the target {limits.min_retention:.4g}")
-    if worst == "junction temperature" and math.isfinite(reached.get("margin", np.nan)):
+    if "junction temperature" in (every_one or [worst]) and \
+            math.isfinite(reached.get("margin", np.nan)):
         parts.append(f"the largest thermal margin on the grid is {reached['margin']:.4g} K "
                      f"against the {limits.min_margin:.4g} K asked")
-    parts.append(f"change: {CONSTRAINTS[worst]}")
+    for c in every_one or [worst]:
+        parts.append(f"change ({c}): {CONSTRAINTS[c]}")
     blockers = [c for c, n in only.items() if n > 0]
     if blockers:
         parts.append("constraints that alone exclude some candidates: " + ", ".join(
