@@ -265,6 +265,126 @@ def report(rig, output):
     _write_or_echo(page, output, rig)
 
 
+@cli.command()
+@click.argument("rig", type=click.Path(allow_dash=True))
+@click.option("--min-retention", default=None, metavar="RATIO",
+              help="Retention target, e.g. 90%  [default: strobe.min_retention]")
+@click.option("--min-margin", default="10K", show_default=True, metavar="KELVIN",
+              help="Smallest thermal margin to the junction limit.")
+@click.option("--series", type=click.Choice(["E3", "E6", "E12", "E24", "E48", "E96", "E192"],
+                                            case_sensitive=False),
+              default="E24", show_default=True, help="E-series of the series resistor.")
+@click.option("--resistor-range", nargs=2, default=("0.1ohm", "100ohm"), show_default=True,
+              metavar="MIN MAX", help="Series resistors searched.")
+@click.option("--max-every", type=click.IntRange(1, 10_000), default=8, show_default=True,
+              help="Largest `every` (flash on every N-th wave cycle).")
+@click.option("--supply-range", nargs=2, default=None, metavar="MIN MAX",
+              help="Also vary the supply voltage, e.g. --supply-range 12V 36V.")
+@click.option("--supply-steps", type=click.IntRange(1, 10_000), default=13, show_default=True,
+              help="Supply voltages in --supply-range.")
+@click.option("--widths", type=click.IntRange(2, 100_000), default=160, show_default=True,
+              help="Pulse widths on the log grid (whole timer ticks).")
+@click.option("--json", "as_json", is_flag=True, help="Print the result JSON (and nothing else).")
+@click.option("--write-rig", "write_rig", type=click.Path(), default=None, metavar="FILE",
+              help="Write the tuned rig (the input with the chosen values) to FILE.")
+def tune(rig, min_retention, min_margin, series, resistor_range, max_every, supply_range,
+         supply_steps, widths, as_json, write_rig):
+    """Search pulse width, series resistor, `every` (and supply voltage) for the most light
+    per frame that still freezes the wave and keeps every part within its ratings.
+
+    Light per frame is in A s: the LED current integrated over the optical pulse, times the
+    flashes per frame (light is taken proportional to current). Exit 0 when a design is
+    found (it is verified with `check`), 1 when nothing is feasible (the reason is printed).
+    """
+    import json
+    import time
+
+    from . import tune as tuner
+    from .rig import loads_rig
+
+    if write_rig is not None and _same_file(rig, write_rig):
+        raise InputError(f"{write_rig}: is the rig file itself; choose another output file")
+    with user_errors():
+        if rig == "-":
+            text = sys.stdin.read()
+        else:
+            try:
+                with open(rig, encoding="utf-8") as fh:
+                    text = fh.read()
+            except (OSError, UnicodeDecodeError):
+                text = None
+        model = loads_rig(text, where=rig) if text is not None else _load(rig)
+        from .solve import solve
+
+        base = solve(model)
+        limits = tuner.Limits(
+            min_retention=model.strobe.min_retention if min_retention is None
+            else _quantity(min_retention, "ratio", "--min-retention"),
+            min_margin=_quantity(min_margin, "temperature_difference", "--min-margin"))
+        grid = tuner.default_grid(
+            model, base, widths=widths, series=series.upper(),
+            resistor_range=(_quantity(resistor_range[0], "resistance", "--resistor-range"),
+                            _quantity(resistor_range[1], "resistance", "--resistor-range")),
+            max_every=max_every, supply_steps=supply_steps,
+            supply_range=None if supply_range is None else (
+                _quantity(supply_range[0], "voltage", "--supply-range"),
+                _quantity(supply_range[1], "voltage", "--supply-range")))
+        bar = _LazyBar(time.perf_counter())
+        try:
+            result = tuner.tune(model, limits, grid, progress=bar.update, base=base)
+        finally:
+            bar.close()
+        if write_rig is not None and result.best is not None:
+            if text is None:
+                raise InputError(f"{rig}: cannot be read as text to write the tuned rig")
+            from .io import write_atomic
+
+            write_atomic(write_rig, tuner.tuned_rig_text(
+                text, result.best, tuner._retention_override(model, limits)))
+    if as_json:
+        click.echo(json.dumps(result.to_json(), indent=2))
+    else:
+        click.echo(tuner.result_text(result), nl=False)
+    if write_rig is not None:
+        if result.best is not None:
+            click.echo(f"wrote the tuned rig to {write_rig}", err=True)
+        else:
+            click.echo(f"nothing feasible: {write_rig} not written", err=True)
+    sys.exit(EXIT_OK if result.best is not None else EXIT_FAIL)
+
+
+def _load(rig):
+    from .rig import load_rig
+
+    return load_rig(rig)
+
+
+class _LazyBar:
+    """click's progress bar on stderr, shown only once a search has run for 1 s on a TTY."""
+
+    def __init__(self, started: float):
+        self.started = started
+        self.bar = None
+        self.done = 0
+
+    def update(self, done: int, total: int) -> None:
+        import time
+
+        if self.bar is None:
+            if time.perf_counter() - self.started < 1.0 or not sys.stderr.isatty():
+                self.done = done
+                return
+            self.bar = click.progressbar(length=total, label="tune", file=sys.stderr)
+            self.bar.__enter__()
+            self.bar.update(self.done)
+        self.bar.update(done - self.done)
+        self.done = done
+
+    def close(self) -> None:
+        if self.bar is not None:
+            self.bar.__exit__(None, None, None)
+
+
 def main(argv=None) -> None:
     """Console entry point: maps every outcome to the exit codes of design §5."""
     args = list(sys.argv[1:] if argv is None else argv)
