@@ -10,6 +10,7 @@ from .stages import exposure as exposure_stage
 from .stages import flash as flash_stage
 from .stages import link as link_stage
 from .stages import optics as optics_stage
+from .stages import power as power_stage
 
 
 def solve(rig) -> Plan:
@@ -24,6 +25,7 @@ def solve(rig) -> Plan:
     plan.lock = timing.build(rig, plan)
     exposure_stage.build(rig, plan)
     optics_stage.build(rig, plan)
+    power_stage.build(rig, plan)
     link_stage.build(rig, plan)
     plan.findings = run_checks(plan)
     return plan

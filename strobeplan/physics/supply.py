@@ -23,7 +23,7 @@ from typing import NamedTuple
 
 import numpy as np
 
-from strobeplan.physics.led import current_at_voltage, forward_voltage
+from strobeplan.physics.led import current_at_voltage, forward_voltage, pulse_operating_point
 
 
 def _f(x):
@@ -169,6 +169,90 @@ def burst_droop(charge, capacitance, recharge_current, width, spacing, n_pulses)
     single = np.maximum(q - ib * _f(width), 0.0) / c
     before = (np.maximum(_f(n_pulses), 1.0) - 1.0) * per_flash
     return BurstDroop(before, before + single)
+
+
+class BurstSag(NamedTuple):
+    """Flash-by-flash burst: before_last [V] and at_end [V] (capacitor sag below the set
+    point), first_current and last_current [A] (peak current of the first and last flash)."""
+
+    before_last: np.ndarray
+    at_end: np.ndarray
+    first_current: np.ndarray
+    last_current: np.ndarray
+
+
+def burst_sag(supply_voltage, capacitance, esr, series_resistor, on_resistance,
+              recharge_current, width, spacing, n_pulses, n_vt, saturation_current,
+              led_series_resistance):
+    """Capacitor sag across a burst, flash by flash.
+
+    Each flash is the exact operating point (:func:`strobeplan.physics.led.
+    pulse_operating_point`) from the voltage the previous one left; between flashes the
+    boost recharges at its limit for ``spacing - width``, never above the set point. The
+    loop runs over the flash index (up to the largest ``n_pulses``), each step vectorised
+    over the candidates.
+
+    Parameters
+    ----------
+    supply_voltage : float or ndarray
+        Boost set voltage. [V]
+    capacitance : float or ndarray
+        Storage capacitance. [F]
+    esr : float or ndarray
+        Capacitor ESR. [ohm]
+    series_resistor : float or ndarray
+        Series resistor. [ohm]
+    on_resistance : float or ndarray
+        Switch on-resistance. [ohm]
+    recharge_current : float or ndarray
+        Boost current limit. [A]
+    width : float or ndarray
+        Flash width. [s]
+    spacing : float or ndarray
+        Start-to-start spacing of the flashes. [s]
+    n_pulses : int or ndarray
+        Flashes per burst (>= 1). [1]
+    n_vt : float or ndarray
+        LED ideality times thermal voltage. [V]
+    saturation_current : float or ndarray
+        LED saturation current. [A]
+    led_series_resistance : float or ndarray
+        LED series resistance. [ohm]
+
+    Returns
+    -------
+    BurstSag
+        Sag before the last flash and at the end of the burst [V]; first and last peak
+        current [A].
+
+    References
+    ----------
+    1. Charge balance ``C dV = (Ib - I) dt``, flash by flash.
+    """
+    vs, c, esr_, rser, ron, ib, tp, s, n, a, i_s, rs = np.broadcast_arrays(
+        *[np.asarray(x, dtype=float) for x in (
+            supply_voltage, capacitance, esr, series_resistor, on_resistance,
+            recharge_current, width, spacing, n_pulses, n_vt, saturation_current,
+            led_series_resistance)])
+    n = np.maximum(np.rint(n), 1.0)
+    v = vs.copy()
+    v_before_last = vs.copy()
+    v_end = vs.copy()
+    first = last = None
+    for k in range(int(np.max(n))):
+        op = pulse_operating_point(v, c, esr_, rser, ron, ib, tp, a, i_s, rs)
+        if first is None:
+            first = np.asarray(op.peak_current, dtype=float)
+            last = first.copy()
+        run = k < n
+        last = np.where(run, op.peak_current, last)
+        v_before_last = np.where(run, v, v_before_last)
+        v_end = np.where(run, op.end_voltage, v_end)
+        v = np.minimum(vs, np.asarray(op.end_voltage) + ib * (s - tp) / c)
+    out = BurstSag(vs - v_before_last, vs - v_end, first, last)
+    if out.at_end.ndim == 0:
+        return BurstSag(*(float(x) for x in out))
+    return out
 
 
 def brightness_change(first_current, last_current):

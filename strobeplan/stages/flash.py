@@ -8,15 +8,16 @@ is after the timer edge. Two functions, owned by two domains:
 * :func:`centroid` - delay of the optical centroid after the current starts, and the length
   of the light pulse (exposure domain).
 
-Foundation model (to be refined by the switching and exposure models): the delay is the
-gate driver's propagation delay; the edges are the measured ``gate_driver.rise_time`` /
-``fall_time`` when given, else ``led.rise_time``, else zero; the light is the trapezoid
-current plus a single-exponential phosphor tail (fraction w, decay tau), whose centroid is
-the trapezoid's plus w*tau.
+Edges (power-stage switching model, see :func:`edges`): the delay is the gate driver's
+propagation delay plus the gate-charge turn-on delay; the edges are the gate-charge
+estimates, overridden by the measured ``gate_driver.rise_time`` / ``fall_time``; the
+light is the trapezoid current plus a single-exponential phosphor tail (fraction w, decay
+tau), whose centroid is the trapezoid's plus w*tau.
 """
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 from ..plan import Section
@@ -34,19 +35,25 @@ class FlashSection(Section):
 
 
 def edges(rig) -> tuple[float, float, float, str]:
-    """(delay, rise, fall, source) of the LED current after the timer edge. [s]"""
+    """(delay, rise, fall, source) of the LED current after the timer edge. [s]
+
+    Power-stage model (strobeplan.stages.power.gate_edges): the delay is the gate driver's
+    propagation delay plus the gate-charge turn-on delay (RC charge of the gate to its
+    threshold); the rise and fall are the gate-charge estimates of the drain-current edges,
+    overridden by measured ``gate_driver.rise_time`` / ``fall_time``; without a switch and a
+    driver, ``led.rise_time`` or ideal edges.
+    """
+    from .power import gate_edges
+
     gd = rig.gate_driver
-    delay = gd.propagation_delay if gd else 0.0
-    led_edge = rig.led.rise_time if (rig.led and rig.led.rise_time is not None) else None
-    rise = gd.rise_time if (gd and gd.rise_time) else led_edge
-    fall = gd.fall_time if (gd and gd.fall_time) else led_edge
-    if gd and (gd.rise_time or gd.fall_time):
-        source = "measured (gate_driver.rise_time/fall_time)"
-    elif led_edge is not None:
-        source = "led.rise_time"
-    else:
-        source = "ideal (no edge data)"
-    return delay, rise or 0.0, fall or 0.0, source
+    d_on, _d_off, rise, fall, source = gate_edges(rig)
+    if not all(math.isfinite(x) for x in (d_on, rise, fall)):
+        # the drive never reaches the plateau (a hazard the power checks report): the edges
+        # are undefined, so time the flash as if they were ideal
+        d_on, rise, fall = 0.0, 0.0, 0.0
+        source = "undefined (gate drive below the plateau); timed as ideal"
+    delay = (gd.propagation_delay if gd else 0.0) + d_on
+    return delay, rise, fall, source
 
 
 def centroid(rig, width: float, rise: float, fall: float) -> tuple[float, float]:

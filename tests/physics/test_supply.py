@@ -71,6 +71,21 @@ def test_burst_droop_is_conservative_against_flash_by_flash(n, log_c, ib, spacin
     assert d.before_last >= sim_before * (1 - 1e-9) - 1e-12
     assert d.at_end >= sim_end * (1 - 1e-9) - 1e-12
     assert last <= first * (1 + 1e-12)
+    # the vectorised flash-by-flash model reproduces the explicit loop
+    sag = supply.burst_sag(vs, c, 0.03, 1.0, 0.01, ib, tp, spacing, n, LED["n_vt"],
+                           LED["saturation_current"], LED["led_series_resistance"])
+    assert_allclose([sag.before_last, sag.at_end, sag.first_current, sag.last_current],
+                    [sim_before, sim_end, first, last], rtol=1e-12, atol=1e-12)
+
+
+def test_burst_sag_broadcasts_over_flash_counts():
+    n = np.array([1, 5, 20])
+    sag = supply.burst_sag(24.0, 47e-6, 0.03, 1.0, 0.01, 0.2, 5e-6, 25e-6, n, LED["n_vt"],
+                           LED["saturation_current"], LED["led_series_resistance"])
+    assert sag.at_end.shape == (3,)
+    assert np.all(np.diff(sag.at_end) > 0) and np.all(np.diff(sag.last_current) < 0)
+    one = led.pulse_operating_point(24.0, 47e-6, 0.03, 1.0, 0.01, 0.2, 5e-6, **LED)
+    assert_allclose(sag.at_end[0], one.droop, rtol=1e-12)
 
 
 def test_stuck_on_matches_brentq_and_limits():
