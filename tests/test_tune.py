@@ -225,3 +225,37 @@ def test_tightening_never_increases_light(levitator, ret, d_ret, margin, d_margi
 
     assert light(tight) <= light(loose)
     assert tight.feasible <= loose.feasible
+
+
+class _Terminal:
+    """A stand-in stderr: records writes and claims (or not) to be a terminal."""
+
+    def __init__(self, tty):
+        self.tty, self.text = tty, ""
+
+    def isatty(self):
+        return self.tty
+
+    def write(self, s):
+        self.text += s
+
+    def flush(self):
+        pass
+
+
+@pytest.mark.parametrize("tty, elapsed, shown", [(True, 2.0, True), (True, 0.0, False),
+                                                 (False, 2.0, False)])
+def test_progress_bar_only_for_long_searches_on_a_terminal(monkeypatch, tty, elapsed, shown):
+    import time
+
+    from strobeplan import cli
+
+    term = _Terminal(tty)
+    monkeypatch.setattr(cli.sys, "stderr", term)
+    bar = cli._LazyBar(time.perf_counter() - elapsed)
+    bar.update(40, 100)
+    bar.update(100, 100)
+    bar.close()
+    assert ("tune" in term.text) is shown
+    if not shown:
+        assert term.text == ""
