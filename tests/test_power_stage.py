@@ -191,12 +191,12 @@ def test_junction_peak_never_falls_with_pulse_width(w, k):
     assert wide.led.junction_peak_c >= narrow.led.junction_peak_c - 1e-9
 
 
-@BOUNDED
-@given(e1=st.floats(0.2, 8.0), k=st.floats(1.0, 2.5))
+@settings(max_examples=20, deadline=None)
+@given(e1=st.floats(0.2, 4.0), k=st.floats(1.0, 2.5))
 def test_junction_peak_never_falls_with_flashes_per_frame(e1, k):
     # a longer exposure holds more flashes per frame (same spacing, same frame rate)
     few = plan_of("levitator-40k", {"camera.exposure": f"{e1} ms"})
-    many = plan_of("levitator-40k", {"camera.exposure": f"{min(e1 * k, 19.0)} ms"})
+    many = plan_of("levitator-40k", {"camera.exposure": f"{e1 * k} ms"})
     assert many.timing.flashes_per_frame >= few.timing.flashes_per_frame
     assert many.led.junction_peak_c >= few.led.junction_peak_c - 1e-9
 
