@@ -991,9 +991,10 @@ def tuned_rig_text(text: str, design: Design, min_retention: float | None = None
     """The user's TOML with only the tuned values replaced (comments and layout kept).
 
     ``strobe.pulse_width``, ``strobe.every``, ``supply.series_resistor`` and
-    ``supply.voltage`` are rewritten in place (trailing comments kept); a key that is absent
-    (``every`` defaults to 1) is added at the end of its table. ``min_retention`` (given
-    when the search's target differs from the rig's) is written to ``strobe.min_retention``.
+    ``supply.voltage`` are rewritten in place when they change (trailing comments kept); a
+    key that is absent (``every`` defaults to 1) is added at the end of its table.
+    ``min_retention`` (given when the search's target differs from the rig's) is written to
+    ``strobe.min_retention``.
     The result is re-loaded and compared with the design; a file whose tables are not plain
     ``[strobe]``/``[supply]`` headers raises RigError.
     """
@@ -1007,6 +1008,15 @@ def tuned_rig_text(text: str, design: Design, min_retention: float | None = None
     }
     if min_retention is not None:
         values[("strobe", "min_retention")] = f'"{min_retention * 100:.6g} %"'
+    # Keys whose value does not change keep the user's own line.
+    before = loads_rig(text)
+    same = {("strobe", "pulse_width"): before.strobe.pulse_width == design.pulse_width_s,
+            ("strobe", "every"): before.strobe.every == design.every,
+            ("supply", "series_resistor"): math.isclose(
+                before.supply.series_resistor, design.series_resistor_ohm, rel_tol=1e-12),
+            ("supply", "voltage"): math.isclose(before.supply.voltage, design.supply_voltage_v,
+                                                rel_tol=1e-12)}
+    values = {k: v for k, v in values.items() if not same.get(k, False)}
     newline = "\r\n" if "\r\n" in text else "\n"
     lines = text.splitlines()
     table = ""

@@ -186,6 +186,10 @@ def test_tuned_rig_text_keeps_layout_and_adds_missing_keys():
             "max_current = \"1 A\"\r\nmax_power = \"10 W\"\r\n")
     d = tuner.Design(2.5e-6, 4.7, 3, 18.0, 1.0, None, 0.9, 20.0, 50.0, 2.0, 10)
     new = tuner.tuned_rig_text(text, d)
+    same = tuner.Design(1e-6, 4.7, 1, 24.0, 1.0, None, 0.9, 20.0, 50.0, 2.0, 10)
+    kept = tuner.tuned_rig_text(text, same)  # unchanged values keep the user's lines
+    assert 'pulse_width = "1 us"   # was guessed' in kept and 'voltage = "24 V"' in kept
+    assert "every" not in kept
     rig = loads_rig(new)
     assert (rig.strobe.pulse_width, rig.strobe.every, rig.supply.series_resistor,
             rig.supply.voltage) == pytest.approx((2.5e-6, 3, 4.7, 18.0))
@@ -198,7 +202,7 @@ def test_tuned_rig_text_keeps_layout_and_adds_missing_keys():
 @settings(max_examples=25, deadline=None,
           suppress_health_check=[HealthCheck.function_scoped_fixture])
 @given(ret=st.floats(0.5, 0.99), d_ret=st.floats(0.0, 0.2), margin=st.floats(0.0, 80.0),
-       d_margin=st.floats(0.0, 40.0), rating=st.floats(0.3, 1.0), which=st.integers(0, 3))
+       d_margin=st.floats(0.0, 40.0), rating=st.floats(0.3, 1.0), which=st.integers(0, 4))
 def test_tightening_never_increases_light(levitator, ret, d_ret, margin, d_margin, rating,
                                           which):
     rig, base = levitator
@@ -213,10 +217,12 @@ def test_tightening_never_increases_light(levitator, ret, d_ret, margin, d_margi
         limits = tuner.Limits(ret, margin)
         led = rig.led.model_copy(update={"max_pulse_current": rig.led.max_pulse_current * rating})
         tight_rig = rig.model_copy(update={"led": led})
-    else:  # a smaller boost
+    elif which == 3:  # a smaller boost
         limits = tuner.Limits(ret, margin)
         sup = rig.supply.model_copy(update={"max_power": rig.supply.max_power * rating})
         tight_rig = rig.model_copy(update={"supply": sup})
+    else:  # a stricter visibility threshold than the rig's own
+        limits = tuner.Limits(ret, margin, min_contrast=base.optics.min_contrast / rating)
     tight = tuner.tune(tight_rig, limits, grid, base=base if tight_rig is rig else None,
                        verify=0)
 
