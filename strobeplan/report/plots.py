@@ -500,16 +500,20 @@ def plot_tradeoff(plan, ax=None, result=None, cloud_widths: int = 60):
     cell = iw * grid.shape[2] + ie
     best = np.full(grid.shape[0] * grid.shape[2], -np.inf)
     np.maximum.at(best, cell[safe], light[safe])
+    any_best = np.full(best.shape, -np.inf)
+    np.maximum.at(any_best, cell, light)
     cell_ret = np.full(best.shape, np.nan)
     cell_ret[cell] = ret  # retention depends on (width, every) only
     shown = np.isfinite(best) & (best > 0)
     ok = shown & (cell_ret >= limits.min_retention)
+    unsafe = np.isfinite(any_best) & (any_best > 0) & ~(any_best <= best)
 
     fig, ax = _one_axes(ax)
     front = sorted(result.frontier, key=lambda d: d.retention)
     fr = np.array([d.retention for d in front])
     fl = np.array([d.light_per_frame for d in front])
-    y_lo = 0.5 * float(np.min(best[shown])) if shown.any() else 1e-9
+    floor = best[shown] if shown.any() else any_best[np.isfinite(any_best) & (any_best > 0)]
+    y_lo = 0.5 * float(np.min(floor)) if floor.size else 1e-9
     if fr.size:
         sel = fr >= limits.min_retention
         if sel.any():
@@ -517,6 +521,8 @@ def plot_tradeoff(plan, ax=None, result=None, cloud_widths: int = 60):
                             edgecolor=GREY, hatch="..", linewidth=0,
                             label="feasible region")
         ax.step(fr, fl, where="post", color=INK, linestyle="-", label="frontier (safe)")
+    ax.plot(cell_ret[unsafe], any_best[unsafe], linestyle="none", marker="x", markersize=3,
+            color=LIGHT, label="breaks a rating (brightest per cell)")
     ax.plot(cell_ret[shown & ~ok], best[shown & ~ok], linestyle="none", marker="o",
             markersize=3, markerfacecolor="white", color=GREY,
             label="safe, below the retention target")
@@ -637,7 +643,11 @@ def plot_sweep(plan, ax=None, steps: int | None = None):
         half = 0.5 * t.phase_resolution_deg
         ax_err.axhspan(-half, half, facecolor=LIGHT, edgecolor=GREY, hatch="..",
                        label=f"\N{PLUS-MINUS SIGN} half a tick ({_deg(half)})")
+        from matplotlib.ticker import MaxNLocator
+
         ax_err.plot(frames, error, color=INK, linestyle="-", marker=".", label="phase error")
+        ax_err.set_xlim(-0.5, max(len(frames), 1) - 0.5)
+        ax_err.xaxis.set_major_locator(MaxNLocator(integer=True))
         ax_err.set_xlabel("frame [1]")
         ax_err.set_ylabel("phase error [deg]")
         ax_err.set_title(f"Phase error per frame (resolution {_deg(t.phase_resolution_deg)})",

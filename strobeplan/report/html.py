@@ -1,0 +1,344 @@
+"""One self-contained HTML page for a solved plan (design §8).
+
+Rules the page keeps, each tested in a real browser (tests/test_report_html.py):
+
+* self-contained: inline CSS, figures as inline SVG, no JavaScript, no external resource
+  (no ``src=``/``href=`` to http, https, ``//`` or ``file``; the only links are ``#`` anchors);
+* every user string (rig name, description, the rig text, messages) is escaped;
+* several inline SVGs repeat matplotlib's ids (glyphs, clip paths, hatches), so every id
+  and every reference to one is prefixed per figure;
+* byte-identical when rebuilt from the same rig: ``svg.hashsalt`` is fixed, the SVG carries
+  no date or metadata, and the page holds no time stamp.
+"""
+
+from __future__ import annotations
+
+import html
+import io
+import json
+import re
+
+from ..errors import RigError
+from .text import CAUTION, label_and_value
+
+SVG_HASHSALT = "strobeplan"
+PLOT_ORDER = ("timing", "pulse", "thermal", "divider", "sweep", "tradeoff")
+PLOT_TITLES = {
+    "timing": "Timing: one frame and one drive period",
+    "pulse": "Optical pulse and contrast retention",
+    "thermal": "LED junction temperature over one frame",
+    "divider": "Camera trigger divider: worst-case levels",
+    "sweep": "Phase sweep: achieved against target",
+    "tradeoff": "Design space: light per frame against retention",
+}
+SCHEDULE_ROWS = 12
+
+# Airborne-ultrasound guideline (1/3-octave band at the ear, occupational consensus at
+# 25-50 kHz): Howard, Hansen & Zander (2004), J. Occup. Health Safety - Aust. NZ 21(3).
+ULTRASOUND_GUIDELINE_DB = 110.0
+
+CSS = """
+body{font-family:system-ui,-apple-system,"Segoe UI",Roboto,"DejaVu Sans",sans-serif;
+ margin:0 auto;max-width:60rem;padding:1rem 1.5rem 3rem;color:#111;background:#fff;
+ line-height:1.45}
+h1{font-size:1.6rem;margin:.2rem 0}h2{font-size:1.25rem;border-bottom:2px solid #333;
+ padding-bottom:.15rem;margin-top:2rem}h3{font-size:1.05rem;margin:1.2rem 0 .3rem}
+.description{color:#333;margin:.2rem 0 .8rem}
+.verdict{display:inline-block;font-weight:700;font-size:1.15rem;padding:.25rem .8rem;
+ border:3px solid #111;border-radius:.3rem}
+.verdict-fail{background:#fde2e2;border-style:double}.verdict-warn{background:#fff4d6;
+ border-style:dashed}.verdict-pass{background:#e3f5e5}
+nav ul{list-style:none;padding:0;display:flex;flex-wrap:wrap;gap:.4rem 1rem}
+table{border-collapse:collapse;margin:.4rem 0;font-size:.92rem}
+th,td{border:1px solid #bbb;padding:.2rem .5rem;text-align:left;vertical-align:top}
+th{background:#eee}td.num{text-align:right;font-variant-numeric:tabular-nums;
+ white-space:nowrap}
+.sev{font-weight:700;text-transform:uppercase;white-space:nowrap}
+.sev-hazard{background:#fbd0d0}.sev-fault{background:#fde2e2}.sev-warning{background:#fff4d6}
+.sev-note{background:#eef}
+code{font-family:ui-monospace,"DejaVu Sans Mono",monospace;font-size:.9em}
+.fix{color:#222;font-style:italic}
+.caution{border:2px solid #111;border-left-width:.6rem;padding:.4rem 1rem;background:#fafafa}
+figure{margin:1rem 0;border:1px solid #ddd;padding:.5rem}
+figure svg{width:100%;height:auto;display:block}
+figcaption{font-size:.9rem;color:#333;margin-top:.3rem}
+pre.rig{background:#f6f6f6;border:1px solid #ccc;padding:.6rem;overflow-x:auto;
+ font-size:.82rem;line-height:1.3}
+.missing{color:#444}
+footer{margin-top:2.5rem;font-size:.85rem;color:#444;border-top:1px solid #ccc}
+@media print{figure{break-inside:avoid}}
+"""
+
+
+def _e(value) -> str:
+    """Escaped text of any value (user strings included)."""
+    return html.escape("" if value is None else str(value), quote=True)
+
+
+# --- figures ------------------------------------------------------------------------------
+
+_ID = re.compile(r'\bid="([^"]+)"')
+_HREF = re.compile(r'(\bhref=")#([^"]+)"')
+_URL = re.compile(r"url\(#([^)]+)\)")
+
+
+def figure_svg(fig, prefix: str) -> str:
+    """The figure as an inline ``<svg>`` element whose ids all start with ``prefix``.
+
+    The XML prolog, the DOCTYPE and the metadata block are dropped (they name external
+    URLs and the matplotlib version); the SVG's own ``*{...}`` style rule is scoped to this
+    figure so it cannot touch the rest of the page.
+    """
+    import matplotlib
+
+    buf = io.StringIO()
+    with matplotlib.rc_context({"svg.hashsalt": SVG_HASHSALT}):
+        fig.savefig(buf, format="svg", metadata={"Date": None})
+    svg = buf.getvalue()
+    svg = svg[svg.index("<svg"):]
+    svg = re.sub(r"\s*<metadata>.*?</metadata>", "", svg, flags=re.S)
+    svg = _ID.sub(lambda m: f'id="{prefix}-{m.group(1)}"', svg)
+    svg = _HREF.sub(lambda m: f'{m.group(1)}#{prefix}-{m.group(2)}"', svg)
+    svg = _URL.sub(lambda m: f"url(#{prefix}-{m.group(1)})", svg)
+    svg = svg.replace("<svg ", f'<svg id="{prefix}" role="img" ', 1)
+    svg = svg.replace("<style type=\"text/css\">*{", f'<style type="text/css">#{prefix} *{{', 1)
+    return svg.strip()
+
+
+def _figures(plan, kinds) -> tuple[list[tuple[str, str]], list[tuple[str, str]]]:
+    """([(kind, svg)], [(kind, why not drawn)])."""
+    from . import plots
+
+    drawn, missing = [], []
+    for kind in kinds:
+        try:
+            fig = plots.plot(plan, kind)
+        except RigError as exc:
+            missing.append((kind, str(exc)))
+            continue
+        drawn.append((kind, figure_svg(fig, f"fig-{kind}")))
+    return drawn, missing
+
+
+# --- pieces -------------------------------------------------------------------------------
+
+
+def _section_rows(section) -> list[tuple[str, str]]:
+    data = section.to_json()
+    return [label_and_value(k, v) for k, v in vars(section).items()
+            if not k.startswith("_") and not isinstance(v, dict) and k in data]
+
+
+def _section_table(name: str, section) -> str:
+    rows = "".join(f"<tr><th scope=\"row\">{_e(label)}</th>"
+                   f"<td class=\"num\">{_e(_micro(value))}</td></tr>"
+                   for label, value in _section_rows(section))
+    return (f'<h3 id="section-{_e(name)}">[{_e(name)}]</h3>\n'
+            f"<table><tbody>{rows}</tbody></table>\n")
+
+
+_UNIT_KINDS = {"s": "time", "A": "current", "V": "voltage", "W": "power", "J": "energy",
+               "Hz": "frequency", "m": "length", "ohm": "resistance", "F": "capacitance"}
+_MICRO = re.compile(r"(?<=\d) u(?=[A-Za-z\u03a9])")
+
+
+def _micro(text: str) -> str:
+    """'178.3 us' -> '178.3 µs' (the text output keeps ASCII 'u'; the page is for people)."""
+    return _MICRO.sub(" \N{MICRO SIGN}", text)
+
+
+def _figure_value(value, unit) -> str:
+    """A finding's value or limit with an SI prefix where its unit has one."""
+    from ..units import render
+
+    if value is None:
+        return ""
+    try:
+        x = float(value)
+    except (TypeError, ValueError):
+        return _e(value)
+    if unit in _UNIT_KINDS:
+        return _e(_micro(render(x, _UNIT_KINDS[unit])))
+    text = f"{x:.4g}"
+    return _e(f"{text} {unit}" if unit and unit != "1" else text)
+
+
+def _findings(plan) -> str:
+    if not plan.findings:
+        return "<p>No findings: every check passed.</p>\n"
+    rows = []
+    for f in plan.findings:
+        fix = f'<div class="fix">fix: {_e(f.hint)}</div>' if f.hint else ""
+        rows.append(
+            f'<tr class="finding" id="finding-{_e(f.code)}">'
+            f'<td class="sev sev-{_e(f.severity)}">{_e(f.severity)}</td>'
+            f"<td><code>{_e(f.code)}</code></td>"
+            f"<td>{_e(f.message)}{fix}</td>"
+            f'<td class="num">{_figure_value(f.value, f.unit)}</td>'
+            f'<td class="num">{_figure_value(f.limit, f.unit)}</td></tr>')
+    counts = {}
+    for f in plan.findings:
+        counts[f.severity] = counts.get(f.severity, 0) + 1
+    summary = ", ".join(f"{n} {s}" for s, n in counts.items())
+    return (f"<p>{len(plan.findings)} findings ({_e(summary)}).</p>\n"
+            "<table><thead><tr><th>severity</th><th>code</th><th>what and how to fix it</th>"
+            "<th>value</th><th>limit</th></tr></thead><tbody>\n"
+            + "\n".join(rows) + "\n</tbody></table>\n")
+
+
+def _cautions(plan) -> str:
+    from ..units import render
+
+    rig = plan.rig
+    items = [
+        "<li><strong>Eyes.</strong> An LED overdriven to several times its rated current "
+        "gives short flashes bright enough to injure eyes, and a schlieren system focuses "
+        "the source to a point. Never look into the LED, the source image or the beam; "
+        "enclose the light path and assess the source against the photobiological safety "
+        "standard that applies to you (e.g. IEC 62471).</li>",
+    ]
+    charge = "<li><strong>Stored charge.</strong> Storage capacitors stay charged after the " \
+             "supply is switched off."
+    if rig.supply is not None:
+        energy = 0.5 * rig.supply.storage_capacitance * rig.supply.voltage**2
+        charge += (f" This rig stores {_e(render(energy, 'energy'))} in "
+                   f"{_e(_micro(render(rig.supply.storage_capacitance, 'capacitance')))} at "
+                   f"{_e(render(rig.supply.voltage, 'voltage'))}.")
+    charge += " Fit a bleeder, discharge and measure before touching the power stage.</li>"
+    items.append(charge)
+    sound = ("<li><strong>Ultrasound.</strong> Airborne ultrasound at the levels used for "
+             "imaging and levitation can harm hearing and cause headache or nausea, although it "
+             "is inaudible. Occupational guideline levels are about "
+             f"{ULTRASOUND_GUIDELINE_DB:.0f} dB (1/3-octave band, 25&ndash;50 kHz; Howard, "
+             "Hansen &amp; Zander 2004); local rules decide.")
+    spl = getattr(plan.optics, "spl_at_view_db", None) if plan.optics is not None else None
+    if spl is not None:
+        sound += f" The plan puts {_e(f'{spl:.4g}')} dB at the view."
+    sound += " Keep people out of the near field and use shielding or hearing protection.</li>"
+    items.append(sound)
+    hot = ("<li><strong>Hot parts.</strong> The LED, the MOSFET and the series resistor get "
+           "hot, and a gate stuck on turns the storage capacitor into a short-circuit source.")
+    stuck = plan.stuck_on
+    t_lim = getattr(stuck, "time_to_limit_s", None) if stuck is not None else None
+    if t_lim is not None:
+        hot += (f" With the gate stuck on, the LED reaches its junction limit after "
+                f"{_e(render(t_lim, 'time'))}.")
+    hot += " Fuse the supply, limit the recharge current and let parts cool before handling.</li>"
+    items.append(hot)
+    items.append("<li>Follow the datasheets, local codes and licensed practice; where a "
+                 "datasheet and strobeplan disagree, the datasheet rules.</li>")
+    return (f'<div class="caution"><p>{_e(CAUTION)}</p>\n<ul>\n' + "\n".join(items)
+            + "\n</ul></div>\n")
+
+
+def _schedule(plan) -> str:
+    from ..solve import build_schedule
+    from ..units import render
+
+    try:
+        sched = build_schedule(plan)
+    except RigError as exc:
+        return f'<p class="missing">No schedule: {_e(exc)}</p>\n'
+    head = ("<tr><th>frame</th><th>target</th><th>achieved</th><th>error</th>"
+            "<th>edge [ticks]</th><th>edge</th><th>camera trigger [ticks]</th>"
+            "<th>first flash [ticks]</th><th>flashes</th></tr>")
+    rows = []
+    for r in sched.rows[:SCHEDULE_ROWS]:
+        cells = [str(r.frame), f"{r.target_phase_deg:.3f} deg", f"{r.achieved_phase_deg:.3f} deg",
+                 f"{r.phase_error_deg:.4f} deg", str(r.edge_ticks),
+                 _micro(render(r.edge_time_s, "time")), str(r.camera_trigger_ticks),
+                 "" if r.first_flash_ticks is None else str(r.first_flash_ticks),
+                 "" if r.flashes is None else str(r.flashes)]
+        rows.append("<tr>" + "".join(f'<td class="num">{_e(c)}</td>' for c in cells) + "</tr>")
+    more = len(sched.rows) - SCHEDULE_ROWS
+    note = (f"<p>{more} more rows: <code>strobeplan schedule RIG</code> exports them all.</p>\n"
+            if more > 0 else "")
+    return (f"<p>Mode {_e(sched.mode)}; clock {_e(render(sched.clock_hz, 'frequency'))}; drive "
+            f"period {sched.drive_period_ticks} ticks; flash period {sched.flash_period_ticks} "
+            f"ticks; frame period {_e(sched.frame_period_ticks or 'n/a')} ticks.</p>\n"
+            f"<table><thead>{head}</thead><tbody>\n" + "\n".join(rows)
+            + "\n</tbody></table>\n" + note)
+
+
+def _rig_text(plan, rig_text: str | None) -> str:
+    if rig_text is not None:
+        return ("<p>The rig file exactly as given:</p>\n"
+                f'<pre class="rig">{_e(rig_text)}</pre>\n')
+    dumped = json.dumps(plan.rig.model_dump(mode="json"), indent=2, sort_keys=True,
+                        ensure_ascii=False)
+    return ("<p>The validated rig (the source text was not given; values in SI units):</p>\n"
+            f'<pre class="rig">{_e(dumped)}</pre>\n')
+
+
+# --- page ---------------------------------------------------------------------------------
+
+
+def report_html(plan, rig_text: str | None = None, plots=PLOT_ORDER) -> str:
+    """The whole report as one self-contained HTML page.
+
+    Parameters
+    ----------
+    plan : Plan
+        A solved plan (``strobeplan.solve``).
+    rig_text : str, optional
+        The rig file's text, shown as given; without it the validated rig is re-dumped.
+    plots : sequence of str, optional
+        Which plots to draw, in order (a plot whose inputs the plan lacks is listed with
+        the reason instead).
+
+    Returns
+    -------
+    str
+        The page; the same plan and text always give the same bytes.
+    """
+    from .. import __version__
+
+    rig = plan.rig
+    verdict = plan.verdict
+    drawn, missing = _figures(plan, plots)
+    parts = [
+        "<!DOCTYPE html>",
+        '<html lang="en">',
+        "<head>",
+        '<meta charset="utf-8">',
+        '<meta name="viewport" content="width=device-width, initial-scale=1">',
+        f"<title>strobeplan report: {_e(rig.name)}</title>",
+        f"<style>{CSS}</style>",
+        "</head>",
+        "<body>",
+        "<header>",
+        f"<h1>strobeplan report: {_e(rig.name)}</h1>",
+        f'<p class="description">{_e(rig.description)}</p>' if rig.description else "",
+        f'<p><span class="verdict verdict-{_e(verdict)}" id="verdict">verdict: '
+        f"{_e(verdict.upper())}</span></p>",
+        "</header>",
+        '<nav aria-label="contents"><ul>'
+        '<li><a href="#findings">Findings</a></li><li><a href="#cautions">Safety</a></li>'
+        '<li><a href="#plots">Plots</a></li><li><a href="#plan">Plan</a></li>'
+        '<li><a href="#schedule">Schedule</a></li><li><a href="#rig">Rig file</a></li>'
+        "</ul></nav>",
+        '<section id="findings"><h2>Findings</h2>',
+        _findings(plan),
+        "</section>",
+        '<section id="cautions"><h2>Safety cautions</h2>',
+        _cautions(plan),
+        "</section>",
+        '<section id="plots"><h2>Plots</h2>',
+    ]
+    for kind, svg in drawn:
+        parts.append(f'<figure id="plot-{kind}">{svg}\n'
+                     f"<figcaption>{_e(PLOT_TITLES.get(kind, kind))} "
+                     f"(<code>strobeplan plot RIG --kind {kind}</code>)</figcaption></figure>")
+    if missing:
+        parts.append('<p class="missing">Not drawn:</p><ul class="missing">'
+                     + "".join(f"<li>{_e(k)}: {_e(why)}</li>" for k, why in missing)
+                     + "</ul>")
+    parts += ["</section>", '<section id="plan"><h2>Plan</h2>']
+    parts += [_section_table(name, section) for name, section in plan.sections()]
+    parts += ["</section>", '<section id="schedule"><h2>Schedule (first rows)</h2>',
+              _schedule(plan), "</section>",
+              '<section id="rig"><h2>Rig file</h2>', _rig_text(plan, rig_text), "</section>",
+              f"<footer><p>strobeplan {_e(__version__)}: a planning aid, not a safety "
+              "certification.</p></footer>",
+              "</body>", "</html>"]
+    return "\n".join(p for p in parts if p) + "\n"
