@@ -79,6 +79,37 @@ def test_vectorised_equals_brute_force_through_solve(levitator):
     assert b.limited_by in tuner.CONSTRAINTS or b.limited_by.startswith("search range")
 
 
+def _variant(name):
+    rig = load_rig(LEVITATOR)
+    if name == "continuous":  # heat as a continuous pulse train, not bursts per frame
+        return rig.model_copy(update={"strobe": rig.strobe.model_copy(
+            update={"continuous": True})})
+    if name == "bare":  # no camera, switch, gate driver or optics: their constraints drop
+        return rig.model_copy(update={"camera": None, "switch": None, "gate_driver": None,
+                                      "optics": None, "trigger_link": None, "sweep": None})
+    return load_rig(example("rangefinder-58k"))  # rolling shutter, phosphor LED
+
+
+@pytest.mark.parametrize("name", ["continuous", "bare", "rangefinder"])
+def test_vectorised_equals_brute_force_on_other_rigs(name):
+    # Oracle: the ordinary solve path, as above, on rigs that exercise the other branches.
+    rig = _variant(name)
+    base = solve(rig)
+    g = tuner.default_grid(rig, base, widths=5, resistor_range=(0.5, 33.0), max_every=2)
+    grid = tuner.Grid(g.widths, g.resistors[::8], g.everys, g.voltages, g.series)
+    limits = tuner.Limits(min_retention=0.9)
+    best, key, feasible, violations = brute_force(rig, grid, limits)
+    m, v = tuner.evaluate_grid(rig, base, grid, limits)
+    for k in range(grid.size):
+        assert {n: bool(v[n][k]) for n in v} == violations[k], grid.at(k)
+    result = tuner.tune(rig, limits, grid, base=base)
+    if best is None:
+        assert result.best is None
+    else:
+        assert result.best._flat == best
+        assert result.best.light_per_frame == pytest.approx(key[0], rel=1e-9)
+
+
 def test_chunking_does_not_change_the_result(levitator):
     rig, base = levitator
     grid = small_grid(rig, base, widths=12, every=3, steps=3)
