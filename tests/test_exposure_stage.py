@@ -100,9 +100,14 @@ def test_rangefinder_blur_warning():
     assert "safety.ultrasound_exposure" not in codes(plan)
 
 
+IDEAL_EDGES = {"gate_driver.rise_time": "1 ps", "gate_driver.fall_time": "1 ps"}
+
+
 def test_unsafe_bench_pulse_too_long():
     # Design §7: the 10 us pulse at 40 kHz keeps |sinc(0.4)| = 0.757 < 0.9 (numpy sinc).
-    plan = plan_of("unsafe-bench")
+    # Ideal edges (measured 1 ps) so that the rectangle's closed form applies; the
+    # gate-charge model would give this rig's 5 V drive 430 ns edges.
+    plan = plan_of("unsafe-bench", IDEAL_EDGES)
     assert plan.verdict == "fail"
     found = {f.code: f for f in plan.findings}
     assert "exposure.retention_low" in found
@@ -131,7 +136,7 @@ def test_retention_is_sinc_times_jitter_for_ideal_edges():
     # |sinc(f w)| exp(-2 pi^2 f^2 sigma^2) with sigma = 5 ns (references.md, Johnson 1993).
     plan = plan_of("unsafe-bench", {"controller.jitter_rms": "3 ns",
                                     "gate_driver.jitter_rms": "4 ns",
-                                    "strobe.pulse_width": "2 us"})
+                                    "strobe.pulse_width": "2 us", **IDEAL_EDGES})
     f = plan.timing.drive_frequency_hz
     expected = abs(np.sinc(f * 2e-6)) * math.exp(-2 * math.pi**2 * f**2 * (5e-9) ** 2)
     assert plan.exposure.retention == pytest.approx(expected, rel=1e-9)

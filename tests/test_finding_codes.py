@@ -16,6 +16,7 @@ from strobeplan.checks import RULES, load_all
 from strobeplan.rig import rig_from_dict
 from strobeplan.solve import solve
 from tests.conftest import EXAMPLES, example
+from tests.test_power_stage import CASES as POWER_CASES
 
 BASES = {name: tomllib.loads(example(name).read_text()) for name in EXAMPLES}
 
@@ -65,6 +66,7 @@ CASES: dict[str, tuple[str, dict]] = {
     "gate_link.over_input_max": ("levitator-40k", {
         "controller.output": "cmos5", "gate_driver.supply": "4 V",
         "camera.trigger_input": {"family": "lvcmos33"}}),
+    **POWER_CASES,  # the power stage's own table (one case per led./switch./supply./stuck_on.)
 }
 
 
