@@ -411,9 +411,14 @@ def _stuck_table(ctx: _Context, resistors, voltages):
 
 
 def _evaluate_block(ctx: _Context, tt: _Timing, stuck, grid: Grid, iw, ir, iv,
-                    min_retention, min_margin):
-    """Metrics and violations for candidates (iw, ir, iv) x every: arrays of shape (m, nE)."""
+                    min_retention, min_margin, ie=None):
+    """Metrics and violations for candidates (iw, ir, iv) x every: arrays of shape (m, nE);
+    with ``ie`` (one every index per row) only those candidates: shape (m, 1)."""
     rig = ctx.rig
+
+    def take(a):  # a per-(width, every) table at the rows' widths (and everys)
+        return a[iw] if ie is None else a[iw, ie][:, None]
+
     led, sup = rig.led, rig.supply
     w = grid.widths[iw]
     r = grid.resistors[ir]
@@ -427,11 +432,11 @@ def _evaluate_block(ctx: _Context, tt: _Timing, stuck, grid: Grid, iw, ir, iv,
     energy = np.asarray(op.led_energy)[col]
     w_c = w[col]
     v_c = v[col]
-    n = tt.n_frame[iw]
-    n_burst = tt.n_burst[iw]
-    spacing = tt.spacing[iw]
-    frame = tt.frame_period[iw]
-    rate = tt.rate[iw]
+    n = take(tt.n_frame)
+    n_burst = take(tt.n_burst)
+    spacing = take(tt.spacing)
+    frame = take(tt.frame_period)
+    rate = take(tt.rate)
     heat = (1.0 - led.efficiency) * energy / w_c
     rth = [t.resistance for t in led.thermal]
     tau = [t.time_constant for t in led.thermal]
@@ -440,8 +445,8 @@ def _evaluate_block(ctx: _Context, tt: _Timing, stuck, grid: Grid, iw, ir, iv,
     rise_k = thermal_model.burst_peak(heat, w_c, spacing, n_burst, frame, rth, tau)
     junction = led.ambient + np.asarray(rise_k)
     margin = led.junction_max - junction
-    retention = tt.retention[iw]
-    light = (charge / w_c) * tt.area[iw] * n
+    retention = take(tt.retention)
+    light = (charge / w_c) * take(tt.area) * n
     avg_current = np.asarray(supply_model.average_current(charge, rate))
     # Energy drawn per flash: LED + series resistor + switch + ESR (the power stage's budget).
     e_flash = energy + np.asarray(op.i2t)[col] * (r[col] + ctx.on_resistance + sup.esr)
@@ -464,10 +469,10 @@ def _evaluate_block(ctx: _Context, tt: _Timing, stuck, grid: Grid, iw, ir, iv,
 
     shape = margin.shape
     viol = {
-        "camera window": np.broadcast_to(bad(tt.window_ok[iw]), shape),
+        "camera window": np.broadcast_to(bad(take(tt.window_ok)), shape),
         "retention": np.broadcast_to(bad(retention >= min_retention), shape),
         "junction temperature": bad(margin >= min_margin),
-        "LED pulse rating": bad(peak <= tt.rated[iw]),
+        "LED pulse rating": bad(peak <= take(tt.rated)),
         "LED average current": bad(avg_current <= led.max_dc_current),
         "supply power": bad(avg_power <= sup.max_power),
         "supply current": bad(avg_current <= sup.max_current),
@@ -511,10 +516,9 @@ def _evaluate_flat(ctx, tt, stuck, grid: Grid, limits: Limits, flat):
     flat = np.asarray(flat, dtype=np.int64)
     iw, ir, ie, iv = np.unravel_index(flat, grid.shape)
     metrics, viol = _evaluate_block(ctx, tt, stuck, grid, iw, ir, iv, limits.min_retention,
-                                    limits.min_margin)
-    pick = (np.arange(flat.size), ie)
-    return ({k: np.asarray(a)[pick] for k, a in metrics.items()},
-            {k: np.asarray(a)[pick] for k, a in viol.items()})
+                                    limits.min_margin, ie=ie)
+    return ({k: np.asarray(a)[:, 0] for k, a in metrics.items()},
+            {k: np.asarray(a)[:, 0] for k, a in viol.items()})
 
 
 # --- the grid -------------------------------------------------------------------------------
