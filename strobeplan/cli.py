@@ -321,6 +321,11 @@ def tune(rig, min_retention, min_margin, series, resistor_range, max_every, supp
             min_retention=model.strobe.min_retention if min_retention is None
             else _quantity(min_retention, "ratio", "--min-retention"),
             min_margin=_quantity(min_margin, "temperature_difference", "--min-margin"))
+        if not 0.0 < limits.min_retention < 1.0:
+            raise InputError(f"--min-retention {min_retention!r}: expected a ratio between 0 "
+                             "and 100 % (e.g. 90%)")
+        if not limits.min_margin >= 0.0:
+            raise InputError(f"--min-margin {min_margin!r}: expected 0 K or more")
         grid = tuner.default_grid(
             model, base, widths=widths, series=series.upper(),
             resistor_range=(_quantity(resistor_range[0], "resistance", "--resistor-range"),

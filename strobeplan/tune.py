@@ -802,7 +802,7 @@ def _explain(excluded, only, reached, limits, grid, rejected, feasible) -> str:
         parts = [f"nothing feasible among {total} candidates: '{worst}' excludes the most "
                  f"({excluded[worst]}, {100.0 * excluded[worst] / total:.3g} %)"]
     if "retention" in (every_one or [worst]) and math.isfinite(reached.get("retention", np.nan)):
-        parts.append(f"the best retention on the grid is {reached['retention']:.4g} against "
+        parts.append(f"the best retention on the grid is {reached['retention']:.5f} against "
                      f"the target {limits.min_retention:.4g}")
     if "junction temperature" in (every_one or [worst]) and \
             math.isfinite(reached.get("margin", np.nan)):

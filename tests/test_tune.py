@@ -296,3 +296,12 @@ def test_progress_bar_only_for_long_searches_on_a_terminal(monkeypatch, tty, ela
     assert ("tune" in term.text) is shown
     if not shown:
         assert term.text == ""
+
+
+@pytest.mark.parametrize("args", [["--min-retention", "150 %"], ["--min-margin", "-3K"],
+                                  ["--min-retention", "40 kHz"],
+                                  ["--resistor-range", "5ohm", "1ohm"]])
+def test_bad_options_exit_2_without_traceback(args):
+    r = run_cli("tune", LEVITATOR, *args)
+    assert r.exit_code == 2
+    assert "Traceback" not in r.output
