@@ -4,10 +4,13 @@
 by the user must be one of the kind's units, optionally preceded by one SI prefix. This
 module does its own splitting of number, prefix and unit instead of trusting a generic
 parser, because the generic readings are wrong in ways that matter here (all measured on
-quantiphy 2.23): ``"5 m"`` reads as 5 milli-nothing, ``"50 ppm"`` as 50 picometres,
+quantiphy 2.23, which this project therefore does not use): ``"5 m"`` reads as 5
+milli-nothing, ``"50 ppm"`` as 50 picometres,
 ``"5 px"`` as 5 pico-x, ``"1 kg/m3"`` as 1000 g/m3, ``"23 degC"`` as 23 with no offset,
 ``"45 %"`` as 45, ``"nan Hz"`` and ``"inf s"`` as numbers, and ``Quantity("40 ms",
-units="Hz")`` silently relabels a time as a frequency. quantiphy is used for rendering only.
+units="Hz")`` silently relabels a time as a frequency. Rendering with SI prefixes is done
+here too (quantiphy's import builds regular expressions for ~30 ms, more than the whole
+solve).
 
 Conventions inside strobeplan (SI throughout): absolute temperatures in kelvin, temperature
 differences in kelvin, angles in radians, ratios and ppm as fractions, sound levels in dB.
@@ -215,9 +218,29 @@ def render(value: float | None, kind: str, digits: int = 4) -> str:
         return f"{_fmt(value * 1e6, digits)} ppm"
     if not k.prefixable:
         return f"{_fmt(value, digits)} {k.display}"
-    from quantiphy import Quantity  # small import (~12 ms); rendering only
+    return f"{si_number(value, digits)}{k.display}"
 
-    return Quantity(value, k.display).render(prec=digits - 1, strip_zeros=True)
+
+_RENDER_PREFIXES = ((1e12, "T"), (1e9, "G"), (1e6, "M"), (1e3, "k"), (1.0, ""), (1e-3, "m"),
+                    (1e-6, "u"), (1e-9, "n"), (1e-12, "p"), (1e-15, "f"))
+
+
+def si_number(value: float, digits: int = 4) -> str:
+    """``value`` with an SI prefix and a trailing space, e.g. ``si_number(4.7e-9) -> '4.7 n'``.
+
+    Zeros after the decimal point are stripped; the mantissa lies in [1, 1000) unless the
+    value is beyond the prefix table (then plain %g).
+    """
+    if value == 0:
+        return "0 "
+    mag = abs(value)
+    for scale, prefix in _RENDER_PREFIXES:
+        if mag >= scale * (1 - 0.5 * 10 ** (-digits)):
+            mantissa = float(f"{value / scale:.{digits}g}")
+            if abs(mantissa) >= 1000 and scale < 1e12:
+                continue
+            return f"{_fmt(mantissa, digits)} {prefix}"
+    return f"{_fmt(value, digits)} "
 
 
 def _fmt(x: float, digits: int) -> str:

@@ -248,7 +248,10 @@ def burst_sag(supply_voltage, capacitance, esr, series_resistor, on_resistance,
         last = np.where(run, op.peak_current, last)
         v_before_last = np.where(run, v, v_before_last)
         v_end = np.where(run, op.end_voltage, v_end)
-        v = np.minimum(vs, np.asarray(op.end_voltage) + ib * (s - tp) / c)
+        v_next = np.minimum(vs, np.asarray(op.end_voltage) + ib * (s - tp) / c)
+        if np.array_equal(v_next, v):
+            break  # every later flash starts where this one did: it repeats exactly
+        v = v_next
     out = BurstSag(vs - v_before_last, vs - v_end, first, last)
     if out.at_end.ndim == 0:
         return BurstSag(*(float(x) for x in out))
