@@ -166,7 +166,8 @@ def test_timing_flash_sits_on_the_requested_crest(levitator):
     frame, zoom = fig.axes
     t = levitator.timing
     # 100 MHz / 40 kHz = 2500 ticks of 10 ns: one drive period is 25 us [calc].
-    assert zoom.get_xlim() == pytest.approx((0.0, 25e-6), abs=1e-15)
+    lo, hi = zoom.get_xlim()
+    assert hi - lo == pytest.approx(25e-6, rel=1e-9)
     assert isinstance(zoom.xaxis.get_major_formatter(), EngFormatter)
     assert zoom.xaxis.get_major_formatter().unit == "s"
     one(zoom, "drive at the controller")
@@ -216,7 +217,10 @@ def test_timing_centroid_tracks_any_phase(phase, width):
     x_c = one(zoom, "optical centroid").get_xdata()[0]
     gap = (x_c - x_req + period / 2) % period - period / 2
     assert abs(gap) <= 0.5e-8 + 1e-12  # half a 10 ns tick
-    assert 0.0 <= x_req < period
+    lo, hi = zoom.get_xlim()
+    assert lo <= x_req <= hi and lo <= x_c <= hi
+    # the window is the drive period centred on the flash
+    assert x_c == pytest.approx(0.5 * (lo + hi), abs=1e-12)
 
 
 # --- pulse ----------------------------------------------------------------------------------
@@ -404,3 +408,22 @@ def test_plot_command_bad_input_exits_2(tmp_path, args):
     assert r.exit_code == 2
     assert "Traceback" not in r.output
     assert not (tmp_path / "out.png").exists() and not (tmp_path / "out.jpg").exists()
+
+
+@settings(max_examples=20, deadline=None)
+@given(width_us=st.floats(0.5, 20.0), every=st.integers(1, 6),
+       exposure_ms=st.floats(0.2, 5.0))
+def test_thermal_trace_peak_is_the_exact_burst_peak(width_us, every, exposure_ms):
+    """The superposed trace (step responses, older frames as mean heat) peaks at the plan's
+    exact periodic burst peak (physics.thermal.burst_peak) for any burst pattern."""
+    text = example("levitator-40k").read_text(encoding="utf-8")
+    text = (text.replace('pulse_width = "1 us"', f'pulse_width = "{width_us:.3f} us"')
+                .replace("every = 1", f"every = {every}")
+                .replace('exposure = "1 ms"', f'exposure = "{exposure_ms:.3f} ms"'))
+    plan = solve(loads_rig(text))
+    led = plan.led
+    n = max(1, led.flashes_per_burst)
+    ends = plots._first_light(plan) + led.flash_spacing_s * np.arange(n) + plan.flash.width_s
+    trace = plots.junction_trace(plan, ends) - 273.15
+    rise = led.junction_peak_c - 25.0
+    assert trace.max() == pytest.approx(led.junction_peak_c, abs=1e-4 * max(rise, 1.0))

@@ -155,13 +155,15 @@ def flash_starts(plan) -> tuple[np.ndarray, np.ndarray]:
 
 
 def _drive_period_curves(plan, n: int = 2001) -> dict[str, np.ndarray]:
-    """Curves over one drive period: drive, wave at the view, optical pulse (all [1])."""
+    """Curves over one drive period centred on the optical centroid: drive, wave at the
+    view, optical pulse (all [1]); times from the start of a drive period."""
     from ..physics import exposure as ex
 
     t, fl = plan.timing, plan.flash
     f = t.drive_frequency_hz
     period = t.drive_period_ticks * t.tick_s
-    time = np.linspace(0.0, period, n)
+    centre = math.fmod(t.flash_edge_s + t.flash_delay_s, period)
+    time = np.linspace(centre - period / 2, centre + period / 2, n)
     phase = 2.0 * np.pi * f * time
     waveform = plan.drive.waveform if plan.drive is not None else "square"
     if waveform == "square":
@@ -246,17 +248,17 @@ def plot_timing(plan, ax=None):
                          label="optical pulse (relative)")
     period = t.drive_period_ticks * t.tick_s
     f = t.drive_frequency_hz
-    t_req = math.fmod(t.chain_delay_s + math.radians(t.phase_requested_deg) / (2 * math.pi * f),
-                      period)
     t_got = math.fmod(t.flash_edge_s + t.flash_delay_s, period)
+    t_req = t.chain_delay_s + math.radians(t.phase_requested_deg) / (2 * math.pi * f)
+    t_req = t_got + ((t_req - t_got + period / 2) % period - period / 2)  # nearest to t_got
     ax_zoom.axvline(t_req, color=INK, linestyle="-.",
                     label=f"requested phase {_deg(t.phase_requested_deg)}")
     ax_zoom.plot([t_got], [math.sin(2 * math.pi * f * (t_got - t.chain_delay_s))],
                  linestyle="none", marker="o", markerfacecolor="white", color=INK,
                  label=f"optical centroid (achieved {_deg(t.phase_achieved_deg)})")
-    ax_zoom.set_xlim(0.0, period)
+    ax_zoom.set_xlim(time[0], time[-1])
     ax_zoom.set_ylim(-1.2, 2.1)
-    ax_zoom.set_xlabel("time in the drive period")
+    ax_zoom.set_xlabel("time from the start of a drive period")
     ax_zoom.set_ylabel("relative amplitude [1]")
     ax_zoom.set_title(f"One drive period ({_si(f, 'frequency')}, "
                       f"{t.drive_period_ticks} ticks)", fontsize="medium")
