@@ -13,21 +13,23 @@ __version__ = "0.1.0"
 __all__ = ["load_rig", "loads_rig", "solve", "build_schedule", "Plan", "Finding", "RigError"]
 
 
+_EXPORTS = {
+    "load_rig": "strobeplan.rig", "loads_rig": "strobeplan.rig",
+    "solve": "strobeplan.solve", "build_schedule": "strobeplan.solve",
+    "Plan": "strobeplan.plan", "Finding": "strobeplan.plan", "RigError": "strobeplan.errors",
+}
+
+
 def __getattr__(name):
-    if name in ("load_rig", "loads_rig"):
-        from . import rig
+    # The function ``solve`` shares its name with the module ``strobeplan.solve``: import
+    # the module by its full name (no attribute lookup on this package, which would recurse)
+    # and then bind the public names here, over the submodule attribute.
+    if name not in _EXPORTS:
+        raise AttributeError(f"module 'strobeplan' has no attribute {name!r}")
+    import importlib
 
-        return getattr(rig, name)
-    if name in ("solve", "build_schedule"):
-        from . import solve as _solve
-
-        return getattr(_solve, name)
-    if name in ("Plan", "Finding"):
-        from . import plan
-
-        return getattr(plan, name)
-    if name == "RigError":
-        from .errors import RigError
-
-        return RigError
-    raise AttributeError(f"module 'strobeplan' has no attribute {name!r}")
+    module = importlib.import_module(_EXPORTS[name])
+    for public, where in _EXPORTS.items():
+        if where == _EXPORTS[name]:
+            globals()[public] = getattr(module, public)
+    return globals()[name]

@@ -390,6 +390,18 @@ class _LazyBar:
             self.bar.__exit__(None, None, None)
 
 
+@cli.command()
+@click.option("-o", "--output", type=click.Path(allow_dash=True), default=None,
+              help="Write to FILE (atomically) instead of standard output.")
+def schema(output):
+    """Print the JSON Schema (draft 2020-12) of `check --json`, generated from the models."""
+    import json
+
+    from .schema import plan_schema
+
+    _write_or_echo(json.dumps(plan_schema(), indent=2, sort_keys=True) + "\n", output)
+
+
 def main(argv=None) -> None:
     """Console entry point: maps every outcome to the exit codes of design §5."""
     args = list(sys.argv[1:] if argv is None else argv)

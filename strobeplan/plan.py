@@ -40,9 +40,29 @@ def jsonable(value: Any) -> Any:
     return as_float if math.isfinite(as_float) else None
 
 
+# slot name -> the section classes that can fill it (for the published JSON Schema)
+SECTION_TYPES: dict[str, list[type]] = {}
+
+
+def _slot_of(name: str) -> str:
+    base = name[: -len("Section")] if name.endswith("Section") else name
+    return "".join(("_" + c.lower()) if c.isupper() else c for c in base).lstrip("_")
+
+
 @dataclass
 class Section:
-    """Base of all plan sections. Fields starting with ``_`` stay out of the outputs."""
+    """Base of all plan sections. Fields starting with ``_`` stay out of the outputs.
+
+    A subclass fills the plan slot named after it (``StuckOnSection`` -> ``stuck_on``), or
+    its parent's slot when it extends a section, or ``slot=`` given as a class keyword.
+    """
+
+    def __init_subclass__(cls, slot: str | None = None, **kwargs):
+        super().__init_subclass__(**kwargs)
+        parent = next((getattr(b, "_slot", None) for b in cls.__mro__[1:]
+                       if getattr(b, "_slot", None)), None)
+        cls._slot = slot or parent or _slot_of(cls.__name__)
+        SECTION_TYPES.setdefault(cls._slot, []).append(cls)
 
     def to_json(self) -> dict:
         return jsonable(self)

@@ -12,11 +12,15 @@ import json
 import math
 import tomllib
 
+import jsonschema
 import tomli_w
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
+from strobeplan.schema import plan_schema
 from tests.conftest import EXAMPLES, example, run_cli
+
+VALIDATOR = jsonschema.Draft202012Validator(plan_schema())
 
 BASES = {name: tomllib.loads(example(name).read_text()) for name in EXAMPLES}
 
@@ -94,6 +98,7 @@ def _assert_contract(result):
         assert lines[0].startswith("error: ")
     else:
         data = json.loads(result.stdout, parse_constant=_reject_constants)
+        VALIDATOR.validate(data)  # the published schema holds for every plan
         assert data["verdict"] in ("pass", "warn", "fail")
         assert (result.exit_code == 1) == (data["verdict"] == "fail")
 
