@@ -173,3 +173,13 @@ def test_check_imports_no_heavy_modules():
     )
     p = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True)
     assert p.stderr.strip().endswith("[]"), p.stderr
+
+
+def test_cautions_follow_the_findings():
+    # unsafe-bench trips LED, stuck-on and ultrasound findings: each concern gets its line.
+    out = run_cli("check", example("unsafe-bench")).stdout
+    for concern in ("eyes", "stored charge", "ultrasound", "hot parts"):
+        assert f"caution ({concern})" in out
+    assert "datasheets, local codes and licensed practice" in out
+    # the rangefinder (no hazard, 102 dB at 1 m) prints none
+    assert "caution" not in run_cli("check", example("rangefinder-58k")).stdout.lower()

@@ -72,9 +72,36 @@ def plan_text(plan) -> str:
         lines += [f"  {label:<{width}}  {value}" for label, value in rows]
         lines.append("")
     lines.append(findings_text(plan))
-    if any(f.severity == "hazard" for f in plan.findings):
-        lines += ["", CAUTION]
+    cautions = caution_lines(plan)
+    if cautions:
+        lines += ["", *cautions]
     return "\n".join(lines).rstrip() + "\n"
+
+
+# One line per concern, shown by `check` when a finding concerns it (issue 8).
+_CONCERNS = (
+    ("eyes", lambda f: f.severity == "hazard" and f.subject == "led",
+     "caution (eyes): this LED is driven beyond its ratings; its flashes can injure eyes - "
+     "never look into the source or its image, enclose the beam (IEC 62471)."),
+    ("stored charge", lambda f: f.severity == "hazard" and f.subject in ("supply", "stuck_on",
+                                                                         "switch"),
+     "caution (stored charge): the storage capacitor stays charged after power-off; fit a "
+     "bleeder, discharge and measure before touching the power stage."),
+    ("ultrasound", lambda f: f.code == "safety.ultrasound_exposure",
+     "caution (ultrasound): inaudible airborne ultrasound at this level can harm hearing; "
+     "shield the emitter and follow local exposure rules."),
+    ("hot parts", lambda f: f.severity == "hazard" and f.subject == "stuck_on",
+     "caution (hot parts): a stuck gate overheats the LED and the series resistor within "
+     "seconds; fuse the supply and limit the gate's on-time in hardware."),
+)
+
+
+def caution_lines(plan) -> list[str]:
+    """The one-line cautions that the plan's findings call for, then the general one."""
+    out = [text for _name, hit, text in _CONCERNS if any(hit(f) for f in plan.findings)]
+    if any(f.severity == "hazard" for f in plan.findings):
+        out.append(CAUTION)
+    return out
 
 
 def findings_text(plan) -> str:
