@@ -427,3 +427,24 @@ def test_thermal_trace_peak_is_the_exact_burst_peak(width_us, every, exposure_ms
     trace = plots.junction_trace(plan, ends) - 273.15
     rise = led.junction_peak_c - 25.0
     assert trace.max() == pytest.approx(led.junction_peak_c, abs=1e-4 * max(rise, 1.0))
+
+
+def test_divider_without_a_safe_pair():
+    text = BASE.format(width="1 us", phase="0 deg", harmonics=1) + """
+[camera]
+exposure = "10 us"
+frame_rate = "50 Hz"
+trigger_input = { family = "lvcmos12" }
+[trigger_link]
+series = "E6"
+tolerance = "20 %"
+"""
+    ax = plots.plot_divider(solve(loads_rig(text))).axes[0]
+    # JESD8-12A 1.2 V inputs over 1.1-1.3 V [mem supply range]: VIH = 0.65 x 1.3 V,
+    # VIL = 0.35 x 1.1 V, input maximum 1.1 + 0.3 V (common practice).
+    assert one(ax, "VIH").get_xdata()[0] == pytest.approx(0.845)
+    assert one(ax, "VIL").get_xdata()[0] == pytest.approx(0.385)
+    assert one(ax, "input maximum").get_xdata()[0] == pytest.approx(1.4)
+    assert not labelled(ax, "high level") and not labelled(ax, "low level")
+    assert any("no safe pair" in t.get_text() for t in ax.texts)
+    assert "infeasible" in ax.get_title()

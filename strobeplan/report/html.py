@@ -62,7 +62,8 @@ code{font-family:ui-monospace,"DejaVu Sans Mono",monospace;font-size:.9em}
 figure{margin:1rem 0;border:1px solid #ddd;padding:.5rem}
 figure svg{width:100%;height:auto;display:block}
 figcaption{font-size:.9rem;color:#333;margin-top:.3rem}
-pre.rig{background:#f6f6f6;border:1px solid #ccc;padding:.6rem;overflow-x:auto;
+pre.rig{background:#f6f6f6;border:1px solid #ccc;padding:.6rem;white-space:pre-wrap;
+ overflow-wrap:anywhere;
  font-size:.82rem;line-height:1.3}
 .missing{color:#444}
 footer{margin-top:2.5rem;font-size:.85rem;color:#444;border-top:1px solid #ccc}

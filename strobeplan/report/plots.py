@@ -591,8 +591,11 @@ def plot_divider(plan, ax=None):
         pair = (f"{_si(link.top_ohm, 'resistance')} / {_si(link.bottom_ohm, 'resistance')} "
                 f"({link.mode})")
     else:
-        ax.text(0.5, 0.5, link.reason or "no divider to show", transform=ax.transAxes,
-                ha="center", va="center", wrap=True)
+        import textwrap
+
+        why = textwrap.fill(f"no safe pair: {link.reason or 'nothing to show'}", 60)
+        ax.text(0.5, 0.42, why, transform=ax.transAxes, ha="center", va="center",
+                fontsize="small", bbox={"facecolor": "white", "edgecolor": INK})
         pair = link.mode
     ax.set_xlim(0.0, right)
     ax.set_ylim(-0.7, 2.6)
