@@ -166,3 +166,19 @@ def test_report_bad_input_exits_2(tmp_path):
     r = run_cli("report", tmp_path / "missing.toml", "-o", tmp_path / "r.html")
     assert r.exit_code == 2 and "Traceback" not in r.output
     assert not (tmp_path / "r.html").exists()
+
+
+def test_cautions_the_findings_call_for(pages):
+    import html
+
+    from strobeplan.report.text import caution_lines
+
+    path, plan = pages["unsafe-bench"]
+    text = path.read_text(encoding="utf-8")
+    caution = text[text.index('id="cautions"'):text.index('id="plots"')]
+    called = caution_lines(plan)
+    assert len(called) >= 3  # the bad bench trips LED, stuck-on and ultrasound concerns
+    for line in called:
+        assert html.escape(line, quote=True) in caution
+    # the rig's own figures: 0.5 x 1 mF x (24 V)^2 = 288 mJ [calc]; stuck-on time from the plan
+    assert "288 mJ" in caution and "\N{MICRO SIGN}s" in caution

@@ -19,7 +19,7 @@ import json
 import re
 
 from ..errors import RigError
-from .text import CAUTION, label_and_value
+from .text import CAUTION, caution_lines, label_and_value
 
 SVG_HASHSALT = "strobeplan"
 PLOT_ORDER = ("timing", "pulse", "thermal", "divider", "sweep", "tradeoff")
@@ -59,6 +59,7 @@ th{background:#eee}td.num{text-align:right;font-variant-numeric:tabular-nums;
 code{font-family:ui-monospace,"DejaVu Sans Mono",monospace;font-size:.9em}
 .fix{color:#222;font-style:italic}
 .caution{border:2px solid #111;border-left-width:.6rem;padding:.4rem 1rem;background:#fafafa}
+ul.called li{font-weight:600}
 figure{margin:1rem 0;border:1px solid #ddd;padding:.5rem}
 figure svg{width:100%;height:auto;display:block}
 figcaption{font-size:.9rem;color:#333;margin-top:.3rem}
@@ -223,12 +224,17 @@ def _cautions(plan) -> str:
     t_lim = getattr(stuck, "time_to_limit_s", None) if stuck is not None else None
     if t_lim is not None:
         hot += (f" With the gate stuck on, the LED reaches its junction limit after "
-                f"{_e(render(t_lim, 'time'))}.")
+                f"{_e(_micro(render(t_lim, 'time')))}.")
     hot += " Fuse the supply, limit the recharge current and let parts cool before handling.</li>"
     items.append(hot)
     items.append("<li>Follow the datasheets, local codes and licensed practice; where a "
                  "datasheet and strobeplan disagree, the datasheet rules.</li>")
-    return (f'<div class="caution"><p>{_e(CAUTION)}</p>\n<ul>\n' + "\n".join(items)
+    called = [c for c in caution_lines(plan) if c != CAUTION]
+    flagged = ""
+    if called:
+        flagged = ('<p><strong>This plan\'s findings call for:</strong></p>\n<ul class="called">'
+                   + "".join(f"<li>{_e(c)}</li>" for c in called) + "</ul>\n")
+    return (f'<div class="caution">{flagged}<p>{_e(CAUTION)}</p>\n<ul>\n' + "\n".join(items)
             + "\n</ul></div>\n")
 
 
