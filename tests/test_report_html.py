@@ -110,7 +110,7 @@ def test_ids_are_unique_and_references_resolve(pages):
     refs = set(re.findall(r'href="#([^"]+)"', text)) | set(re.findall(r"url\(#([^)]+)\)", text))
     assert refs and refs <= set(ids)
     for kind in ("timing", "pulse", "thermal", "divider", "sweep", "tradeoff"):
-        assert f'<svg id="fig-{kind}"' in text
+        assert f'<svg id="fig-{kind}" role="img" aria-label=' in text
 
 
 def test_tables_rig_text_and_cautions(pages):

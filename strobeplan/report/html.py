@@ -84,7 +84,7 @@ _HREF = re.compile(r'(\bhref=")#([^"]+)"')
 _URL = re.compile(r"url\(#([^)]+)\)")
 
 
-def figure_svg(fig, prefix: str) -> str:
+def figure_svg(fig, prefix: str, label: str | None = None) -> str:
     """The figure as an inline ``<svg>`` element whose ids all start with ``prefix``.
 
     The XML prolog, the DOCTYPE and the metadata block are dropped (they name external
@@ -102,7 +102,8 @@ def figure_svg(fig, prefix: str) -> str:
     svg = _ID.sub(lambda m: f'id="{prefix}-{m.group(1)}"', svg)
     svg = _HREF.sub(lambda m: f'{m.group(1)}#{prefix}-{m.group(2)}"', svg)
     svg = _URL.sub(lambda m: f"url(#{prefix}-{m.group(1)})", svg)
-    svg = svg.replace("<svg ", f'<svg id="{prefix}" role="img" ', 1)
+    aria = f' aria-label="{_e(label)}"' if label else ""
+    svg = svg.replace("<svg ", f'<svg id="{prefix}" role="img"{aria} ', 1)
     svg = svg.replace("<style type=\"text/css\">*{", f'<style type="text/css">#{prefix} *{{', 1)
     return svg.strip()
 
@@ -118,7 +119,7 @@ def _figures(plan, kinds) -> tuple[list[tuple[str, str]], list[tuple[str, str]]]
         except RigError as exc:
             missing.append((kind, str(exc)))
             continue
-        drawn.append((kind, figure_svg(fig, f"fig-{kind}")))
+        drawn.append((kind, figure_svg(fig, f"fig-{kind}", PLOT_TITLES.get(kind, kind))))
     return drawn, missing
 
 
