@@ -448,3 +448,23 @@ tolerance = "20 %"
     assert not labelled(ax, "high level") and not labelled(ax, "low level")
     assert any("no safe pair" in t.get_text() for t in ax.texts)
     assert "infeasible" in ax.get_title()
+
+
+def test_plots_draw_into_given_axes(levitator):
+    """python-control pattern: ax=... draws into the caller's figure and returns it."""
+    fig = Figure()
+    axes = fig.subplots(2, 2)
+    assert plots.plot_timing(levitator, ax=axes[0, 0]) is fig
+    assert labelled(axes[0, 0], "wave at the view")  # one Axes: the drive-period panel
+    assert plots.plot_pulse(levitator, ax=list(axes[1])) is fig  # a pair: both panels
+    assert labelled(axes[1, 0], "light output") and labelled(axes[1, 1], "wave harmonics")
+    assert plots.plot_divider(levitator, ax=axes[0, 1]) is fig
+    assert len(fig.axes) == 4
+
+
+def test_tradeoff_without_a_feasible_design(unsafe):
+    ax = plots.plot_tradeoff(unsafe).axes[0]
+    assert any(t.get_text() == "no feasible design" for t in ax.texts)
+    assert not labelled(ax, "chosen")
+    assert labelled(ax, "breaks a rating")
+    assert "0 feasible" in ax.get_title()
