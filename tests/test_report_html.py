@@ -182,3 +182,15 @@ def test_cautions_the_findings_call_for(pages):
         assert html.escape(line, quote=True) in caution
     # the rig's own figures: 0.5 x 1 mF x (24 V)^2 = 288 mJ [calc]; stuck-on time from the plan
     assert "288 mJ" in caution and "\N{MICRO SIGN}s" in caution
+
+
+def test_key_figures_at_the_top(pages):
+    path, plan = pages["levitator-40k"]
+    text = path.read_text(encoding="utf-8")
+    head = text[:text.index("</header>")]
+    assert 'class="glance"' in head
+    assert f"{plan.exposure.retention:.1%}" in head
+    assert f"<td class=\"num\">{plan.timing.flashes_per_frame}</td>" in head
+    from strobeplan.units import render
+
+    assert render(plan.trigger_link.top_ohm, "resistance") in head  # the proposed divider

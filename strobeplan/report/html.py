@@ -48,6 +48,7 @@ h1{font-size:1.6rem;margin:.2rem 0}h2{font-size:1.25rem;border-bottom:2px solid 
  border:3px solid #111;border-radius:.3rem}
 .verdict-fail{background:#fde2e2;border-style:double}.verdict-warn{background:#fff4d6;
  border-style:dashed}.verdict-pass{background:#e3f5e5}
+table.glance{margin-top:.8rem}
 nav ul{list-style:none;padding:0;display:flex;flex-wrap:wrap;gap:.4rem 1rem}
 table{border-collapse:collapse;margin:.4rem 0;font-size:.92rem}
 th,td{border:1px solid #bbb;padding:.2rem .5rem;text-align:left;vertical-align:top}
@@ -164,6 +165,44 @@ def _figure_value(value, unit) -> str:
         return _e(_micro(render(x, _UNIT_KINDS[unit])))
     text = f"{x:.4g}"
     return _e(f"{text} {unit}" if unit and unit != "1" else text)
+
+
+# (section, field, label) of the figures a practitioner looks at first.
+GLANCE = (
+    ("timing", "phase_achieved_deg", "phase at the view"),
+    ("timing", "flashes_per_frame", "flashes per frame"),
+    ("exposure", "retention", "contrast retention"),
+    ("exposure", "blur_pixels", "blur [px]"),
+    ("optics", "visible_contrast", "visible contrast"),
+    ("led", "peak_current_a", "LED peak current"),
+    ("led", "junction_peak_c", "junction peak"),
+    ("led", "thermal_margin_k", "thermal margin"),
+    ("stuck_on", "time_to_limit_s", "stuck gate: time to the junction limit"),
+    ("trigger_link", "top_ohm", "trigger divider top"),
+    ("trigger_link", "bottom_ohm", "trigger divider bottom"),
+)
+
+
+def _glance(plan) -> str:
+    rows = []
+    for section, name, label in GLANCE:
+        sec = getattr(plan, section, None)
+        if sec is None or not hasattr(sec, name):
+            continue
+        value = getattr(sec, name)
+        if name in ("retention", "visible_contrast") and value is not None:
+            shown = f"{value:.1%}"
+        elif name == "blur_pixels" and value is not None:
+            shown = f"{value:.3g}"
+        elif name == "time_to_limit_s" and value is None:
+            shown = "never reaches it"
+        else:
+            shown = label_and_value(name, value)[1]
+        rows.append(f'<tr><th scope="row">{_e(label)}</th><td class="num">{_e(_micro(shown))}'
+                    "</td></tr>")
+    if not rows:
+        return ""
+    return '<table class="glance"><tbody>' + "".join(rows) + "</tbody></table>\n"
 
 
 def _findings(plan) -> str:
@@ -319,6 +358,7 @@ def report_html(plan, rig_text: str | None = None, plots=PLOT_ORDER) -> str:
         f'<p class="description">{_e(rig.description)}</p>' if rig.description else "",
         f'<p><span class="verdict verdict-{_e(verdict)}" id="verdict">verdict: '
         f"{_e(verdict.upper())}</span></p>",
+        _glance(plan),
         "</header>",
         '<nav aria-label="contents"><ul>'
         '<li><a href="#findings">Findings</a></li><li><a href="#cautions">Safety</a></li>'
