@@ -194,3 +194,11 @@ def test_key_figures_at_the_top(pages):
     from strobeplan.units import render
 
     assert render(plan.trigger_link.top_ohm, "resistance") in head  # the proposed divider
+
+
+def test_micro_prefix_only_on_units():
+    from strobeplan.report.html import _micro
+
+    assert _micro("at most 1.154 us keeps 470 uF and 2.5 uA") == \
+        "at most 1.154 \N{MICRO SIGN}s keeps 470 \N{MICRO SIGN}F and 2.5 \N{MICRO SIGN}A"
+    assert _micro("5 units, 3 uses") == "5 units, 3 uses"

@@ -143,7 +143,7 @@ def _section_table(name: str, section) -> str:
 
 _UNIT_KINDS = {"s": "time", "A": "current", "V": "voltage", "W": "power", "J": "energy",
                "Hz": "frequency", "m": "length", "ohm": "resistance", "F": "capacitance"}
-_MICRO = re.compile(r"(?<=\d) u(?=[A-Za-z\u03a9])")
+_MICRO = re.compile(r"(?<=\d) u(?=(?:s|F|A|V|W|J|H|C|m|Hz|\u03a9|ohm)\b)")
 
 
 def _micro(text: str) -> str:
@@ -210,12 +210,12 @@ def _findings(plan) -> str:
         return "<p>No findings: every check passed.</p>\n"
     rows = []
     for f in plan.findings:
-        fix = f'<div class="fix">fix: {_e(f.hint)}</div>' if f.hint else ""
+        fix = f'<div class="fix">fix: {_e(_micro(f.hint))}</div>' if f.hint else ""
         rows.append(
             f'<tr class="finding" id="finding-{_e(f.code)}">'
             f'<td class="sev sev-{_e(f.severity)}">{_e(f.severity)}</td>'
             f"<td><code>{_e(f.code)}</code></td>"
-            f"<td>{_e(f.message)}{fix}</td>"
+            f"<td>{_e(_micro(f.message))}{fix}</td>"
             f'<td class="num">{_figure_value(f.value, f.unit)}</td>'
             f'<td class="num">{_figure_value(f.limit, f.unit)}</td></tr>')
     counts = {}
