@@ -331,6 +331,10 @@ def test_thermal_peak_matches_the_exact_pulse_train():
     # brute-force superposition].
     assert rise / power == pytest.approx(0.061136, rel=1e-4)
     assert one(frame, "junction limit 150").get_ydata()[0] == pytest.approx(150.0)
+    # no camera: the top panel shows ten flash periods of 1 ms, the zoom one of them
+    assert frame.get_xlim() == pytest.approx((0.0, 10e-3))
+    assert zoom.get_xlim() == pytest.approx((0.0, 1e-3))
+    assert zoom.get_title().startswith("Continuous train")
 
 
 def test_thermal_trace_agrees_with_the_plan(levitator, unsafe):

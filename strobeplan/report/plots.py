@@ -413,13 +413,22 @@ def plot_thermal(plan, ax=None):
     spacing = led.flash_spacing_s
     n = max(1, int(led.flashes_per_burst))
     burst = led.pattern == "burst"
-    frame = led.frame_period_s if burst else spacing
+    frame = led.frame_period_s if burst else spacing  # the period of the heat pattern
     t0 = _first_light(plan) if burst else 0.0
     limit_c = led.junction_max_c
     peak_c = led.junction_peak_c
+    # Top panel: one frame; a continuous train repeats every flash, so without a camera
+    # frame it shows ten flash periods.
+    if burst:
+        view, view_name = frame, "frame"
+    elif plan.timing.frame_rate_hz:
+        view, view_name = 1.0 / plan.timing.frame_rate_hz, "frame"
+    else:
+        view, view_name = 10 * spacing, "ten flash periods"
 
     def draw(ax, lo, hi, points, with_limit):
-        ends = t0 + spacing * np.arange(n) + width
+        count = n if burst else min(20_000, math.ceil(hi / spacing) + 1)
+        ends = t0 + spacing * np.arange(count) + width
         base = np.linspace(lo, hi, points)
         extra = np.concatenate([ends, ends - width, ends - 1e-3 * width])
         time = np.unique(np.concatenate([base, extra[(extra >= lo) & (extra <= hi)]]))
@@ -450,10 +459,11 @@ def plot_thermal(plan, ax=None):
         return time, temp_c
 
     if ax_frame is not None:
-        draw(ax_frame, 0.0, frame, 1500, with_limit=True)
-        ax_frame.set_xlabel("time after the frame start")
-        ax_frame.set_title(f"Junction temperature over one {'frame' if burst else 'flash'} "
-                           f"period ({_si(frame, 'time')}): peak {peak_c:.4g} "
+        draw(ax_frame, 0.0, view, 1500, with_limit=True)
+        ax_frame.set_xlabel("time after the frame start" if burst else "time")
+        over = (f"one frame period ({_si(view, 'time')})" if view_name == "frame"
+                else view_name)
+        ax_frame.set_title(f"Junction temperature over {over}: peak {peak_c:.4g} "
                            f"\N{DEGREE SIGN}C, margin {led.thermal_margin_k:.3g} K",
                            fontsize="medium")
         ax_frame.legend(loc="center right", fontsize="small", framealpha=0.95)
@@ -464,9 +474,15 @@ def plot_thermal(plan, ax=None):
     k = int(np.argmax(temp_c))
     ax_zoom.plot([time[k]], [temp_c[k]], linestyle="none", marker="^", color=INK,
                  label=f"peak {peak_c:.4g} \N{DEGREE SIGN}C")
-    ax_zoom.set_xlabel("time after the frame start (the burst)")
-    ax_zoom.set_title(f"The burst: {n} flash{'es' if n > 1 else ''} of {_si(width, 'time')}"
-                      f" every {_si(spacing, 'time')}", fontsize="medium")
+    if burst:
+        ax_zoom.set_xlabel("time after the frame start (the burst)")
+        ax_zoom.set_title(f"The burst: {n} flash{'es' if n > 1 else ''} of "
+                          f"{_si(width, 'time')} every {_si(spacing, 'time')}",
+                          fontsize="medium")
+    else:
+        ax_zoom.set_xlabel("time after a flash starts")
+        ax_zoom.set_title(f"Continuous train: {_si(width, 'time')} every "
+                          f"{_si(spacing, 'time')} (steady state)", fontsize="medium")
     ax_zoom.legend(loc="upper left", fontsize="small", ncols=2, framealpha=0.95)
     return fig
 
