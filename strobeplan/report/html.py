@@ -58,7 +58,7 @@ th{background:#eee}td.num{text-align:right;font-variant-numeric:tabular-nums;
 .sev-hazard{background:#fbd0d0}.sev-fault{background:#fde2e2}.sev-warning{background:#fff4d6}
 .sev-note{background:#eef}
 code{font-family:ui-monospace,"DejaVu Sans Mono",monospace;font-size:.9em}
-.fix{color:#222;font-style:italic}
+.fix{color:#222;font-style:italic}.see{font-size:.85rem}
 .caution{border:2px solid #111;border-left-width:.6rem;padding:.4rem 1rem;background:#fafafa}
 ul.called li{font-weight:600}
 figure{margin:1rem 0;border:1px solid #ddd;padding:.5rem}
@@ -209,8 +209,12 @@ def _findings(plan) -> str:
     if not plan.findings:
         return "<p>No findings: every check passed.</p>\n"
     rows = []
+    present = {name for name, _section in plan.sections()}
     for f in plan.findings:
         fix = f'<div class="fix">fix: {_e(_micro(f.hint))}</div>' if f.hint else ""
+        if f.subject in present:
+            fix += (f'<div class="see"><a href="#section-{_e(f.subject)}">'
+                    f"[{_e(f.subject)}] figures</a></div>")
         rows.append(
             f'<tr class="finding" id="finding-{_e(f.code)}">'
             f'<td class="sev sev-{_e(f.severity)}">{_e(f.severity)}</td>'
