@@ -10,6 +10,7 @@ from __future__ import annotations
 import copy
 import json
 import math
+import re
 import tomllib
 
 import jsonschema
@@ -199,3 +200,65 @@ def test_json_never_has_nan_for_examples():
                     walk(x)
 
         walk(data)
+
+
+def _one_line_or_success(r, ok_codes):
+    assert r.exit_code in ok_codes + (2,), (r.exit_code, r.output)
+    assert "Traceback" not in r.output
+    if r.exit_code == 2:
+        assert len([ln for ln in r.stderr.splitlines() if ln.strip()]) == 1, r.stderr
+
+
+SLOW = settings(max_examples=12, deadline=None,
+                suppress_health_check=[HealthCheck.too_slow, HealthCheck.function_scoped_fixture])
+
+
+@SLOW
+@given(raw=mutated_rig(), kind=st.sampled_from(
+    ["timing", "pulse", "thermal", "divider", "sweep", "tradeoff"]),
+    suffix=st.sampled_from([".png", ".svg"]))
+def test_mutated_rigs_plot(raw, kind, suffix, tmp_path_factory):
+    try:
+        text = tomli_w.dumps(raw)
+    except (TypeError, ValueError):
+        return
+    d = tmp_path_factory.mktemp("fuzz")
+    rig = d / "rig.toml"
+    rig.write_text(text, encoding="utf-8")
+    r = run_cli("plot", rig, "--kind", kind, "-o", d / f"p{suffix}", "--dpi", "30")
+    _one_line_or_success(r, (0,))
+    assert (d / f"p{suffix}").exists() == (r.exit_code == 0)
+
+
+@settings(max_examples=5, deadline=None,
+          suppress_health_check=[HealthCheck.too_slow, HealthCheck.function_scoped_fixture])
+@given(raw=mutated_rig())
+def test_mutated_rigs_report(raw, tmp_path_factory):
+    try:
+        text = tomli_w.dumps(raw)
+    except (TypeError, ValueError):
+        return
+    d = tmp_path_factory.mktemp("fuzz")
+    rig = d / "rig.toml"
+    rig.write_text(text, encoding="utf-8")
+    r = run_cli("report", rig, "-o", d / "r.html")
+    _one_line_or_success(r, (0, 1))
+    assert (d / "r.html").exists() == (r.exit_code != 2)
+    if r.exit_code != 2 and not re.search(r"\b(nan|inf)", text, flags=re.I):
+        html_text = (d / "r.html").read_text()  # the report echoes the rig as given
+        assert not re.search(r"\b(nan|inf|infinity)\b", html_text, flags=re.I)
+
+
+@SLOW
+@given(raw=mutated_rig())
+def test_mutated_rigs_tune(raw, tmp_path_factory):
+    try:
+        text = tomli_w.dumps(raw)
+    except (TypeError, ValueError):
+        return
+    rig = tmp_path_factory.mktemp("fuzz") / "rig.toml"
+    rig.write_text(text, encoding="utf-8")
+    r = run_cli("tune", rig, "--widths", "6", "--max-every", "2", "--json")
+    _one_line_or_success(r, (0, 1))
+    if r.exit_code != 2:
+        json.loads(r.stdout, parse_constant=_reject_constants)
