@@ -204,6 +204,16 @@ def _default_text(field, kind) -> str:
     return repr(d)
 
 
+def _description(field) -> str | None:
+    if field.description:
+        return field.description
+    for arg in typing.get_args(field.annotation):
+        for meta in getattr(arg, "__metadata__", ()):
+            if getattr(meta, "description", None):
+                return meta.description
+    return None
+
+
 def _walk(model: type[BaseModel], prefix: str, out: list[str]) -> None:
     rows, subs = [], []
     for name, field in model.model_fields.items():
@@ -212,11 +222,11 @@ def _walk(model: type[BaseModel], prefix: str, out: list[str]) -> None:
         kind = kind or _kind_in(field.annotation)
         sub = _inner_model(field.annotation)
         key = f"{prefix}.{name}" if prefix else name
-        meaning = field.description or MEANINGS.get(key, "")
+        meaning = _description(field) or MEANINGS.get(key, "")
         rows.append(f"| `{name}` | {_type_text(field)} | {_default_text(field, kind)} | "
                     f"{_constraints(field, kind)} | {meaning} |")
         if sub is not None:
-            subs.append((name, sub))
+            subs.append((f"{name}.NAME" if "dict" in str(field.annotation) else name, sub))
     title = f"[{prefix}]" if prefix else "top level"
     out += [f"## {title}", "", "| key | kind | default | limits | meaning |",
             "|---|---|---|---|---|", *rows, ""]

@@ -24,3 +24,20 @@ def test_doc_and_registry_list_the_same_codes():
         assert r.code.split(".")[0] in {
             "timing", "drive", "air", "exposure", "optics", "led", "switch", "supply",
             "stuck_on", "trigger_link", "gate_link", "safety", "plan"}
+
+
+def test_rig_format_doc_is_current():
+    from strobeplan.rigdoc import rig_markdown
+
+    text = (ROOT / "docs" / "rig-format.md").read_text(encoding="utf-8")
+    assert text == rig_markdown(), (
+        "docs/rig-format.md is stale: run `python -m strobeplan.rigdoc > docs/rig-format.md`")
+
+
+def test_rig_format_doc_explains_every_key():
+    from strobeplan.rigdoc import rig_markdown
+
+    # every row of every table has a meaning column that is not empty
+    rows = [ln for ln in rig_markdown().splitlines() if ln.startswith("| `")]
+    assert rows and all(not ln.rstrip().endswith("|  |") for ln in rows), \
+        [ln for ln in rows if ln.rstrip().endswith("|  |")]
