@@ -202,3 +202,38 @@ def test_micro_prefix_only_on_units():
     assert _micro("at most 1.154 us keeps 470 uF and 2.5 uA") == \
         "at most 1.154 \N{MICRO SIGN}s keeps 470 \N{MICRO SIGN}F and 2.5 \N{MICRO SIGN}A"
     assert _micro("5 units, 3 uses") == "5 units, 3 uses"
+
+
+FAMILY = """
+name = "family"
+[wave]
+frequency = "40 kHz"
+[controller]
+clock = "100 MHz"
+[strobe]
+pulse_width = "1 us"
+[camera]
+exposure = "1 ms"
+frame_rate = "50 Hz"
+trigger_input = { family = "--><script>alert(1)</script><!--" }
+[trigger_link]
+series = "E24"
+tolerance = "1 %"
+[trigger_link.families."--><script>alert(1)</script><!--"]
+vdd = "1.8 V"
+vih = "1.2 V"
+vil = "0.6 V"
+voh = "1.4 V"
+vol = "0.4 V"
+output_current = "2 mA"
+"""
+
+
+def test_user_strings_inside_figures_stay_escaped():
+    """A custom family name reaches the divider plot's title, hence the SVG (whose text
+    matplotlib also writes as comments): it must not close a comment or open a script."""
+    page = report_html(solve(loads_rig(FAMILY)), rig_text=FAMILY)
+    assert '<svg id="fig-divider"' in page
+    assert "<script" not in page.lower()
+    svg = page[page.index('<svg id="fig-divider"'):]
+    assert "&lt;script&gt;" in svg[:svg.index("</svg>")]
