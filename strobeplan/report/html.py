@@ -31,6 +31,18 @@ PLOT_TITLES = {
     "sweep": "Phase sweep: achieved against target",
     "tradeoff": "Design space: light per frame against retention",
 }
+PLOT_HINTS = {
+    "timing": "The flash should sit where the wave at the view has the requested phase, and "
+              "every flash of the burst inside the exposure.",
+    "pulse": "Each marked harmonic of the wave should keep at least the retention target.",
+    "thermal": "The peak of the steady state, not the mean, must stay below the junction "
+               "limit with margin.",
+    "divider": "The worst-case high band must lie above VIH and below the input maximum, the "
+               "low band below VIL.",
+    "sweep": "Achieved phases should lie on the diagonal, errors within half a tick.",
+    "tradeoff": "Designs in the shaded region are safe and freeze the wave; the star is the "
+                "brightest one (strobeplan tune).",
+}
 SCHEDULE_ROWS = 12
 
 # Airborne-ultrasound guideline (1/3-octave band at the ear, occupational consensus at
@@ -379,7 +391,8 @@ def report_html(plan, rig_text: str | None = None, plots=PLOT_ORDER) -> str:
     ]
     for kind, svg in drawn:
         parts.append(f'<figure id="plot-{kind}">{svg}\n'
-                     f"<figcaption>{_e(PLOT_TITLES.get(kind, kind))} "
+                     f"<figcaption><strong>{_e(PLOT_TITLES.get(kind, kind))}.</strong> "
+                     f"{_e(PLOT_HINTS.get(kind, ''))} "
                      f"(<code>strobeplan plot RIG --kind {kind}</code>)</figcaption></figure>")
     if missing:
         parts.append('<p class="missing">Not drawn:</p><ul class="missing">'

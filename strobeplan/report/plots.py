@@ -559,7 +559,8 @@ def plot_tradeoff(plan, ax=None, result=None, cloud_widths: int = 60):
         ax.plot([b.retention], [b.light_per_frame], linestyle="none", marker="*",
                 markersize=14, color=INK,
                 label=f"chosen: {_si(b.pulse_width_s, 'time')}, "
-                      f"{_si(b.series_resistor_ohm, 'resistance')}, every {b.every}")
+                      f"{_si(b.series_resistor_ohm, 'resistance')}, every {b.every}"
+                      + (f" (limited by {b.limited_by})" if b.limited_by else ""))
     else:
         ax.text(0.5, 0.5, "no feasible design", transform=ax.transAxes, ha="center")
     ax.set_yscale("log")
