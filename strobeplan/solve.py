@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import numpy as np
+
 from . import timing
 from .checks import run_checks
 from .plan import Plan
@@ -18,7 +20,14 @@ def solve(rig) -> Plan:
 
     Stage order matters: air (speed of sound) and flash (delays, edges, centroid) feed the
     timing core; later stages read the timing (flashes per frame, duty) and one another.
+    Floating-point overflow in an absurd but valid rig becomes inf/nan in a figure (shown as
+    null, with the checks saying why) rather than a warning on stderr.
     """
+    with np.errstate(over="ignore", divide="ignore", invalid="ignore", under="ignore"):
+        return _solve(rig)
+
+
+def _solve(rig) -> Plan:
     plan = Plan(rig=rig)
     air_stage.build(rig, plan)
     flash_stage.build(rig, plan)
