@@ -9,6 +9,7 @@ installs it (.ci/run).
 from __future__ import annotations
 
 import re
+import shutil
 import subprocess
 from pathlib import Path
 
@@ -20,7 +21,7 @@ from strobeplan.rig import load_rig, loads_rig
 from strobeplan.solve import solve
 from tests.conftest import example, run_cli
 
-CHROMIUM = Path("/usr/bin/chromium")
+CHROMIUM = Path(shutil.which("chromium") or "/usr/bin/chromium")  # Debian package chromium
 FLAGS = ["--headless", "--no-sandbox", "--disable-gpu", "--no-first-run",
          "--disable-background-networking", "--disable-component-update", "--disable-sync",
          "--hide-scrollbars"]
