@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import copy
+import tomllib
 from pathlib import Path
 
 import pytest
@@ -14,6 +16,32 @@ EXAMPLES = ("levitator-40k", "rangefinder-58k", "unsafe-bench")
 
 def example(name: str) -> Path:
     return CONFIGS / f"{name}.toml"
+
+
+BASES = {name: tomllib.loads(example(name).read_text()) for name in EXAMPLES}
+
+
+def patched(base: str, patch: dict) -> dict:
+    """A bundled example's dict with dotted keys replaced (None deletes the key)."""
+    raw = copy.deepcopy(BASES[base])
+    for dotted, value in patch.items():
+        node = raw
+        parts = dotted.split(".")
+        for p in parts[:-1]:
+            node = node.setdefault(p, {})
+        if value is None:
+            node.pop(parts[-1], None)
+        else:
+            node[parts[-1]] = value
+    return raw
+
+
+def plan_of(base: str, patch: dict | None = None):
+    """Solve a patched bundled example."""
+    from strobeplan.rig import rig_from_dict
+    from strobeplan.solve import solve
+
+    return solve(rig_from_dict(patched(base, patch or {})))
 
 
 def run_cli(*args, input=None):

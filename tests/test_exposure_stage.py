@@ -6,20 +6,14 @@ library, not read back from the module under test.
 
 from __future__ import annotations
 
-import copy
 import json
 import math
-import tomllib
 
 import numpy as np
 import pytest
 from acoustic_toolbox.atmosphere import Atmosphere
 
-from strobeplan.rig import rig_from_dict
-from strobeplan.solve import solve
-from tests.conftest import EXAMPLES, example, run_cli
-
-BASES = {name: tomllib.loads(example(name).read_text()) for name in EXAMPLES}
+from tests.conftest import BASES, EXAMPLES, example, plan_of, run_cli
 
 # Design §4, binding keys.
 AIR_KEYS = {"speed_of_sound_m_s", "density_kg_m3", "absorption_db_m"}
@@ -32,22 +26,8 @@ MY_CODES = {"exposure.retention_low", "exposure.phosphor_dominates",
             "optics.near_field", "safety.ultrasound_exposure"}
 
 
-def patched(base: str, patch: dict) -> dict:
-    raw = copy.deepcopy(BASES[base])
-    for dotted, value in patch.items():
-        node = raw
-        parts = dotted.split(".")
-        for p in parts[:-1]:
-            node = node.setdefault(p, {})
-        if value is None:
-            node.pop(parts[-1], None)
-        else:
-            node[parts[-1]] = value
-    return raw
 
 
-def plan_of(base: str, patch: dict | None = None):
-    return solve(rig_from_dict(patched(base, patch or {})))
 
 
 def codes(plan) -> set[str]:

@@ -7,18 +7,13 @@ without a reachability case fails here.
 
 from __future__ import annotations
 
-import copy
-import tomllib
-
 import pytest
 
 from strobeplan.checks import RULES, load_all
 from strobeplan.rig import rig_from_dict
 from strobeplan.solve import solve
-from tests.conftest import EXAMPLES, example
+from tests.conftest import patched
 from tests.test_power_stage import CASES as POWER_CASES
-
-BASES = {name: tomllib.loads(example(name).read_text()) for name in EXAMPLES}
 
 # code -> (base example, {dotted.path: new value or None to delete})
 CASES: dict[str, tuple[str, dict]] = {
@@ -70,18 +65,6 @@ CASES: dict[str, tuple[str, dict]] = {
 }
 
 
-def patched(base: str, patch: dict) -> dict:
-    raw = copy.deepcopy(BASES[base])
-    for dotted, value in patch.items():
-        node = raw
-        parts = dotted.split(".")
-        for p in parts[:-1]:
-            node = node.setdefault(p, {})
-        if value is None:
-            node.pop(parts[-1], None)
-        else:
-            node[parts[-1]] = value
-    return raw
 
 
 def test_every_registered_code_has_a_case():

@@ -11,7 +11,6 @@ import copy
 import json
 import math
 import re
-import tomllib
 
 import jsonschema
 import tomli_w
@@ -19,11 +18,10 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from strobeplan.schema import plan_schema
-from tests.conftest import EXAMPLES, example, run_cli
+from tests.conftest import BASES, EXAMPLES, example, run_cli
 
 VALIDATOR = jsonschema.Draft202012Validator(plan_schema())
 
-BASES = {name: tomllib.loads(example(name).read_text()) for name in EXAMPLES}
 
 BAD_VALUES = st.sampled_from([
     "nan Hz", "inf s", "-inf V", "NaN", "1e400 s", "-1 us", "0 s", "0 Hz", "5", 5, -3, 0,

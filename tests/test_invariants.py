@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import copy
-import tomllib
 
 import pytest
 from hypothesis import HealthCheck, given, settings
@@ -13,9 +12,7 @@ from strobeplan.cli import exit_code_for
 from strobeplan.rig import rig_from_dict
 from strobeplan.solve import solve
 from strobeplan.units import parse
-from tests.conftest import EXAMPLES, example, run_cli
-
-BASES = {name: tomllib.loads(example(name).read_text()) for name in EXAMPLES}
+from tests.conftest import BASES, EXAMPLES, example, run_cli
 
 
 def _bare_exposure_rig(freq, width, rise, tau, w, jitter):

@@ -7,9 +7,7 @@ issue 4 against the plan's own figures.
 
 from __future__ import annotations
 
-import copy
 import json
-import tomllib
 
 import numpy as np
 import pytest
@@ -18,11 +16,8 @@ from hypothesis import strategies as st
 from scipy.optimize import brentq
 
 from strobeplan.checks import RULES, load_all
-from strobeplan.rig import rig_from_dict
-from strobeplan.solve import solve
-from tests.conftest import EXAMPLES, example, run_cli
+from tests.conftest import EXAMPLES, example, plan_of, run_cli
 
-BASES = {name: tomllib.loads(example(name).read_text()) for name in EXAMPLES}
 BOUNDED = settings(max_examples=30, deadline=None)
 
 # design §4 (contract) keys, plus the ones this stage adds that other code relies on
@@ -36,22 +31,8 @@ KEYS = {
 POWER_PREFIXES = ("led.", "switch.", "supply.", "stuck_on.")
 
 
-def patched(base, patch):
-    raw = copy.deepcopy(BASES[base])
-    for dotted, value in patch.items():
-        node = raw
-        parts = dotted.split(".")
-        for p in parts[:-1]:
-            node = node.setdefault(p, {})
-        if value is None:
-            node.pop(parts[-1], None)
-        else:
-            node[parts[-1]] = value
-    return raw
 
 
-def plan_of(base, patch=None):
-    return solve(rig_from_dict(patched(base, patch or {})))
 
 
 def power_findings(plan, severity=None):
