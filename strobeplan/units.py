@@ -244,4 +244,4 @@ def si_number(value: float, digits: int = 4) -> str:
 
 
 def _fmt(x: float, digits: int) -> str:
-    return f"{x:.{digits}g}"
+    return f"{x + 0.0:.{digits}g}"  # + 0.0 turns -0.0 into 0.0

@@ -183,3 +183,15 @@ def test_cautions_follow_the_findings():
     assert "datasheets, local codes and licensed practice" in out
     # the rangefinder (no hazard, 102 dB at 1 m) prints none
     assert "caution" not in run_cli("check", example("rangefinder-58k")).stdout.lower()
+
+
+def test_text_labels_and_units():
+    # A charge field named *_c is coulomb, not degC; duties read as percentages; no "-0".
+    from strobeplan.report.text import label_and_value
+
+    assert label_and_value("pulse_charge_c", 8.2e-6) == ("pulse charge", "8.2 uC")
+    assert label_and_value("junction_peak_c", 31.0) == ("junction peak", "31 \u00b0C")
+    assert label_and_value("duty_in_burst", 0.04) == ("duty in burst", "4 %")
+    assert label_and_value("phase_per_kelvin_deg", 4.5) == ("phase per kelvin", "4.5 deg/K")
+    assert label_and_value("detuning_db", -0.0) == ("detuning", "0 dB")
+    assert label_and_value("clock_drift_deg_per_s", None) == ("clock drift", "n/a")

@@ -7,17 +7,29 @@ import math
 
 from ..units import render
 
-# Field-name suffix -> (unit kind for render, how many trailing characters to strip).
+# Field-name suffix -> (unit kind for render, or a fixed unit text; how much of the suffix
+# to drop from the label: None drops all of it).
 _SUFFIX_KINDS = [
-    ("_deg_per_s", None, "deg/s"), ("_kelvin_deg", None, "deg/K"),
-    ("_ppm", None, "ppm"), ("_db_m", None, "dB/m"), ("_kg_m3", None, "kg/m3"),
-    ("_m_s", None, "m/s"), ("_ticks", None, "ticks"),
-    ("_s", "time", None), ("_hz", "frequency", None), ("_v", "voltage", None),
-    ("_a", "current", None), ("_w", "power", None), ("_j", "energy", None),
-    ("_ohm", "resistance", None), ("_m", "length", None), ("_k", "temperature_difference", None),
-    ("_db", None, "dB"), ("_deg", None, "deg"), ("_rad", None, "rad"), ("_pa", "pressure", None),
-    ("_f", "capacitance", None), ("_c", None, "\u00b0C"),
+    ("_deg_per_s", None, "deg/s", None), ("_per_kelvin_deg", None, "deg/K", 4),
+    ("_ppm", None, "ppm", None), ("_db_m", None, "dB/m", None),
+    ("_kg_m3", None, "kg/m3", None), ("_m_s", None, "m/s", None), ("_ticks", None, "ticks", None),
+    ("charge_c", "charge", None, 2),  # a charge in coulomb, not a temperature in degC
+    ("_s", "time", None, None), ("_hz", "frequency", None, None), ("_v", "voltage", None, None),
+    ("_a", "current", None, None), ("_w", "power", None, None), ("_j", "energy", None, None),
+    ("_ohm", "resistance", None, None), ("_m", "length", None, None),
+    ("_k", "temperature_difference", None, None), ("_db", None, "dB", None),
+    ("_deg", None, "deg", None), ("_rad", None, "rad", None), ("_pa", "pressure", None, None),
+    ("_f", "capacitance", None, None), ("_c", None, "\u00b0C", None),
 ]
+# Dimensionless fields read better as percentages.
+_PERCENT = ("duty_in_burst", "duty_average", "relative_humidity", "brightness_change",
+            "tolerance", "rating_duty", "min_retention")
+
+
+def _label(name: str, suffix: str, keep: int | None) -> str:
+    cut = len(suffix) if keep is None else keep
+    return name[: len(name) - cut].replace("_", " ")
+
 
 CAUTION = ("Caution: strobeplan is a planning aid, not a safety certification. Overdriven LEDs "
            "can be bright enough to injure eyes; storage capacitors hold dangerous charge; "
@@ -28,18 +40,18 @@ CAUTION = ("Caution: strobeplan is a planning aid, not a safety certification. O
 def label_and_value(name: str, value) -> tuple[str, str]:
     """Readable label and rendered value for a section field."""
     if isinstance(value, bool) or value is None or isinstance(value, str):
-        shown = "n/a" if value is None else str(value)
-        label = name
-        for suffix, _kind, _unit in _SUFFIX_KINDS:
+        shown = "n/a" if value is None else (str(value) or "-")
+        for suffix, _kind, _unit, keep in _SUFFIX_KINDS:
             if value is None and name.endswith(suffix):
-                label = name[: -len(suffix)]
-                break
-        return label.replace("_", " "), shown
+                return _label(name, suffix, keep), shown
+        return name.replace("_", " "), shown
     if isinstance(value, (list, tuple)):
         return name.replace("_", " "), ", ".join(_number(v) for v in value)
-    for suffix, kind, unit in _SUFFIX_KINDS:
+    if name in _PERCENT:
+        return name.replace("_", " "), render(float(value), "ratio")
+    for suffix, kind, unit, keep in _SUFFIX_KINDS:
         if name.endswith(suffix):
-            label = name[: -len(suffix)].replace("_", " ")
+            label = _label(name, suffix, keep)
             if kind is not None:
                 return label, render(float(value), kind)
             return label, f"{_number(value)} {unit}"
@@ -57,7 +69,7 @@ def _number(v) -> str:
         return str(v)
     if not math.isfinite(x):
         return "n/a"
-    return f"{x:.4g}"
+    return f"{x + 0.0:.4g}" if x != 0 else "0"
 
 
 def plan_text(plan) -> str:
