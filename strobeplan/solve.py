@@ -18,8 +18,9 @@ from .stages import power as power_stage
 def solve(rig) -> Plan:
     """Compute every section the rig has inputs for, then run all checks.
 
-    Stage order matters: air (speed of sound) and flash (delays, edges, centroid) feed the
-    timing core; later stages read the timing (flashes per frame, duty) and one another.
+    Stage order matters: air (speed of sound), flash (delays, edges, centroid) and the
+    trigger link (its edge's delay to the camera's VIH) feed the timing core; later stages
+    read the timing (flashes per frame, duty) and one another.
     Floating-point overflow in an absurd but valid rig becomes inf/nan in a figure (shown as
     null, with the checks saying why) rather than a warning on stderr.
     """
@@ -31,11 +32,11 @@ def _solve(rig) -> Plan:
     plan = Plan(rig=rig)
     air_stage.build(rig, plan)
     flash_stage.build(rig, plan)
+    link_stage.build(rig, plan)  # before timing: the trigger edge delays the exposure
     plan.lock = timing.build(rig, plan)
     exposure_stage.build(rig, plan)
     optics_stage.build(rig, plan)
     power_stage.build(rig, plan)
-    link_stage.build(rig, plan)
     plan.findings = run_checks(plan)
     return plan
 

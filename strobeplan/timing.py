@@ -373,7 +373,13 @@ def build(rig, plan) -> Lock:
             frame_ticks = max(1, round(clock / cam.frame_rate / flash_ticks)) * flash_ticks
         frame_rate = clock / frame_ticks
         readout = cam.readout if cam.shutter == "rolling" else 0.0
-        lead = cam.trigger_latency + readout
+        # The divider's edge reaches the camera's VIH late (worst case): the exposure opens
+        # that much later, so the trigger goes that much earlier.
+        link = getattr(plan, "trigger_link", None)
+        link_delay = getattr(link, "delay_to_vih_s", None)
+        if link_delay is None or not math.isfinite(link_delay):
+            link_delay = 0.0  # never reaches VIH: trigger_link.below_vih says so
+        lead = cam.trigger_latency + readout + link_delay
         window = cam.exposure - readout
         trigger, n_frame, first = align_camera(edge, flash_ticks, clock, light_delay,
                                                light_length, lead, window)

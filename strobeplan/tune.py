@@ -352,6 +352,7 @@ def _timing_table(ctx: _Context, widths, everys) -> _Timing:
             plan = Plan(rig=r)
             plan.air = ctx.plan.air
             plan.flash = flashes[i]
+            plan.trigger_link = ctx.plan.trigger_link
             timing.build(r, plan)
             t = plan.timing
             pat = power_stage.flash_pattern(r, t)

@@ -170,3 +170,14 @@ def test_divider_text_output():
 def test_divider_bad_input_exits_2(args, word):
     r = run_cli("divider", *args)
     assert r.exit_code == 2 and word in r.output and "Traceback" not in r.output
+
+
+def test_camera_trigger_is_advanced_by_the_divider_delay():
+    # The exposure opens trigger latency + the divider's worst delay to VIH after the
+    # trigger tick; the timing core places the trigger that much earlier.
+    plan = solve(_rig("levitator-40k"))
+    t, cam = plan.timing, plan.rig.camera
+    opened = t.window_start_s - t.camera_trigger_offset_ticks * t.tick_s
+    assert opened == pytest.approx(cam.trigger_latency + plan.trigger_link.delay_to_vih_s,
+                                   rel=1e-12)
+    assert plan.trigger_link.delay_to_vih_s > 0

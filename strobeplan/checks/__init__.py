@@ -27,10 +27,10 @@ def load_all() -> None:
     _loaded = True
 
 
-def run_checks(plan):
+def run_checks(plan, only: tuple[str, ...] | None = None):
     """All findings for a plan (see :func:`~strobeplan.checks.registry.run_rules`)."""
     load_all()
-    return run_rules(plan)
+    return run_rules(plan, only)
 
 
 def findings_markdown() -> str:

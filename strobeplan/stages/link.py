@@ -216,23 +216,11 @@ def standalone(source: str, destination: str, **kwargs) -> Plan:
 
     Only the ``trigger_link.*`` rules run (the others need sections this plan lacks).
     """
-    from ..checks import RULES, load_all
-    from ..plan import SEVERITY_RANK, Finding
+    from ..checks import run_checks
 
     src = resolve_family(source, "--from")
     dst = resolve_family(destination, "--to")
     plan = Plan(rig=SimpleNamespace(name=f"divider {src.name} -> {dst.name}"))
     plan.trigger_link = link_section(src, dst, **kwargs)
-    load_all()
-    found = []
-    for code, r in RULES.items():
-        if not code.startswith("trigger_link."):
-            continue
-        result = r.func(plan)
-        for h in [] if result is None else result if isinstance(result, list) else [result]:
-            found.append(Finding(code=code, severity=r.severity, subject=h.subject or r.subject,
-                                 message=h.message, value=h.value, limit=h.limit, unit=h.unit,
-                                 hint=h.hint or r.fix))
-    found.sort(key=lambda f: (SEVERITY_RANK[f.severity], f.code))
-    plan.findings = found
+    plan.findings = run_checks(plan, only=("trigger_link.",))
     return plan
