@@ -200,6 +200,13 @@ def test_timing_frame_holds_the_burst(levitator):
     assert starts.min() >= x0 and starts.max() + light <= x0 + width + 1e-12
     labels = [t.get_text() for t in frame.get_yticklabels()]
     assert labels == ["flashes", "exposure"]
+    # the exposure opens after the trigger, its latency (rig: 25 us) and the divider edge's
+    # worst delay to VIH
+    t = levitator.timing
+    trigger = one(frame, "camera trigger").get_xdata()[0]
+    assert trigger == pytest.approx(t.camera_trigger_offset_ticks * t.tick_s)
+    assert x0 == pytest.approx(trigger + 25e-6 + levitator.trigger_link.delay_to_vih_s,
+                               abs=1e-12)
 
 
 def test_timing_without_camera_draws_the_train():

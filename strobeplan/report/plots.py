@@ -187,7 +187,10 @@ def _frame_panel(plan, ax):
     if cam is not None:
         lanes["exposure"] = 1.45
         trigger = (t.camera_trigger_offset_ticks or 0) * t.tick_s
-        expo0 = trigger + cam.trigger_latency
+        # The plan's window opens after the trigger latency, the trigger edge's delay and,
+        # for a rolling shutter, the readout; the first row's exposure starts before it.
+        readout = (cam.readout or 0.0) if cam.shutter == "rolling" else 0.0
+        expo0 = t.window_start_s - readout
         ax.broken_barh([(expo0, cam.exposure)], (1.25, 0.4), facecolors="white",
                        edgecolors=INK, hatch="//",
                        label=f"camera exposure ({_si(cam.exposure, 'time')})")
