@@ -7,6 +7,10 @@ periods, so the flash is locked to the drive by construction; its compare value 
 in ticks after the drive period starts) places the optical centroid at the requested wave
 phase *at the view*, after the drive chain's phase delay and the acoustic travel time.
 
+Phase convention: the drive period starts (tick 0) at the drive's rising zero crossing
+(sine table index 0, or the rising edge of a square drive), so the wave at the view is
+sin(2 pi f (t - chain delay)); phase 0 deg is its rising zero crossing, 90 deg its crest.
+
 The functions here are pure over floats and ints (no pydantic): :func:`build` is the stage
 that reads the rig and stores the ``timing`` and ``drive`` sections on the plan.
 
