@@ -12,7 +12,6 @@ efficiency 0 (conservative: all electrical power heats the junction), no phospho
 global shutter, 8 bit; trigger link E24 with the series' own tolerance.
 """
 
-from __future__ import annotations
 
 import difflib
 import math
