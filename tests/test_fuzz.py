@@ -83,6 +83,19 @@ def mutated_rig(draw):
     return raw
 
 
+def _rig_file(raw, tmp_path_factory):
+    """Write ``raw`` as a TOML rig in a fresh folder: (folder, path, text), or None when the
+    mutation is not representable as TOML (e.g. an empty key): nothing to feed then."""
+    try:
+        text = tomli_w.dumps(raw)
+    except (TypeError, ValueError):
+        return None
+    d = tmp_path_factory.mktemp("fuzz")
+    rig = d / "rig.toml"
+    rig.write_text(text, encoding="utf-8")
+    return d, rig, text
+
+
 def _reject_constants(token):
     raise AssertionError(f"non-finite number {token} in JSON output")
 
@@ -109,12 +122,10 @@ FUZZ = settings(max_examples=120, deadline=None,
 @FUZZ
 @given(raw=mutated_rig())
 def test_mutated_rigs_check(raw, tmp_path_factory):
-    try:
-        text = tomli_w.dumps(raw)
-    except (TypeError, ValueError):
-        return  # not representable as TOML (e.g. an empty key); nothing to feed
-    rig = tmp_path_factory.mktemp("fuzz") / "rig.toml"
-    rig.write_text(text, encoding="utf-8")
+    made = _rig_file(raw, tmp_path_factory)
+    if made is None:
+        return
+    _d, rig, text = made
     _assert_contract(run_cli("check", rig, "--json"))
 
 
@@ -122,13 +133,10 @@ def test_mutated_rigs_check(raw, tmp_path_factory):
           suppress_health_check=[HealthCheck.too_slow, HealthCheck.function_scoped_fixture])
 @given(raw=mutated_rig(), steps=st.integers(1, 50))
 def test_mutated_rigs_schedule(raw, steps, tmp_path_factory):
-    try:
-        text = tomli_w.dumps(raw)
-    except (TypeError, ValueError):
+    made = _rig_file(raw, tmp_path_factory)
+    if made is None:
         return
-    d = tmp_path_factory.mktemp("fuzz")
-    rig = d / "rig.toml"
-    rig.write_text(text, encoding="utf-8")
+    d, rig, text = made
     r = run_cli("schedule", rig, "--steps", steps, "--format", "json", "-o", d / "s.json")
     assert r.exit_code in (0, 2), r.output
     assert "Traceback" not in r.output
@@ -216,13 +224,10 @@ SLOW = settings(max_examples=12, deadline=None,
     ["timing", "pulse", "thermal", "divider", "sweep", "tradeoff"]),
     suffix=st.sampled_from([".png", ".svg"]))
 def test_mutated_rigs_plot(raw, kind, suffix, tmp_path_factory):
-    try:
-        text = tomli_w.dumps(raw)
-    except (TypeError, ValueError):
+    made = _rig_file(raw, tmp_path_factory)
+    if made is None:
         return
-    d = tmp_path_factory.mktemp("fuzz")
-    rig = d / "rig.toml"
-    rig.write_text(text, encoding="utf-8")
+    d, rig, text = made
     r = run_cli("plot", rig, "--kind", kind, "-o", d / f"p{suffix}", "--dpi", "30")
     _one_line_or_success(r, (0,))
     assert (d / f"p{suffix}").exists() == (r.exit_code == 0)
@@ -232,13 +237,10 @@ def test_mutated_rigs_plot(raw, kind, suffix, tmp_path_factory):
           suppress_health_check=[HealthCheck.too_slow, HealthCheck.function_scoped_fixture])
 @given(raw=mutated_rig())
 def test_mutated_rigs_report(raw, tmp_path_factory):
-    try:
-        text = tomli_w.dumps(raw)
-    except (TypeError, ValueError):
+    made = _rig_file(raw, tmp_path_factory)
+    if made is None:
         return
-    d = tmp_path_factory.mktemp("fuzz")
-    rig = d / "rig.toml"
-    rig.write_text(text, encoding="utf-8")
+    d, rig, text = made
     r = run_cli("report", rig, "-o", d / "r.html")
     _one_line_or_success(r, (0, 1))
     assert (d / "r.html").exists() == (r.exit_code != 2)
@@ -250,12 +252,10 @@ def test_mutated_rigs_report(raw, tmp_path_factory):
 @SLOW
 @given(raw=mutated_rig())
 def test_mutated_rigs_tune(raw, tmp_path_factory):
-    try:
-        text = tomli_w.dumps(raw)
-    except (TypeError, ValueError):
+    made = _rig_file(raw, tmp_path_factory)
+    if made is None:
         return
-    rig = tmp_path_factory.mktemp("fuzz") / "rig.toml"
-    rig.write_text(text, encoding="utf-8")
+    _d, rig, text = made
     r = run_cli("tune", rig, "--widths", "6", "--max-every", "2", "--json")
     _one_line_or_success(r, (0, 1))
     if r.exit_code != 2:
