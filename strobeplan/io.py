@@ -22,6 +22,15 @@ def check_target(path: str | Path) -> Path:
     return p
 
 
+def _target_mode(p: Path) -> int:
+    try:
+        return p.stat().st_mode & 0o7777
+    except OSError:
+        umask = os.umask(0)
+        os.umask(umask)
+        return 0o666 & ~umask
+
+
 def write_atomic(path: str | Path, data: str | bytes) -> None:
     """Write ``data`` to ``path`` so that readers see the old file or the whole new one."""
     p = check_target(path)
@@ -32,6 +41,9 @@ def write_atomic(path: str | Path, data: str | bytes) -> None:
             fh.write(raw)
             fh.flush()
             os.fsync(fh.fileno())
+        # mkstemp makes the file 0600; give it the mode a plain open() would (or keep the
+        # mode of the file it replaces).
+        os.chmod(tmp, _target_mode(p))
         os.replace(tmp, p)
     except OSError as exc:
         try:

@@ -506,8 +506,12 @@ def schedule(rig, plan, lock: Lock, steps: int | None = None) -> Schedule:
     base = rig.strobe.phase
     cam = rig.camera
 
-    def frame_row(k: int, target: float, edge_in_frame: int, spacing: int) -> ScheduleRow:
-        """Row for frame k whose first flash slot is ``edge_in_frame`` ticks after its start."""
+    def frame_row(k: int, target, edge_in_frame: int, spacing: int) -> ScheduleRow:
+        """Row for frame k whose first flash slot is ``edge_in_frame`` ticks after its start.
+
+        ``target`` is the intended phase [rad], or (slow motion) a function of the absolute
+        tick of the flash actually seen first in the window.
+        """
         start = k * frame_ticks
         if cam is not None:
             trig, n, first = align_camera(edge_in_frame, spacing, clock, lock.light_delay,
@@ -520,6 +524,8 @@ def schedule(rig, plan, lock: Lock, steps: int | None = None) -> Schedule:
             phase_of_edge(edge_in_frame % nd, lock.frequency, clock, lock.chain_delay,
                           lock.flash_delay)
         edge = (edge_abs % nd) if t.mode == "slow_motion" else edge_in_frame % nd
+        if callable(target):
+            target = target(edge_abs)
         return ScheduleRow(k, math.degrees(target), math.degrees(achieved),
                            math.degrees(wrap_error(achieved - target)), edge, edge / clock,
                            start + trig, edge_abs if (n is None or n) else None, n)
@@ -532,8 +538,10 @@ def schedule(rig, plan, lock: Lock, steps: int | None = None) -> Schedule:
             start = k * frame_ticks
             j = max(0, math.ceil((start - edge0) / lock.flash_ticks))
             first_abs = edge0 + j * lock.flash_ticks
-            target = wrap_phase(base + TWO_PI * t.apparent_frequency_hz * (first_abs - edge0)
-                                / clock)
+
+            def target(edge_abs, _f=t.apparent_frequency_hz):
+                return wrap_phase(base + TWO_PI * _f * (edge_abs - edge0) / clock)
+
             rows.append(frame_row(k, target, first_abs - start, lock.flash_ticks))
     else:
         if steps is not None:

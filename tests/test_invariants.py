@@ -96,3 +96,21 @@ def test_output_into_unwritable_places_is_exit_2(tmp_path):
         r = run_cli(*args)
         assert r.exit_code == 2, args
         assert "Traceback" not in r.output
+
+
+def test_outputs_get_ordinary_permissions(tmp_path):
+    # A new output gets 0666 & ~umask like open() would (mkstemp alone gives 0600); a
+    # replaced output keeps its mode.
+    import os
+    import stat
+
+    umask = os.umask(0o022)
+    try:
+        out = tmp_path / "s.csv"
+        assert run_cli("schedule", example("levitator-40k"), "-o", out).exit_code == 0
+        assert stat.S_IMODE(out.stat().st_mode) == 0o644
+        out.chmod(0o640)
+        assert run_cli("schedule", example("levitator-40k"), "-o", out).exit_code == 0
+        assert stat.S_IMODE(out.stat().st_mode) == 0o640
+    finally:
+        os.umask(umask)

@@ -226,3 +226,16 @@ def test_phase_per_kelvin_matches_finite_difference():
     f = plan.timing.drive_frequency_hz
     dphi = 360 * f * 0.5 * (1 / speeds[0] - 1 / speeds[1])
     assert plan.timing.phase_per_kelvin_deg == pytest.approx(dphi, rel=1e-3)
+
+
+def test_slow_motion_schedule_errors_are_only_the_base_rounding():
+    # Each flash advances the seen phase by 2 pi s/N_d and the target by 2 pi f_app P'/clock,
+    # the same number (f_app = s clock/(N_d P')), so every row's error equals the first
+    # flash's rounding error, within float rounding (derivation in timing.slow_motion_step).
+    cam = {"exposure": "1 ms", "frame_rate": "50 Hz"}
+    plan = solve(_rig(100e6, 40e3, every=40, pulse=1e-6, camera=cam,
+                      sweep={"slow_motion": "2 Hz"}))
+    sched = build_schedule(plan, steps=30)
+    errs = [r.phase_error_deg for r in sched.rows]
+    assert max(errs) - min(errs) < 1e-6
+    assert abs(errs[0]) <= 0.5 * plan.timing.phase_resolution_deg + 1e-9
