@@ -27,6 +27,8 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
+import numpy as np
+
 from .physics import air as air_model
 from .physics import drive as drive_model
 from .plan import Section
@@ -89,6 +91,25 @@ def wrap_error(phase: float) -> float:
     return (phase + math.pi) % TWO_PI - math.pi
 
 
+def time_of_phase(phase: float, frequency: float, chain_delay: float) -> float:
+    """Time after the drive period starts when the wave at the view has ``phase``. [s]
+
+    The first such time at or after the chain delay (phase wrapped to [0, 2 pi)).
+    """
+    return chain_delay + wrap_phase(phase) / (TWO_PI * frequency)
+
+
+def wave_at_view(time, frequency: float, chain_delay: float):
+    """The wave at the view, sin(2 pi f (t - chain delay)), relative amplitude. [1]
+
+    Parameters
+    ----------
+    time : float or ndarray
+        Time after the drive period starts. [s]
+    """
+    return np.sin(TWO_PI * frequency * (np.asarray(time, dtype=float) - chain_delay))
+
+
 def edge_ticks_for_phase(phase: float, frequency: float, clock: float, period_ticks: int,
                          chain_delay: float, flash_delay: float) -> int:
     """Compare value (ticks after the drive period starts) that puts the optical centroid
@@ -109,7 +130,7 @@ def edge_ticks_for_phase(phase: float, frequency: float, clock: float, period_ti
     flash_delay : float
         Timer edge to optical centroid (driver, switch, LED). [s]
     """
-    t_target = chain_delay + wrap_phase(phase) / (TWO_PI * frequency)
+    t_target = time_of_phase(phase, frequency, chain_delay)
     return int(round((t_target - flash_delay) * clock)) % period_ticks
 
 

@@ -258,7 +258,9 @@ def _cautions(plan) -> str:
     charge = "<li><strong>Stored charge.</strong> Storage capacitors stay charged after the " \
              "supply is switched off."
     if rig.supply is not None:
-        energy = 0.5 * rig.supply.storage_capacitance * rig.supply.voltage**2
+        from ..physics.supply import stored_energy
+
+        energy = stored_energy(rig.supply.storage_capacitance, rig.supply.voltage)
         charge += (f" This rig stores {_e(render(energy, 'energy'))} in "
                    f"{_e(_micro(render(rig.supply.storage_capacitance, 'capacitance')))} at "
                    f"{_e(render(rig.supply.voltage, 'voltage'))}.")

@@ -21,6 +21,7 @@ import math
 
 import numpy as np
 
+from .. import timing
 from ..errors import MISSING, RigError
 
 KINDS = ("timing", "pulse", "thermal", "tradeoff", "divider", "sweep")
@@ -170,7 +171,7 @@ def _drive_period_curves(plan, n: int = 2001) -> dict[str, np.ndarray]:
         drive = np.where(np.mod(phase, 2 * np.pi) < np.pi, 1.0, -1.0)
     else:  # sine-weighted PWM: its reference (the fundamental the filter passes)
         drive = np.sin(phase)
-    wave = np.sin(2.0 * np.pi * f * (time - t.chain_delay_s))
+    wave = timing.wave_at_view(time, f, t.chain_delay_s)
     width, rise, fall, w, tau = _pulse_params(plan)
     gate_open = np.mod(t.flash_edge_s + fl.delay_s, period)
     since_gate = np.mod(time - gate_open, period)
@@ -252,11 +253,11 @@ def plot_timing(plan, ax=None):
     period = t.drive_period_ticks * t.tick_s
     f = t.drive_frequency_hz
     t_got = math.fmod(t.flash_edge_s + t.flash_delay_s, period)
-    t_req = t.chain_delay_s + math.radians(t.phase_requested_deg) / (2 * math.pi * f)
+    t_req = timing.time_of_phase(math.radians(t.phase_requested_deg), f, t.chain_delay_s)
     t_req = t_got + ((t_req - t_got + period / 2) % period - period / 2)  # nearest to t_got
     ax_zoom.axvline(t_req, color=INK, linestyle="-.",
                     label=f"requested phase {_deg(t.phase_requested_deg)}")
-    ax_zoom.plot([t_got], [math.sin(2 * math.pi * f * (t_got - t.chain_delay_s))],
+    ax_zoom.plot([t_got], [float(timing.wave_at_view(t_got, f, t.chain_delay_s))],
                  linestyle="none", marker="o", markerfacecolor="white", color=INK,
                  label=f"optical centroid (achieved {_deg(t.phase_achieved_deg)})")
     ax_zoom.set_xlim(time[0], time[-1])
@@ -348,13 +349,7 @@ def plot_pulse(plan, ax=None):
 def junction_trace(plan, time):
     """Junction temperature in the periodic steady state of the plan's flash pattern.
 
-    Superposition of the Foster step response (:func:`strobeplan.physics.thermal.step_rise`):
-    each flash adds ``P*Zth(t - start) - P*Zth(t - end)``. The frames of the last ``M``
-    frame periods are summed flash by flash (``M`` covers ten time constants of every term
-    up to 50 frame periods); older frames enter as their mean heat, ``P_mean*(Rth -
-    Zth(age))`` at the midpoint of their age, which is exact for terms that are slow
-    against the frame. The peak agrees with the exact burst peak of the plan
-    (:func:`strobeplan.physics.thermal.burst_peak`, tested).
+    Gathers the plan's flash pattern for :func:`strobeplan.physics.thermal.burst_trace`.
 
     Parameters
     ----------
@@ -371,28 +366,15 @@ def junction_trace(plan, time):
     from ..physics import thermal as th
 
     led, rig = plan.led, plan.rig
-    r = np.array([t.resistance for t in rig.led.thermal])
-    tau = np.array([t.time_constant for t in rig.led.thermal])
     width = rig.strobe.pulse_width
-    power = led.heat_per_pulse_j / width
     spacing = led.flash_spacing_s
     n = max(1, int(led.flashes_per_burst))
     frame = led.frame_period_s if led.pattern == "burst" else spacing
     first = _first_light(plan) if led.pattern == "burst" else 0.0
-    starts = first + spacing * np.arange(n)
-    slow = tau[tau <= 50.0 * frame]
-    m = int(np.clip(math.ceil(10.0 * (slow.max() if slow.size else 0.0) / frame), 2, 400))
-    t = np.asarray(time, dtype=float)
-    ages = t[:, None] + frame * np.arange(m)[None, :]  # time since each frame's start
-    rise = np.zeros_like(t)
-    for s0 in starts:  # n flashes (the pattern), vectorised over time and frames
-        on = np.clip(ages - s0, 0.0, None)
-        off = np.clip(ages - s0 - width, 0.0, None)
-        rise += (th.step_rise(power, on, r, tau) - th.step_rise(power, off, r, tau)).sum(axis=1)
-    mean_power = power * width * n / frame
-    centroid = float(starts.mean() + width / 2)
-    age_old = t + m * frame - centroid - frame / 2
-    rise += mean_power * (r.sum() - th.zth(age_old, r, tau))
+    rise = th.burst_trace(time, led.heat_per_pulse_j / width, width,
+                          first + spacing * np.arange(n), frame,
+                          [t.resistance for t in rig.led.thermal],
+                          [t.time_constant for t in rig.led.thermal])
     return rig.led.ambient + rise
 
 

@@ -5,6 +5,7 @@ of step responses over many periods, scipy.integrate.solve_ivp of the RC network
 """
 
 import numpy as np
+import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 from numpy.testing import assert_allclose
@@ -158,3 +159,18 @@ def test_burst_peak_monotone(p, log_width, n, spacing_factor, k):
     assert th.burst_peak(p * k, width, spacing, n, frame, R, TAU) >= base * (1 - 1e-12)
     assert th.burst_peak(p, width * k, spacing, n, frame, R, TAU) >= base * (1 - 1e-12)
     assert th.burst_peak(p, width, spacing, n + 1, frame, R, TAU) >= base * (1 - 1e-12)
+
+
+def test_burst_trace_peak_matches_exact_burst_peak():
+    # The sampled steady-state trace (superposition) peaks at the exact closed form of
+    # burst_peak; network of references.md "Power stage" (R = [0.05, 0.2, 0.5, 0.25] K/W,
+    # tau = [10 us, 100 us, 1 ms, 10 ms]); 8 pulses of 10 us every 100 us, frames of 5 ms.
+    r = [0.05, 0.2, 0.5, 0.25]
+    tau = [10e-6, 100e-6, 1e-3, 10e-3]
+    starts = 1e-4 * np.arange(8)
+    end_last = starts[-1] + 10e-6
+    time = np.concatenate([np.linspace(0, 5e-3, 4001), [end_last]])
+    trace = th.burst_trace(time, 10.0, 10e-6, starts, 5e-3, r, tau)
+    exact = th.burst_peak(10.0, 10e-6, 1e-4, 8, 5e-3, r, tau)
+    assert trace.max() == pytest.approx(exact, rel=1e-4)
+    assert time[np.argmax(trace)] == pytest.approx(end_last, abs=2e-6)
