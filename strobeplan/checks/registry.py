@@ -4,26 +4,45 @@ A rule is a small function registered with :func:`rule`. It takes the plan and r
 None, one :class:`Hit` or a list of hits; the registry turns hits into
 :class:`~strobeplan.plan.Finding` objects carrying the rule's code and severity. One code
 has one severity (a condition that can be a warning or a hazard gets two codes).
+
+One rule serves ``check`` and ``tune``: a hit's condition is ``when`` (a bool, or a numpy
+bool array when the plan was solved for an array of designs), and its message and hint may
+be callables, formatted only for a scalar plan whose condition holds. A rule whose inputs
+depend on the design (pulse width, every, series resistor, supply voltage) must compute
+``when`` with numpy on the section fields, never branch on them with ``if``.
 """
 
 from __future__ import annotations
 
 from collections.abc import Callable
 from dataclasses import dataclass
+from typing import Any
 
 from ..plan import SEVERITIES, SEVERITY_RANK, Finding
 
 
 @dataclass(frozen=True)
 class Hit:
-    """What a rule found: the message, the figure and its limit (SI, with unit), a hint."""
+    """What a rule found: the message, the figure and its limit (SI, with unit), a hint.
 
-    message: str
-    value: float | None = None
-    limit: float | None = None
+    ``when`` is the condition (True, or a bool array over a grid of designs); ``message``
+    and ``hint`` are strings or callables returning one (called only for a scalar plan
+    whose condition holds, so they may format scalar figures).
+    """
+
+    message: str | Callable[[], str]
+    value: Any = None
+    limit: Any = None
     unit: str | None = None
-    hint: str | None = None
+    hint: str | Callable[[], str] | None = None
     subject: str | None = None
+    when: Any = True
+
+    def text(self) -> str:
+        return self.message() if callable(self.message) else self.message
+
+    def hint_text(self) -> str | None:
+        return self.hint() if callable(self.hint) else self.hint
 
 
 @dataclass(frozen=True)
@@ -58,6 +77,16 @@ def rule(code: str, severity: str, trigger: str, fix: str):
     return register
 
 
+def _scalar(x):
+    """A figure as a plain float (numpy 0-d values included); None stays None."""
+    if x is None or isinstance(x, (int, float, str)):
+        return x
+    try:
+        return float(x)
+    except (TypeError, ValueError):
+        return x
+
+
 def run_rules(plan, only: tuple[str, ...] | None = None) -> list[Finding]:
     """Every registered rule (or those whose code starts with one of ``only``) over the
     plan; findings sorted by severity, then code."""
@@ -70,10 +99,12 @@ def run_rules(plan, only: tuple[str, ...] | None = None) -> list[Finding]:
             continue
         hits = result if isinstance(result, list) else [result]
         for h in hits:
+            if not bool(h.when):
+                continue
             found.append(Finding(
                 code=r.code, severity=r.severity, subject=h.subject or r.subject,
-                message=h.message, value=h.value, limit=h.limit, unit=h.unit,
-                hint=h.hint or r.fix,
+                message=h.text(), value=_scalar(h.value), limit=_scalar(h.limit),
+                unit=h.unit, hint=h.hint_text() or r.fix,
             ))
     found.sort(key=lambda f: (SEVERITY_RANK[f.severity], f.code))
     return found
