@@ -227,8 +227,19 @@ def plot(rig, kind, output, dpi):
     from .report.plots import plot as draw
 
     with user_errors():
-        data = figure_bytes(draw(plan, kind), suffix[1:], dpi)
+        result = _search_for_plot(plan) if kind == "tradeoff" else None
+        data = figure_bytes(draw(plan, kind, tune_result=result), suffix[1:], dpi)
         write_atomic(output, data)
+
+
+def _search_for_plot(plan):
+    """The default design search of a solved rig (the trade-off plot draws it); None when
+    the rig has nothing to search (the plot then says which section is missing)."""
+    from . import tune as tuner
+
+    if plan.led is None or plan.supply is None:
+        return None
+    return tuner.tune(plan.rig)
 
 
 def _solve_with_text(rig_path: str):
@@ -261,7 +272,7 @@ def report(rig, output):
 
     plan, text = _solve_with_text(rig)
     with user_errors():
-        page = report_html(plan, rig_text=text)
+        page = report_html(plan, rig_text=text, tune_result=_search_for_plot(plan))
     _write_or_echo(page, output, rig)
 
 
@@ -269,8 +280,9 @@ def report(rig, output):
 @click.argument("rig", type=click.Path(allow_dash=True))
 @click.option("--min-retention", default=None, metavar="RATIO",
               help="Retention target, e.g. 90%  [default: strobe.min_retention]")
-@click.option("--min-margin", default="10K", show_default=True, metavar="KELVIN",
-              help="Smallest thermal margin to the junction limit.")
+@click.option("--min-margin", default=None, metavar="KELVIN",
+              help="Smallest thermal margin to the junction limit, e.g. 10K  "
+                   "[default: led.min_margin]")
 @click.option("--series", type=click.Choice(["E3", "E6", "E12", "E24", "E48", "E96", "E192"],
                                             case_sensitive=False),
               default="E24", show_default=True, help="E-series of the series resistor.")
@@ -300,62 +312,54 @@ def tune(rig, min_retention, min_margin, series, resistor_range, max_every, supp
     import time
 
     from . import tune as tuner
+    from .report.tune_text import result_text
     from .rig import loads_rig
+    from .rigedit import tuned_rig_text
 
     if write_rig is not None and _same_file(rig, write_rig):
         raise InputError(f"{write_rig}: is the rig file itself; choose another output file")
     with user_errors():
-        if rig == "-":
-            text = sys.stdin.read()
-        else:
-            try:
-                with open(rig, encoding="utf-8") as fh:
-                    text = fh.read()
-            except (OSError, UnicodeDecodeError):
-                text = None
-        model = loads_rig(text, where=rig) if text is not None else _load(rig)
-        from .solve import solve
-
-        base = solve(model)
-        limits = tuner.Limits(
-            min_retention=model.strobe.min_retention if min_retention is None
-            else _quantity(min_retention, "ratio", "--min-retention"),
-            min_margin=_quantity(min_margin, "temperature_difference", "--min-margin"))
-        if not 0.0 < limits.min_retention < 1.0:
-            raise InputError(f"--min-retention {min_retention!r}: expected a ratio between 0 "
-                             "and 100 % (e.g. 90%)")
-        if not limits.min_margin >= 0.0:
-            raise InputError(f"--min-margin {min_margin!r}: expected 0 K or more")
-        grid = tuner.default_grid(
-            model, base, widths=widths, series=series.upper(),
-            resistor_range=(_quantity(resistor_range[0], "resistance", "--resistor-range"),
-                            _quantity(resistor_range[1], "resistance", "--resistor-range")),
-            max_every=max_every, supply_steps=supply_steps,
-            supply_range=None if supply_range is None else (
-                _quantity(supply_range[0], "voltage", "--supply-range"),
-                _quantity(supply_range[1], "voltage", "--supply-range")))
+        text = _read_rig_text(rig)
+        model = loads_rig(text, where=rig)
+        limits, grid_options = tuner.search_options(
+            model, min_retention=min_retention, min_margin=min_margin, series=series,
+            resistor_range=resistor_range, max_every=max_every, supply_range=supply_range,
+            supply_steps=supply_steps, widths=widths)
         bar = _LazyBar(time.perf_counter())
         try:
-            result = tuner.tune(model, limits, grid, progress=bar.update, base=base)
+            result = tuner.tune(model, limits, progress=bar.update, grid_options=grid_options)
         finally:
             bar.close()
         if write_rig is not None and result.best is not None:
-            if text is None:
-                raise InputError(f"{rig}: cannot be read as text to write the tuned rig")
             from .io import write_atomic
 
-            write_atomic(write_rig, tuner.tuned_rig_text(
-                text, result.best, tuner._retention_override(model, limits)))
+            write_atomic(write_rig, tuned_rig_text(text, result.best, limits.min_retention,
+                                                   limits.min_margin))
     if as_json:
         click.echo(json.dumps(result.to_json(), indent=2))
     else:
-        click.echo(tuner.result_text(result), nl=False)
+        click.echo(result_text(result), nl=False)
     if write_rig is not None:
         if result.best is not None:
             click.echo(f"wrote the tuned rig to {write_rig}", err=True)
         else:
             click.echo(f"nothing feasible: {write_rig} not written", err=True)
     sys.exit(EXIT_OK if result.best is not None else EXIT_FAIL)
+
+
+def _read_rig_text(rig: str) -> str:
+    """The rig file's text, read once (standard input for ``-``)."""
+    from .errors import RigError
+
+    if rig == "-":
+        return sys.stdin.read()
+    try:
+        with open(rig, encoding="utf-8") as fh:
+            return fh.read()
+    except UnicodeDecodeError as exc:
+        raise RigError("", rig, f"not UTF-8 text ({exc.reason} at byte {exc.start})") from None
+    except OSError as exc:
+        raise RigError("", rig, f"cannot read the rig file ({exc.strerror})") from None
 
 
 def _load(rig):

@@ -16,6 +16,23 @@ from typing import Any
 import numpy as np
 
 
+def realised_width(width, clock):
+    """The gate pulse a timer of ``clock`` realises for a requested ``width``: the nearest
+    whole number of ticks. [s]
+
+    Raises RigError when that is zero ticks (the gate would never open).
+    """
+    from .errors import RigError
+
+    ticks = np.rint(np.asarray(width, dtype=float) * clock)
+    if np.any(ticks < 1):
+        raise RigError("strobe.pulse_width", width,
+                       f"at least one timer tick ({1e9 / clock:.4g} ns at controller.clock); "
+                       "the gate pulse is a whole number of ticks")
+    out = ticks / clock
+    return float(out) if out.ndim == 0 else out
+
+
 @dataclass(frozen=True)
 class Design:
     """Pulse width [s], every [1], series resistor [ohm], supply voltage [V].
@@ -31,10 +48,12 @@ class Design:
 
     @classmethod
     def of(cls, rig) -> Design:
-        """The design the rig file states."""
+        """The design the rig file states, with the pulse width realised in whole timer
+        ticks (the gate pulse is a compare value: 250 ns on a 1 MHz clock is 0 ticks, which
+        is bad input, and 1.6 ticks becomes 2)."""
         sup = rig.supply
         return cls(
-            pulse_width=rig.strobe.pulse_width,
+            pulse_width=realised_width(rig.strobe.pulse_width, rig.controller.clock),
             every=int(rig.strobe.every),
             series_resistor=sup.series_resistor if sup is not None else float("nan"),
             supply_voltage=sup.voltage if sup is not None else float("nan"),

@@ -1,14 +1,91 @@
 """The typed result of :func:`strobeplan.solve`: a Plan of sections and findings.
 
-A section is a dataclass whose field names carry their SI unit as a suffix (``_s``,
-``_hz``, ``_v`` ...; design §4), so the JSON and the text output need no per-section code.
+A section is a dataclass. Each field declares its unit as metadata (:func:`q`): the text
+output renders it with SI prefixes, the JSON Schema and the docs state it, and nothing
+guesses a unit from a name. The JSON keys keep their unit suffix (``_s``, ``_hz``, ``_v``,
+``_c`` for degrees Celsius ...; the plan JSON contract). Temperatures are kelvin inside
+(attributes ending ``_k``) and appear in JSON under their ``_c`` key, converted to degrees
+Celsius (``q("temperature", json="junction_peak_c")``).
 """
 
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field, fields, is_dataclass
-from typing import Any
+from dataclasses import MISSING, dataclass, field, fields, is_dataclass
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+
+if TYPE_CHECKING:
+    from .design import Design
+    from .stages.air import AirSection
+    from .stages.exposure import ExposureSection
+    from .stages.flash import FlashSection
+    from .stages.link import GateLinkSection, TriggerLinkSection
+    from .stages.optics import OpticsSection
+    from .stages.power import LedSection, StuckOnSection, SupplySection, SwitchSection
+    from .timing import DriveSection, TimingSection
+
+ZERO_CELSIUS = 273.15  # [K] 0 degC: the one place this offset is written
+
+# Units a field can declare: a units.py kind (rendered with SI prefixes) or a fixed text.
+UNIT_KINDS = {
+    "time": "s", "frequency": "Hz", "voltage": "V", "current": "A", "power": "W",
+    "energy": "J", "charge": "C", "resistance": "ohm", "length": "m", "capacitance": "F",
+    "pressure": "Pa", "temperature": "degC", "temperature_difference": "K", "ratio": "%",
+}
+
+
+def q(unit: str | None = None, *, json: str | None = None, default: Any = MISSING,
+      default_factory: Any = MISSING):
+    """A section field with its unit: a units.py kind ("time", "current", "temperature",
+    "ratio" ...), a fixed unit text ("deg", "dB", "ppm", "ticks", "1"), or None for text and
+    flags. ``json`` renames the key in JSON (temperatures: kelvin inside, degC in JSON)."""
+    meta = {"unit": unit}
+    if json is not None:
+        meta["json"] = json
+    kw = {}
+    if default is not MISSING:
+        kw["default"] = default
+    if default_factory is not MISSING:
+        kw["default_factory"] = default_factory
+    return field(metadata=meta, **kw)
+
+
+def scalar(x):
+    """A 0-d numpy value as a plain Python int/float/bool; arrays and others unchanged.
+
+    Stages run on scalars (``check``) and arrays (``tune``): they compute with numpy and pass
+    each figure through this, so a scalar design gives plain numbers in its sections.
+    """
+    if isinstance(x, np.ndarray) and x.ndim == 0:
+        return x.item()
+    if isinstance(x, np.generic):
+        return x.item()
+    return x
+
+
+def unit_of(f) -> str | None:
+    """The unit a dataclass field declares (None: text, flags or dimensionless counts)."""
+    return f.metadata.get("unit")
+
+
+def json_name(f) -> str:
+    """The JSON key of a dataclass field."""
+    return f.metadata.get("json", f.name)
+
+
+def _json_value(f, value):
+    if f.metadata.get("unit") == "temperature" and value is not None:
+        return jsonable(_shift(value, -ZERO_CELSIUS))
+    return jsonable(value)
+
+
+def _shift(value, offset):
+    try:
+        return value + offset
+    except TypeError:
+        return value
 
 SEVERITIES = ("hazard", "fault", "warning", "note")
 SEVERITY_RANK = {s: i for i, s in enumerate(SEVERITIES)}
@@ -21,7 +98,7 @@ SECTION_ORDER = ("timing", "drive", "air", "flash", "exposure", "optics", "led",
 def jsonable(value: Any) -> Any:
     """Plain JSON value: NaN and infinities become None, numpy scalars become Python."""
     if isinstance(value, Section) or (is_dataclass(value) and not isinstance(value, type)):
-        return {f.name: jsonable(getattr(value, f.name)) for f in fields(value)
+        return {json_name(f): _json_value(f, getattr(value, f.name)) for f in fields(value)
                 if not f.name.startswith("_")}
     if isinstance(value, dict):
         return {str(k): jsonable(v) for k, v in value.items()}
@@ -87,23 +164,34 @@ class Finding:
 
 @dataclass
 class Plan:
-    """Everything strobeplan computed for one rig."""
+    """Everything strobeplan computed for one rig and one design.
+
+    Each slot holds the section its stage returned (None when the rig lacks its inputs;
+    ``skipped`` says which were skipped and why). With an array design (``tune``) every
+    design-dependent figure is an array of the design's broadcast shape.
+    """
 
     rig: Any
-    timing: Any = None
-    drive: Any = None
-    air: Any = None
-    flash: Any = None
-    exposure: Any = None
-    optics: Any = None
-    led: Any = None
-    switch: Any = None
-    supply: Any = None
-    stuck_on: Any = None
-    trigger_link: Any = None
-    gate_link: Any = None
+    design: Design | None = None
+    air: AirSection | None = None
+    flash: FlashSection | None = None
+    trigger_link: TriggerLinkSection | None = None
+    gate_link: GateLinkSection | None = None
+    drive: DriveSection | None = None
+    timing: TimingSection | None = None
+    exposure: ExposureSection | None = None
+    optics: OpticsSection | None = None
+    led: LedSection | None = None
+    switch: SwitchSection | None = None
+    supply: SupplySection | None = None
+    stuck_on: StuckOnSection | None = None
     findings: list[Finding] = field(default_factory=list)
-    lock: Any = field(default=None, repr=False)  # timing.Lock: integers for the schedule
+    skipped: dict[str, str] = field(default_factory=dict)
+
+    @property
+    def lock(self):
+        """The integers the schedule needs (timing.Lock), for a scalar design."""
+        return self.timing._lock if self.timing is not None else None
 
     @property
     def verdict(self) -> str:
@@ -129,6 +217,8 @@ class Plan:
             "verdict": self.verdict,
             "findings": [f.to_json() for f in self.findings],
         }
+        if self.skipped:
+            out["skipped"] = dict(self.skipped)
         for name, section in self.sections():
             out[name] = section.to_json()
         return out

@@ -168,6 +168,7 @@ class Led(_Model):
     max_pulse_current: Q("current", gt=0) | None = None
     pulse_ratings: list[PulseRating] | None = None
     junction_max: Q("temperature", gt=273.15, lt=573.15)
+    min_margin: Q("temperature_difference", ge=0, le=200) = 10.0
     thermal: list[FosterTerm] = Field(min_length=1, max_length=8)
     ambient: Q("temperature", gt=223.15, lt=373.15) = 298.15
     efficiency: Q("ratio", ge=0, lt=1) = 0.0

@@ -90,6 +90,8 @@ MEANINGS = {
     "led.pulse_ratings.duty": "Duty cycle of the rating.",
     "led.pulse_ratings.current": "Allowed peak current at that width and duty.",
     "led.junction_max": "Maximum junction temperature.",
+    "led.min_margin": "Thermal margin to keep below led.junction_max (common practice 10 K); "
+                      "less is a warning in check and excluded by tune.",
     "led.thermal": "Foster network junction to ambient {resistance, time_constant}.",
     "led.thermal.resistance": "Thermal resistance of the Foster term.",
     "led.thermal.time_constant": "Time constant of the Foster term.",

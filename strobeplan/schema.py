@@ -48,6 +48,29 @@ def _closed(schema: dict) -> dict:
     return out
 
 
+def _with_units(cls, schema: dict) -> dict:
+    """Rename properties to their JSON keys and state each field's unit (from the field's
+    metadata, :func:`strobeplan.plan.q`) in its description."""
+    from dataclasses import fields, is_dataclass
+
+    from .plan import UNIT_KINDS, json_name, unit_of
+
+    if not is_dataclass(cls):
+        return schema
+    props, required = {}, []
+    for f in fields(cls):
+        if f.name not in schema["properties"]:
+            continue
+        node = dict(schema["properties"][f.name])
+        unit = unit_of(f)
+        if unit is not None:
+            node["description"] = f"unit: {UNIT_KINDS.get(unit, unit)}"
+        props[json_name(f)] = node
+        if f.name in schema["required"]:
+            required.append(json_name(f))
+    return {**schema, "properties": props, "required": required}
+
+
 def _class_schema(cls, defs: dict) -> dict:
     """Closed schema of one dataclass; nested definitions are hoisted into ``defs``
     (references are "#/$defs/Name", resolved from the root)."""
@@ -56,7 +79,7 @@ def _class_schema(cls, defs: dict) -> dict:
     raw = _nullable(TypeAdapter(cls).json_schema(mode="serialization"))
     for name, sub in raw.pop("$defs", {}).items():
         defs[name] = _closed(sub)
-    return _closed(raw)
+    return _with_units(cls, _closed(raw))
 
 
 def plan_schema() -> dict:
@@ -83,6 +106,8 @@ def plan_schema() -> dict:
             "rig": {"type": "string"},
             "verdict": {"enum": ["pass", "warn", "fail"]},
             "findings": {"type": "array", "items": finding},
+            "skipped": {"type": "object", "additionalProperties": {"type": "string"},
+                        "description": "sections the rig lacks inputs for, and what they need"},
             **sections,
         },
         "required": ["format", "version", "verdict", "findings"],

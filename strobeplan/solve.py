@@ -1,4 +1,10 @@
-"""Compose physics and timing into a Plan: rig -> stages -> checks -> findings."""
+"""Compose the stages into a Plan: rig + design -> stages -> rules -> findings.
+
+Each stage is a pure function ``compute(rig, design, plan) -> section`` (or a dict slot ->
+section) that reads the rig, the design and the sections computed before it; ``solve``
+assigns what it returns. The same code solves the rig as written (``Design.of(rig)``,
+scalars: ``check``) and a grid of candidate designs (arrays: ``tune``).
+"""
 
 from __future__ import annotations
 
@@ -6,6 +12,7 @@ import numpy as np
 
 from . import timing
 from .checks import run_checks
+from .design import Design
 from .plan import Plan
 from .stages import air as air_stage
 from .stages import exposure as exposure_stage
@@ -14,33 +21,67 @@ from .stages import link as link_stage
 from .stages import optics as optics_stage
 from .stages import power as power_stage
 
+# (stage function, the slot it fills, or None when it returns a dict of slots). Order
+# matters: air and flash and the trigger link (its edge's delay to the camera's VIH) feed
+# the timing core; later stages read the timing (flashes per frame, duty) and one another.
+STAGES = (
+    (air_stage.compute, "air"),
+    (flash_stage.compute, "flash"),
+    (link_stage.compute, None),
+    (timing.drive_section, "drive"),
+    (timing.compute, "timing"),
+    (exposure_stage.compute, "exposure"),
+    (optics_stage.compute, "optics"),
+    (power_stage.compute, None),
+)
 
-def solve(rig) -> Plan:
-    """Compute every section the rig has inputs for, then run all checks.
+# Sections a rig can lack, and what they need.
+_NEEDS = {
+    "led": "needs [led] and [supply] (the LED current comes from the supply's operating point)",
+    "switch": "needs [switch] and [gate_driver] (and the LED stage)",
+    "supply": "needs [led] and [supply]",
+    "stuck_on": "needs [led] and [supply]",
+    "optics": "needs [emitter] with a datasheet SPL or emitter.spl_at_view",
+    "trigger_link": "needs camera.trigger_input",
+    "gate_link": "needs [gate_driver]",
+}
 
-    Stage order matters: air (speed of sound), flash (delays, edges, centroid) and the
-    trigger link (its edge's delay to the camera's VIH) feed the timing core; later stages
-    read the timing (flashes per frame, duty) and one another.
+
+def solve(rig, design: Design | None = None, *, checks: bool = True) -> Plan:
+    """Compute every section the rig has inputs for, then run all rules.
+
+    Parameters
+    ----------
+    rig : strobeplan.rig.Rig
+        The validated rig.
+    design : Design, optional
+        The choices to solve for; default the rig as written (``Design.of(rig)``). Arrays
+        give a plan whose design-dependent figures are arrays (the design search).
+    checks : bool
+        Run the rules into ``plan.findings`` (scalar designs; the search evaluates the rules
+        itself over its grid).
+
     Floating-point overflow in an absurd but valid rig becomes inf/nan in a figure (shown as
     null, with the checks saying why) rather than a warning on stderr.
     """
     with np.errstate(over="ignore", divide="ignore", invalid="ignore", under="ignore"):
-        return _solve(rig)
-
-
-def _solve(rig) -> Plan:
-    plan = Plan(rig=rig)
-    air_stage.build(rig, plan)
-    flash_stage.build(rig, plan)
-    link_stage.build(rig, plan)  # before timing: the trigger edge delays the exposure
-    plan.lock = timing.build(rig, plan)
-    exposure_stage.build(rig, plan)
-    optics_stage.build(rig, plan)
-    power_stage.build(rig, plan)
-    plan.findings = run_checks(plan)
-    return plan
+        if design is None:
+            design = Design.of(rig)
+        plan = Plan(rig=rig, design=design)
+        for stage, slot in STAGES:
+            result = stage(rig, design, plan)
+            if slot is None:
+                for name, section in result.items():
+                    setattr(plan, name, section)
+            else:
+                setattr(plan, slot, result)
+        plan.skipped = {name: why for name, why in _NEEDS.items()
+                        if getattr(plan, name) is None}
+        if checks and design.is_scalar:
+            plan.findings = run_checks(plan)
+        return plan
 
 
 def build_schedule(plan: Plan, steps: int | None = None) -> timing.Schedule:
-    """The per-frame schedule of a solved plan."""
+    """The per-frame schedule of a solved plan (scalar design)."""
     return timing.schedule(plan.rig, plan, plan.lock, steps=steps)

@@ -25,13 +25,14 @@ References
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 
 from .physics import air as air_model
 from .physics import drive as drive_model
-from .plan import Section
+from .plan import Section, q, scalar
 
 TWO_PI = 2.0 * math.pi
 
@@ -81,14 +82,14 @@ def choose_drive(clock: float, frequency: float, carrier: float | None = None,
     return best[1], best[2]
 
 
-def wrap_phase(phase: float) -> float:
+def wrap_phase(phase):
     """Phase wrapped to [0, 2 pi). [rad]"""
-    return phase % TWO_PI
+    return scalar(np.mod(phase, TWO_PI))
 
 
-def wrap_error(phase: float) -> float:
+def wrap_error(phase):
     """Phase difference wrapped to [-pi, pi). [rad]"""
-    return (phase + math.pi) % TWO_PI - math.pi
+    return scalar(np.mod(np.asarray(phase) + math.pi, TWO_PI) - math.pi)
 
 
 def time_of_phase(phase: float, frequency: float, chain_delay: float) -> float:
@@ -131,37 +132,39 @@ def edge_ticks_for_phase(phase: float, frequency: float, clock: float, period_ti
         Timer edge to optical centroid (driver, switch, LED). [s]
     """
     t_target = time_of_phase(phase, frequency, chain_delay)
-    return int(round((t_target - flash_delay) * clock)) % period_ticks
+    ticks = np.rint((t_target - np.asarray(flash_delay, dtype=float)) * clock).astype(np.int64)
+    return scalar(np.mod(ticks, period_ticks))
 
 
 def phase_of_edge(edge_ticks: int, frequency: float, clock: float, chain_delay: float,
                   flash_delay: float) -> float:
     """Wave phase at the view when the flash of a given edge is seen. [rad]"""
-    t_centroid = edge_ticks / clock + flash_delay
+    t_centroid = np.asarray(edge_ticks) / clock + np.asarray(flash_delay, dtype=float)
     return wrap_phase(TWO_PI * frequency * (t_centroid - chain_delay))
 
 
-def dirichlet_smear(n: int, step: float) -> float:
+def dirichlet_smear(n, step):
     """Contrast kept when n equal flashes land at phases spaced by ``step`` (Dirichlet).
 
     Parameters
     ----------
-    n : int
+    n : int or ndarray
         Flashes averaged in one image.
-    step : float
+    step : float or ndarray
         Phase advance between consecutive flashes. [rad]
 
     Returns
     -------
-    float
+    float or ndarray
         |sin(n step/2) / (n sin(step/2))|, 1 for n <= 1 or step = 0. [1]
     """
-    if n <= 1:
-        return 1.0
-    half = 0.5 * step
-    if abs(math.sin(half)) < 1e-15:
-        return 1.0
-    return abs(math.sin(n * half) / (n * math.sin(half)))
+    n = np.asarray(n, dtype=float)
+    half = 0.5 * np.asarray(step, dtype=float)
+    den = n * np.sin(half)
+    flat = (n <= 1) | (np.abs(np.sin(half)) < 1e-15)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        ratio = np.abs(np.sin(n * half) / np.where(flat, 1.0, den))
+    return scalar(np.where(flat, 1.0, ratio))
 
 
 def slow_motion_step(apparent: float, clock: float, period_ticks: int, every: int) -> int:
@@ -171,14 +174,14 @@ def slow_motion_step(apparent: float, clock: float, period_ticks: int, every: in
     so apparent = s clock / (N_d (every N_d + s)), solved for s and rounded.
     """
     nd = period_ticks
-    s = apparent * every * nd * nd / (clock - apparent * nd)
-    return int(round(s))
+    s = apparent * np.asarray(every) * nd * nd / (clock - apparent * nd)
+    return scalar(np.rint(s).astype(np.int64))
 
 
 def slow_motion_apparent(step_ticks: int, clock: float, period_ticks: int, every: int) -> float:
     """Apparent frequency realised by a slow-motion step of ``step_ticks``. [Hz]"""
     nd = period_ticks
-    return step_ticks * clock / (nd * (every * nd + step_ticks))
+    return scalar(np.asarray(step_ticks) * clock / (nd * (np.asarray(every) * nd + step_ticks)))
 
 
 def align_camera(edge_ticks: int, spacing_ticks: int, clock: float, light_delay: float,
@@ -195,19 +198,21 @@ def align_camera(edge_ticks: int, spacing_ticks: int, clock: float, light_delay:
     -------
     (int, int, int)
         Trigger offset after the frame start [ticks], flashes whose whole light falls in
-        the window, offset of the first of them after the frame start [ticks].
+        the window, offset of the first of them after the frame start [ticks] (arrays when
+        the edge, spacing or light figures are arrays).
     """
+    edge_ticks = np.asarray(edge_ticks, dtype=np.int64)
+    spacing_ticks = np.asarray(spacing_ticks, dtype=np.int64)
     t_light0 = edge_ticks / clock + light_delay
     dt = spacing_ticks / clock
-    j = max(0, math.ceil((lead - t_light0) / dt - 1e-12))
+    j = np.maximum(0, np.ceil((lead - t_light0) / dt - 1e-12)).astype(np.int64)
     t_light = t_light0 + j * dt
-    trigger = max(0, math.floor((t_light - lead) * clock + 1e-9))
+    trigger = np.maximum(0, np.floor((t_light - lead) * clock + 1e-9)).astype(np.int64)
     w_start = trigger / clock + lead
     w_end = w_start + window
-    if w_end - light_length < t_light - 1e-12:
-        return trigger, 0, edge_ticks + j * spacing_ticks
-    n = math.floor((w_end - light_length - t_light) / dt + 1e-9) + 1
-    return trigger, n, edge_ticks + j * spacing_ticks
+    n = np.floor((w_end - light_length - t_light) / dt + 1e-9).astype(np.int64) + 1
+    n = np.where(w_end - light_length < t_light - 1e-12, 0, n)
+    return scalar(trigger), scalar(n), scalar(edge_ticks + j * spacing_ticks)
 
 
 # --- sections -----------------------------------------------------------------------------
@@ -217,56 +222,57 @@ def align_camera(edge_ticks: int, spacing_ticks: int, clock: float, light_delay:
 class DriveSection(Section):
     """The emitter drive chain at the realised frequency."""
 
-    waveform: str
-    carrier_periods_per_cycle: int
-    carrier_period_ticks: int
-    pwm_resolution_bits: float | None
-    filter_delay_s: float
-    amplifier_delay_s: float
-    transducer_delay_s: float
-    transducer_phase_deg: float
-    detuning_db: float | None
-    travel_time_s: float
-    calibration_offset_s: float
-    carrier_attenuation_db: float | None
+    waveform: str = q()
+    carrier_periods_per_cycle: int = q()
+    carrier_period_ticks: int = q("ticks")
+    pwm_resolution_bits: float | None = q()
+    filter_delay_s: float = q("time")
+    amplifier_delay_s: float = q("time")
+    transducer_delay_s: float = q("time")
+    transducer_phase_deg: float = q("deg")
+    detuning_db: float | None = q("dB")
+    travel_time_s: float = q("time")
+    calibration_offset_s: float = q("time")
+    carrier_attenuation_db: float | None = q("dB")
 
 
 @dataclass
 class TimingSection(Section):
     """Timer settings and what they achieve (design §4 ``timing``)."""
 
-    tick_s: float
-    drive_frequency_hz: float
-    drive_frequency_error_ppm: float
-    drive_period_ticks: int
-    carrier_frequency_hz: float | None
-    flash_period_ticks: int
-    flash_rate_hz: float
-    chain_delay_s: float
-    flash_delay_s: float
-    flash_edge_ticks: int
-    flash_edge_s: float
-    phase_requested_deg: float
-    phase_achieved_deg: float
-    phase_error_deg: float
-    phase_resolution_deg: float
-    mode: str
-    frame_period_ticks: int | None
-    frame_rate_hz: float | None
-    camera_trigger_offset_ticks: int | None
-    window_start_s: float | None
-    window_s: float | None
-    flashes_per_frame: int | None
-    first_flash_ticks: int | None
-    duty_in_burst: float
-    duty_average: float
-    phase_per_kelvin_deg: float
-    sweep_step_deg: float | None
-    slow_motion_step_ticks: int | None
-    apparent_frequency_hz: float | None
-    clock_drift_deg_per_s: float | None
-    drift_per_exposure_deg: float | None
-    smear: float
+    tick_s: float = q("time")
+    drive_frequency_hz: float = q("frequency")
+    drive_frequency_error_ppm: float = q("ppm")
+    drive_period_ticks: int = q("ticks")
+    carrier_frequency_hz: float | None = q("frequency")
+    flash_period_ticks: int = q("ticks")
+    flash_rate_hz: float = q("frequency")
+    chain_delay_s: float = q("time")
+    flash_delay_s: float = q("time")
+    flash_edge_ticks: int = q("ticks")
+    flash_edge_s: float = q("time")
+    phase_requested_deg: float = q("deg")
+    phase_achieved_deg: float = q("deg")
+    phase_error_deg: float = q("deg")
+    phase_resolution_deg: float = q("deg")
+    mode: str = q()
+    frame_period_ticks: int | None = q("ticks")
+    frame_rate_hz: float | None = q("frequency")
+    camera_trigger_offset_ticks: int | None = q("ticks")
+    window_start_s: float | None = q("time")
+    window_s: float | None = q("time")
+    flashes_per_frame: int | None = q()
+    first_flash_ticks: int | None = q("ticks")
+    duty_in_burst: float = q("ratio")
+    duty_average: float = q("ratio")
+    phase_per_kelvin_deg: float = q("deg/K")
+    sweep_step_deg: float | None = q("deg")
+    slow_motion_step_ticks: int | None = q("ticks")
+    apparent_frequency_hz: float | None = q("frequency")
+    clock_drift_deg_per_s: float | None = q("deg/s")
+    drift_per_exposure_deg: float | None = q("deg")
+    smear: float = q("1")
+    _lock: Any = field(default=None, repr=False)  # the schedule's integers (scalar designs)
 
 
 @dataclass(frozen=True)
@@ -346,11 +352,28 @@ def _chain(rig, frequency: float, speed: float) -> tuple[DriveSection, float]:
     return section, chain
 
 
-def build(rig, plan) -> Lock:
-    """Timing stage: store ``plan.timing`` and ``plan.drive``; return the :class:`Lock`.
+def drive_frequency(rig) -> float:
+    """The realised drive frequency clock / (M N_c) of the rig's timer synthesis. [Hz]"""
+    synth = rig.emitter.synthesis if rig.emitter else None
+    m, nc = choose_drive(rig.controller.clock, rig.wave.frequency,
+                         synth.carrier if synth else None,
+                         synth.samples_per_cycle if synth else None)
+    return rig.controller.clock / (m * nc)
 
-    Needs ``plan.air`` (speed of sound) and ``plan.flash`` (delay to the optical
-    centroid, pulse length) to be computed first.
+
+def drive_section(rig, design, plan) -> DriveSection:
+    """The drive stage: the emitter drive chain at the realised frequency (needs
+    ``plan.air``). Independent of the design."""
+    return _chain(rig, drive_frequency(rig), plan.air.speed_of_sound_m_s)[0]
+
+
+def compute(rig, design, plan) -> TimingSection:
+    """Timing stage: the ``timing`` section for the design (pulse width and ``every`` may
+    be arrays: every figure then has their broadcast shape).
+
+    Needs ``plan.air`` (speed of sound), ``plan.flash`` (delay to the optical centroid,
+    pulse length) and ``plan.trigger_link`` (the divider's delay to the camera's VIH). For a
+    scalar design the section carries the :class:`Lock` the schedule needs (``_lock``).
     """
     clock = rig.controller.clock
     strobe = rig.strobe
@@ -360,14 +383,16 @@ def build(rig, plan) -> Lock:
     nd = m * nc
     f = clock / nd
     speed = plan.air.speed_of_sound_m_s
-    drive, chain = _chain(rig, f, speed)
-    flash_delay = plan.flash.delay_s + plan.flash.centroid_s
-    light_length = plan.flash.light_length_s
-    every = strobe.every
+    _drive, chain = _chain(rig, f, speed)
+    flash_delay = np.asarray(plan.flash.delay_s + np.asarray(plan.flash.centroid_s))
+    light_length = np.asarray(plan.flash.light_length_s, dtype=float)
+    light_delay = plan.flash.delay_s
+    every = np.asarray(design.every, dtype=np.int64)
+    width = np.asarray(design.pulse_width, dtype=float)
     flash_ticks = every * nd
-    edge = edge_ticks_for_phase(strobe.phase, f, clock, nd, chain, flash_delay)
-    achieved = phase_of_edge(edge, f, clock, chain, flash_delay)
-    err = wrap_error(achieved - wrap_phase(strobe.phase))
+    edge = np.asarray(edge_ticks_for_phase(strobe.phase, f, clock, nd, chain, flash_delay))
+    achieved = np.asarray(phase_of_edge(edge, f, clock, chain, flash_delay))
+    err = np.asarray(wrap_error(achieved - wrap_phase(strobe.phase)))
 
     sweep = rig.sweep
     slow_step = None
@@ -376,9 +401,8 @@ def build(rig, plan) -> Lock:
     sweep_step = None
     if sweep is not None and sweep.slow_motion is not None:
         mode = "slow_motion"
-        slow_step = slow_motion_step(sweep.slow_motion, clock, nd, every)
-        if slow_step == 0:
-            slow_step = 1 if sweep.slow_motion > 0 else -1
+        slow_step = np.asarray(slow_motion_step(sweep.slow_motion, clock, nd, every))
+        slow_step = np.where(slow_step == 0, 1 if sweep.slow_motion > 0 else -1, slow_step)
         apparent = slow_motion_apparent(slow_step, clock, nd, every)
         flash_ticks = every * nd + slow_step
     elif sweep is not None:
@@ -389,13 +413,13 @@ def build(rig, plan) -> Lock:
     frame_ticks = lead = window = trigger = None
     n_frame = first = None
     frame_rate = None
-    width = strobe.pulse_width
-    light_delay = flash_delay - plan.flash.centroid_s
     if cam is not None:
         if mode == "slow_motion":
-            frame_ticks = max(1, round(clock / cam.frame_rate))
+            frame_ticks = np.broadcast_to(max(1, round(clock / cam.frame_rate)),
+                                          np.shape(flash_ticks))
         else:
-            frame_ticks = max(1, round(clock / cam.frame_rate / flash_ticks)) * flash_ticks
+            frame_ticks = np.maximum(1, np.rint(clock / cam.frame_rate / flash_ticks)
+                                     ).astype(np.int64) * flash_ticks
         frame_rate = clock / frame_ticks
         readout = cam.readout if cam.shutter == "rolling" else 0.0
         # The divider's edge reaches the camera's VIH late (worst case): the exposure opens
@@ -406,8 +430,8 @@ def build(rig, plan) -> Lock:
             link_delay = 0.0  # never reaches VIH: trigger_link.below_vih says so
         lead = cam.trigger_latency + readout + link_delay
         window = cam.exposure - readout
-        trigger, n_frame, first = align_camera(edge, flash_ticks, clock, light_delay,
-                                               light_length, lead, window)
+        trigger, n_frame, first = (np.asarray(x) for x in align_camera(
+            edge, flash_ticks, clock, light_delay, light_length, lead, window))
     duty_burst = width / (flash_ticks / clock)
     if cam is not None and not strobe.continuous:
         duty_avg = n_frame * width * frame_rate
@@ -416,15 +440,15 @@ def build(rig, plan) -> Lock:
 
     # Separate clocks: the strobe timer slips against the drive by tol per unit time.
     drift_rate = drift_exp = None
-    smear = 1.0
+    smear = np.ones(np.broadcast_shapes(np.shape(width), np.shape(every)))
     if not rig.controller.shared_clock:
         tol = rig.controller.clock_tolerance
         drift_rate = 360.0 * f * tol
         if cam is not None:
             drift_exp = drift_rate * cam.exposure
-            smear *= dirichlet_smear(n_frame or 0, TWO_PI * tol * f * flash_ticks / clock)
+            smear = smear * dirichlet_smear(n_frame, TWO_PI * tol * f * flash_ticks / clock)
     if mode == "slow_motion" and cam is not None:
-        smear *= dirichlet_smear(n_frame or 0, TWO_PI * slow_step / nd)
+        smear = smear * dirichlet_smear(n_frame, TWO_PI * slow_step / nd)
 
     # Sensitivity of the frozen phase to air temperature: d(phase)/dT = w d/c^2 dc/dT.
     if rig.emitter is not None and rig.wave.speed is None:
@@ -437,45 +461,48 @@ def build(rig, plan) -> Lock:
     else:
         per_k = 0.0
 
-    plan.drive = drive
-    plan.timing = TimingSection(
+    section = TimingSection(
         tick_s=1.0 / clock,
         drive_frequency_hz=f,
         drive_frequency_error_ppm=(f - rig.wave.frequency) / rig.wave.frequency * 1e6,
         drive_period_ticks=nd,
         carrier_frequency_hz=clock / nc if synth else None,
-        flash_period_ticks=flash_ticks,
-        flash_rate_hz=clock / flash_ticks,
+        flash_period_ticks=scalar(flash_ticks),
+        flash_rate_hz=scalar(clock / flash_ticks),
         chain_delay_s=chain,
-        flash_delay_s=flash_delay,
-        flash_edge_ticks=edge,
-        flash_edge_s=edge / clock,
+        flash_delay_s=scalar(flash_delay),
+        flash_edge_ticks=scalar(edge),
+        flash_edge_s=scalar(edge / clock),
         phase_requested_deg=math.degrees(wrap_phase(strobe.phase)),
-        phase_achieved_deg=math.degrees(achieved),
-        phase_error_deg=math.degrees(err),
+        phase_achieved_deg=scalar(np.degrees(achieved)),
+        phase_error_deg=scalar(np.degrees(err)),
         phase_resolution_deg=360.0 * f / clock,
         mode=mode,
-        frame_period_ticks=frame_ticks,
-        frame_rate_hz=frame_rate,
-        camera_trigger_offset_ticks=trigger,
-        window_start_s=(trigger / clock + lead) if cam is not None else None,
+        frame_period_ticks=scalar(frame_ticks),
+        frame_rate_hz=scalar(frame_rate),
+        camera_trigger_offset_ticks=scalar(trigger),
+        window_start_s=scalar(trigger / clock + lead) if cam is not None else None,
         window_s=window,
-        flashes_per_frame=n_frame,
-        first_flash_ticks=first,
-        duty_in_burst=duty_burst,
-        duty_average=duty_avg,
+        flashes_per_frame=scalar(n_frame),
+        first_flash_ticks=scalar(first),
+        duty_in_burst=scalar(duty_burst),
+        duty_average=scalar(duty_avg),
         phase_per_kelvin_deg=per_k,
         sweep_step_deg=math.degrees(sweep_step) if sweep_step is not None else None,
-        slow_motion_step_ticks=slow_step,
-        apparent_frequency_hz=apparent,
+        slow_motion_step_ticks=scalar(slow_step),
+        apparent_frequency_hz=scalar(apparent),
         clock_drift_deg_per_s=drift_rate,
         drift_per_exposure_deg=drift_exp,
-        smear=smear,
+        smear=scalar(smear),
     )
-    return Lock(clock=clock, frequency=f, period_ticks=nd, flash_ticks=flash_ticks,
-                every=every, chain_delay=chain, flash_delay=flash_delay,
-                light_delay=light_delay, light_length=light_length, frame_ticks=frame_ticks,
-                lead=lead, window=window, slow_step=slow_step)
+    if design.is_scalar:
+        section._lock = Lock(clock=clock, frequency=f, period_ticks=nd,
+                             flash_ticks=int(flash_ticks), every=int(every), chain_delay=chain,
+                             flash_delay=float(flash_delay), light_delay=light_delay,
+                             light_length=float(light_length),
+                             frame_ticks=scalar(frame_ticks), lead=lead, window=window,
+                             slow_step=scalar(slow_step))
+    return section
 
 
 # --- schedule -----------------------------------------------------------------------------

@@ -186,12 +186,25 @@ def test_cautions_follow_the_findings():
 
 
 def test_text_labels_and_units():
-    # A charge field named *_c is coulomb, not degC; duties read as percentages; no "-0".
-    from strobeplan.report.text import label_and_value
+    # Units come from each field's metadata: a charge is coulomb and a junction temperature
+    # (kelvin inside) reads in degC under its JSON name; duties read as percentages; no "-0".
+    from dataclasses import fields
 
-    assert label_and_value("pulse_charge_c", 8.2e-6) == ("pulse charge", "8.2 uC")
-    assert label_and_value("junction_peak_c", 31.0) == ("junction peak", "31 \u00b0C")
-    assert label_and_value("duty_in_burst", 0.04) == ("duty in burst", "4 %")
-    assert label_and_value("phase_per_kelvin_deg", 4.5) == ("phase per kelvin", "4.5 deg/K")
-    assert label_and_value("detuning_db", -0.0) == ("detuning", "0 dB")
-    assert label_and_value("clock_drift_deg_per_s", None) == ("clock drift", "n/a")
+    from strobeplan.report.text import label_and_value
+    from strobeplan.stages.power import LedSection
+    from strobeplan.timing import DriveSection, TimingSection
+
+    def spec(cls, name):
+        return next(f for f in fields(cls) if f.name == name)
+
+    assert label_and_value(spec(LedSection, "pulse_charge_c"), 8.2e-6) == \
+        ("pulse charge", "8.2 uC")
+    assert label_and_value(spec(LedSection, "junction_peak_k"), 304.15) == \
+        ("junction peak", "31 \u00b0C")
+    assert label_and_value(spec(TimingSection, "duty_in_burst"), 0.04) == \
+        ("duty in burst", "4 %")
+    assert label_and_value(spec(TimingSection, "phase_per_kelvin_deg"), 4.5) == \
+        ("phase per kelvin", "4.5 deg/K")
+    assert label_and_value(spec(DriveSection, "detuning_db"), -0.0) == ("detuning", "0 dB")
+    assert label_and_value(spec(TimingSection, "clock_drift_deg_per_s"), None) == \
+        ("clock drift", "n/a")

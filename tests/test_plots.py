@@ -351,7 +351,7 @@ def test_thermal_trace_agrees_with_the_plan(levitator, unsafe):
         fig = plots.plot_thermal(plan)
         frame, zoom = fig.axes
         peak = one(zoom, "peak")
-        assert peak.get_ydata()[0] == pytest.approx(plan.led.junction_peak_c, abs=1e-3)
+        assert peak.get_ydata()[0] == pytest.approx(plan.led.junction_peak_k - 273.15, abs=1e-3)
         assert "margin" in frame.get_title()
         assert frame.xaxis.get_major_formatter().unit == "s"
         assert "\N{DEGREE SIGN}C" in frame.get_ylabel()
@@ -438,8 +438,8 @@ def test_thermal_trace_peak_is_the_exact_burst_peak(width_us, every, exposure_ms
     n = max(1, led.flashes_per_burst)
     ends = plots._first_light(plan) + led.flash_spacing_s * np.arange(n) + plan.flash.width_s
     trace = plots.junction_trace(plan, ends) - 273.15
-    rise = led.junction_peak_c - 25.0
-    assert trace.max() == pytest.approx(led.junction_peak_c, abs=1e-4 * max(rise, 1.0))
+    rise = led.junction_peak_k - 273.15 - 25.0
+    assert trace.max() == pytest.approx(led.junction_peak_k - 273.15, abs=1e-4 * max(rise, 1.0))
 
 
 def test_divider_without_a_safe_pair():
@@ -476,7 +476,9 @@ def test_plots_draw_into_given_axes(levitator):
 
 
 def test_tradeoff_without_a_feasible_design(unsafe):
-    ax = plots.plot_tradeoff(unsafe).axes[0]
+    from strobeplan.tune import tune
+
+    ax = plots.plot_tradeoff(unsafe, result=tune(unsafe.rig)).axes[0]
     assert any(t.get_text() == "no feasible design" for t in ax.texts)
     assert not labelled(ax, "chosen")
     assert labelled(ax, "breaks a rating")

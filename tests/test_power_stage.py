@@ -99,13 +99,14 @@ def test_continuous_option_heats_more_than_bursts():
     burst = plan_of("levitator-40k")
     cont = plan_of("levitator-40k", {"strobe.continuous": True})
     assert cont.led.pattern == "continuous" and burst.led.pattern == "burst"
-    assert cont.led.junction_peak_c >= burst.led.junction_peak_c
+    assert cont.led.junction_peak_k >= burst.led.junction_peak_k
     assert cont.led.average_power_w > burst.led.average_power_w
 
 
 # one rig per power-stage code (base example, patch); mirrors tests/test_finding_codes.py
 CASES = {
     "led.pulse_over_rating": ("unsafe-bench", {}),
+    "led.ratings_disagree": ("levitator-40k", {"led.max_pulse_current": "3 A"}),
     "led.rating_outside_table": ("unsafe-bench", {}),
     "led.no_pulse_rating": ("rangefinder-58k", {}),
     "led.fit_extrapolated": ("levitator-40k", {}),
@@ -150,7 +151,7 @@ def test_power_code_is_reachable(code):
 
 
 def _peak_c(**patch):
-    return plan_of("levitator-40k", patch).led.junction_peak_c
+    return plan_of("levitator-40k", patch).led.junction_peak_k
 
 
 @BOUNDED
@@ -161,7 +162,7 @@ def test_junction_peak_never_falls_with_peak_current(r1, k):
     lo = plan_of("levitator-40k", {"supply.series_resistor": f"{r1 * k} ohm"})
     hi = plan_of("levitator-40k", {"supply.series_resistor": f"{r1} ohm"})
     assert hi.led.peak_current_a >= lo.led.peak_current_a
-    assert hi.led.junction_peak_c >= lo.led.junction_peak_c - 1e-9
+    assert hi.led.junction_peak_k >= lo.led.junction_peak_k - 1e-9
 
 
 @BOUNDED
@@ -169,7 +170,7 @@ def test_junction_peak_never_falls_with_peak_current(r1, k):
 def test_junction_peak_never_falls_with_pulse_width(w, k):
     narrow = plan_of("levitator-40k", {"strobe.pulse_width": f"{w} us"})
     wide = plan_of("levitator-40k", {"strobe.pulse_width": f"{min(w * k, 20.0)} us"})
-    assert wide.led.junction_peak_c >= narrow.led.junction_peak_c - 1e-9
+    assert wide.led.junction_peak_k >= narrow.led.junction_peak_k - 1e-9
 
 
 @settings(max_examples=20, deadline=None)
@@ -179,7 +180,7 @@ def test_junction_peak_never_falls_with_flashes_per_frame(e1, k):
     few = plan_of("levitator-40k", {"camera.exposure": f"{e1} ms"})
     many = plan_of("levitator-40k", {"camera.exposure": f"{e1 * k} ms"})
     assert many.timing.flashes_per_frame >= few.timing.flashes_per_frame
-    assert many.led.junction_peak_c >= few.led.junction_peak_c - 1e-9
+    assert many.led.junction_peak_k >= few.led.junction_peak_k - 1e-9
 
 
 def _hazard_conditions(plan):
@@ -188,7 +189,7 @@ def _hazard_conditions(plan):
     cond = {
         "led.pulse_over_rating": led.rated_pulse_current_a is not None
         and led.peak_current_a > led.rated_pulse_current_a,
-        "led.junction_over_limit": led.junction_peak_c + 273.15 > rig.led.junction_max,
+        "led.junction_over_limit": led.junction_peak_k > rig.led.junction_max,
         "led.average_over_dc_rating": led.average_current_a > rig.led.max_dc_current,
         "switch.gate_drive_low": rig.gate_driver.supply < rig.switch.rated_gate_voltage
         or rig.gate_driver.supply < rig.switch.plateau_voltage + 1.0,

@@ -119,8 +119,10 @@ def test_dirichlet_smear_limits():
     assert timing.dirichlet_smear(17, d) == pytest.approx(brute, rel=1e-12)
 
 
-def _rig(clock, freq, every=1, phase_deg=0.0, distance=0.1, pulse=1e-7, sweep=None,
+def _rig(clock, freq, every=1, phase_deg=0.0, distance=0.1, pulse=None, sweep=None,
          carrier=None, camera=None):
+    if pulse is None:
+        pulse = max(1e-7, 1.0 / clock)  # the gate pulse is at least one timer tick
     raw = {
         "wave": {"frequency": f"{freq} Hz"},
         "controller": {"clock": f"{clock} Hz"},
@@ -220,8 +222,8 @@ def test_phase_per_kelvin_matches_finite_difference():
     base = _rig(100e6, 40e3, distance=0.5)
     plan = solve(base)
     raw = base.model_dump()
-    t1 = plan.air.temperature_c
-    speeds = [air.speed_of_sound(273.15 + t1 + dt, raw["air"]["relative_humidity"],
+    t1 = plan.air.temperature_k
+    speeds = [air.speed_of_sound(t1 + dt, raw["air"]["relative_humidity"],
                                  raw["air"]["pressure"]) for dt in (-0.5, 0.5)]
     f = plan.timing.drive_frequency_hz
     dphi = 360 * f * 0.5 * (1 / speeds[0] - 1 / speeds[1])

@@ -9,9 +9,9 @@ from __future__ import annotations
 import importlib
 import pkgutil
 
-from .registry import RULES, Hit, Rule, rule, run_rules
+from .registry import RULES, Hit, Rule, rule, rule_masks, run_rules
 
-__all__ = ["RULES", "Hit", "Rule", "rule", "run_checks", "load_all"]
+__all__ = ["RULES", "Hit", "Rule", "rule", "run_checks", "load_all", "masks"]
 
 _loaded = False
 
@@ -31,6 +31,12 @@ def run_checks(plan, only: tuple[str, ...] | None = None):
     """All findings for a plan (see :func:`~strobeplan.checks.registry.run_rules`)."""
     load_all()
     return run_rules(plan, only)
+
+
+def masks(plan, shape):
+    """code -> bool array of ``shape``: where each rule fires over a grid plan."""
+    load_all()
+    return rule_masks(plan, shape)
 
 
 def findings_markdown() -> str:

@@ -20,7 +20,7 @@ def frequency_error(plan):
     t = plan.timing
     if abs(t.drive_frequency_error_ppm) <= FREQUENCY_ERROR_PPM:
         return None
-    return Hit(f"the drive runs at {render(t.drive_frequency_hz, 'frequency')}, "
+    return Hit(lambda: f"the drive runs at {render(t.drive_frequency_hz, 'frequency')}, "
                f"{t.drive_frequency_error_ppm:+.0f} ppm from the requested "
                f"{render(plan.rig.wave.frequency, 'frequency')}",
                value=t.drive_frequency_error_ppm, limit=FREQUENCY_ERROR_PPM, unit="ppm")
@@ -36,7 +36,7 @@ def off_resonance(plan):
     d = plan.drive
     if d.detuning_db is None or d.detuning_db <= DETUNING_DB:
         return None
-    return Hit(f"the transducer is {d.detuning_db:.1f} dB below its resonance output and "
+    return Hit(lambda: f"the transducer is {d.detuning_db:.1f} dB below its resonance output and "
                f"shifts the phase by {d.transducer_phase_deg:+.0f} deg",
                value=d.detuning_db, limit=DETUNING_DB, unit="dB")
 
@@ -49,7 +49,8 @@ def carrier_not_filtered(plan):
     d = plan.drive
     if d.carrier_attenuation_db is None or d.carrier_attenuation_db >= CARRIER_ATTENUATION_DB:
         return None
-    return Hit(f"the carrier at {render(plan.timing.carrier_frequency_hz, 'frequency')} is only "
+    return Hit(lambda: f"the carrier at {render(plan.timing.carrier_frequency_hz, 'frequency')} "
+                       f"is only "
                f"{d.carrier_attenuation_db:.1f} dB below the wave after the filter",
                value=d.carrier_attenuation_db, limit=CARRIER_ATTENUATION_DB, unit="dB")
 
@@ -62,6 +63,6 @@ def pwm_resolution_low(plan):
     d = plan.drive
     if d.pwm_resolution_bits is None or d.pwm_resolution_bits >= PWM_BITS_MIN:
         return None
-    return Hit(f"the PWM has {d.carrier_period_ticks} ticks per carrier period "
+    return Hit(lambda: f"the PWM has {d.carrier_period_ticks} ticks per carrier period "
                f"({d.pwm_resolution_bits:.1f} bits)", value=d.pwm_resolution_bits,
                limit=PWM_BITS_MIN, unit="bit")

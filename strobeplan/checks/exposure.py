@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import numpy as np
+
 from ..units import render
 from .registry import Hit, rule
 
@@ -19,20 +21,22 @@ BLUR_PIXEL_LIMIT = 2.0
           "pulse misses, reduce the jitter, the phosphor decay or the smear")
 def retention_low(plan):
     e = plan.exposure
-    if e is None or e.retention >= e.min_retention:
+    if e is None:
         return None
-    width = plan.rig.strobe.pulse_width
-    if e.max_pulse_width_s is not None:
-        hint = (f"shorten strobe.pulse_width from {render(width, 'time')} to at most "
-                f"{render(e.max_pulse_width_s, 'time')}")
-    else:
-        hint = (f"no pulse width reaches {e.min_retention:.0%}: jitter keeps "
+    width = plan.design.pulse_width
+
+    def hint():
+        if e.max_pulse_width_s is not None:
+            return (f"shorten strobe.pulse_width from {render(width, 'time')} to at most "
+                    f"{render(e.max_pulse_width_s, 'time')}")
+        return (f"no pulse width reaches {e.min_retention:.0%}: jitter keeps "
                 f"{e.jitter_retention:.1%}, the phosphor {e.phosphor_retention:.1%} and the "
                 f"smear {e.smear:.1%}; reduce those first")
-    return Hit(f"the {render(width, 'time')} flash keeps {e.retention:.1%} of the wave's "
-               f"contrast at {render(plan.timing.drive_frequency_hz, 'frequency')} (target "
-               f"{e.min_retention:.0%})", value=e.retention, limit=e.min_retention, unit="1",
-               hint=hint)
+
+    return Hit(lambda: f"the {render(width, 'time')} flash keeps {e.retention:.1%} of the "
+               f"wave's contrast at {render(plan.timing.drive_frequency_hz, 'frequency')} "
+               f"(target {e.min_retention:.0%})", value=e.retention, limit=e.min_retention,
+               unit="1", hint=hint, when=~(np.asarray(e.retention) >= e.min_retention))
 
 
 @rule("exposure.phosphor_dominates", "note",
@@ -45,15 +49,14 @@ def phosphor_dominates(plan):
     led = plan.rig.led
     if led is None or led.phosphor_fraction <= 0 or not led.phosphor_decay:
         return None
-    width = plan.rig.strobe.pulse_width
+    width = plan.design.pulse_width
     limit = PHOSPHOR_RATIO * led.phosphor_decay
-    if width >= limit:
-        return None
-    return Hit(f"the {render(width, 'time')} gate is under {PHOSPHOR_RATIO:g} phosphor decay "
-               f"times ({render(led.phosphor_decay, 'time')}); {led.phosphor_fraction:.0%} of "
+    return Hit(lambda: f"the {render(width, 'time')} gate is under {PHOSPHOR_RATIO:g} phosphor "
+               f"decay times ({render(led.phosphor_decay, 'time')}); {led.phosphor_fraction:.0%} "
+               f"of "
                f"the light trails it (optical FWHM "
                f"{render(plan.exposure.optical_duration_s, 'time')})",
-               value=width, limit=limit, unit="s")
+               value=width, limit=limit, unit="s", when=~(np.asarray(width) >= limit))
 
 
 @rule("exposure.blur_over_pixel", "warning",
@@ -64,13 +67,13 @@ def phosphor_dominates(plan):
           "coarser camera.object_pixel")
 def blur_over_pixel(plan):
     e = plan.exposure
-    if (e is None or plan.rig.wave.kind != "travelling" or e.blur_pixels is None
-            or e.blur_pixels <= BLUR_PIXEL_LIMIT):
+    if e is None or plan.rig.wave.kind != "travelling" or e.blur_pixels is None:
         return None
     pixel = plan.rig.camera.object_pixel
     width_for_limit = BLUR_PIXEL_LIMIT * pixel / plan.air.speed_of_sound_m_s
-    return Hit(f"the wave moves {render(e.blur_distance_m, 'length')} "
+    return Hit(lambda: f"the wave moves {render(e.blur_distance_m, 'length')} "
                f"({e.blur_pixels:.3g} px) during the {render(e.optical_duration_s, 'time')} "
                "flash", value=e.blur_pixels, limit=BLUR_PIXEL_LIMIT, unit="px",
-               hint=f"an optical duration of at most {render(width_for_limit, 'time')} keeps "
-                    f"the blur within {BLUR_PIXEL_LIMIT:g} px")
+               hint=lambda: f"an optical duration of at most {render(width_for_limit, 'time')} "
+                            f"keeps the blur within {BLUR_PIXEL_LIMIT:g} px",
+               when=~(np.asarray(e.blur_pixels) <= BLUR_PIXEL_LIMIT))

@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import math
 
+import numpy as np
+
 from ..units import render
 from .registry import Hit, rule
 
@@ -39,7 +41,7 @@ def over_input_max(plan):
     t = _link(plan)
     if t is None or not (t.margin_max_v < 0):
         return None
-    return Hit(f"{_pair(t)} from {t.source_family} can reach {_v(t.v_high_max_v)} at the "
+    return Hit(lambda: f"{_pair(t)} from {t.source_family} can reach {_v(t.v_high_max_v)} at the "
                f"{t.destination_family} input (nominal {_v(t.v_nominal_v)}), above its "
                f"maximum {_v(t.input_max_v)}: the input's protection conducts",
                value=t.v_high_max_v, limit=t.input_max_v, unit="V", hint=_alternative_hint(t))
@@ -56,7 +58,7 @@ def below_vih(plan):
     if t is None or t.v_high_min_v is None or not math.isfinite(t.v_high_min_v) \
             or t.margin_high_v >= 0:
         return None
-    return Hit(f"{_pair(t)} from {t.source_family} guarantees only {_v(t.v_high_min_v)} at "
+    return Hit(lambda: f"{_pair(t)} from {t.source_family} guarantees only {_v(t.v_high_min_v)} at "
                f"the {t.destination_family} input, below VIH {_v(t.vih_v)}: the camera may "
                f"miss triggers", value=t.v_high_min_v, limit=t.vih_v, unit="V",
                hint=_alternative_hint(t))
@@ -71,7 +73,8 @@ def low_above_vil(plan):
     t = _link(plan)
     if t is None or not (t.margin_low_v < 0):
         return None
-    return Hit(f"the low level at the {t.destination_family} input can be {_v(t.v_low_max_v)}, "
+    return Hit(lambda: f"the low level at the {t.destination_family} input can be "
+                       f"{_v(t.v_low_max_v)}, "
                f"above VIL {_v(t.vil_v)}: false triggers", value=t.v_low_max_v, limit=t.vil_v,
                unit="V", hint=_alternative_hint(t))
 
@@ -84,7 +87,7 @@ def source_overloaded(plan):
     t = _link(plan)
     if t is None or not (t.current_a > t.rated_current_a * (1 + 1e-12)):
         return None
-    return Hit(f"{_pair(t)} draws up to {render(t.current_a, 'current')} from the "
+    return Hit(lambda: f"{_pair(t)} draws up to {render(t.current_a, 'current')} from the "
                f"{t.source_family} output, above its rated {render(t.rated_current_a, 'current')}"
                f": no output level is guaranteed and the pin may be overstressed",
                value=t.current_a, limit=t.rated_current_a, unit="A", hint=_alternative_hint(t))
@@ -98,12 +101,14 @@ def source_overloaded(plan):
           "use a logic-level translator")
 def edge_too_slow(plan):
     t = _link(plan)
-    if t is None or t.edge_limit_s is None or not (t.edge_time_max_s > t.edge_limit_s):
+    if t is None or t.edge_limit_s is None:
         return None
-    return Hit(f"the trigger edge takes up to {render(t.edge_time_max_s, 'time')} (10-90 %, "
+    return Hit(lambda: f"the trigger edge takes up to {render(t.edge_time_max_s, 'time')} (10-90 "
+                       f"%, "
                f"{render(t.capacitance_f, 'capacitance')} input), more than 1 % of the "
                f"timing it serves ({render(t.edge_limit_s, 'time')})",
-               value=t.edge_time_max_s, limit=t.edge_limit_s, unit="s")
+               value=t.edge_time_max_s, limit=t.edge_limit_s, unit="s",
+               when=t.edge_time_max_s > np.asarray(t.edge_limit_s))
 
 
 @rule("trigger_link.no_feasible_pair", "fault",
@@ -115,7 +120,8 @@ def no_feasible_pair(plan):
     t = plan.trigger_link
     if t is None or t.mode != "infeasible":
         return None
-    return Hit(f"no {t.series} divider from {t.source_family} to {t.destination_family} is safe "
+    return Hit(lambda: f"no {t.series} divider from {t.source_family} to {t.destination_family} "
+                       f"is safe "
                f"and reliable in the worst case: {t.reason}", hint=t.recommendation)
 
 
@@ -128,7 +134,7 @@ def gate_below_vih(plan):
     g = plan.gate_link
     if g is None or g.margin_high_v >= 0:
         return None
-    return Hit(f"the {g.source_family} output guarantees {_v(g.v_high_min_v)}, below the "
+    return Hit(lambda: f"the {g.source_family} output guarantees {_v(g.v_high_min_v)}, below the "
                f"{g.destination_family} gate-driver input's VIH {_v(g.vih_v)}: flashes may be "
                f"missed", value=g.v_high_min_v, limit=g.vih_v, unit="V")
 
@@ -141,6 +147,7 @@ def gate_over_input_max(plan):
     g = plan.gate_link
     if g is None or g.margin_max_v >= 0:
         return None
-    return Hit(f"the {g.source_family} output can reach {_v(g.v_high_max_v)}, above the gate "
+    return Hit(lambda: f"the {g.source_family} output can reach {_v(g.v_high_max_v)}, above the "
+                       f"gate "
                f"driver's input maximum {_v(g.input_max_v)}", value=g.v_high_max_v,
                limit=g.input_max_v, unit="V")

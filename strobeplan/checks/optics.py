@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import math
 
+import numpy as np
+
 from ..units import render
 from .registry import Hit, rule
 
@@ -23,16 +25,20 @@ ULTRASOUND_SOURCE = ("Howard, Hansen & Zander 2004, J. Occup. Health Safety - Au
           "cutoff_distance or a smaller cutoff_opening (cut more of the source image)")
 def not_visible(plan):
     o = plan.optics
-    if o is None or o.visible_contrast is None or o.visible_contrast >= o.min_contrast:
+    if o is None or o.visible_contrast is None:
         return None
-    factor = o.min_contrast / o.visible_contrast if o.visible_contrast > 0 else float("inf")
-    opening = plan.rig.optics.cutoff_opening / factor
-    return Hit(f"the wave's image contrast would be {o.visible_contrast:.3g} (optics "
+
+    def hint():
+        factor = o.min_contrast / o.visible_contrast if o.visible_contrast > 0 else math.inf
+        opening = plan.rig.optics.cutoff_opening / factor
+        return (f"gain x{factor:.3g}: e.g. cutoff_opening {render(opening, 'length')}, or "
+                f"+{20 * _log10(factor):.1f} dB at the view")
+
+    return Hit(lambda: f"the wave's image contrast would be {o.visible_contrast:.3g} (optics "
                f"{abs(o.contrast):.3g} at {o.spl_at_view_db:.1f} dB, retention "
                f"{plan.exposure.retention:.3g}); the camera needs {o.min_contrast:.3g}",
-               value=o.visible_contrast, limit=o.min_contrast, unit="1",
-               hint=f"gain x{factor:.3g}: e.g. cutoff_opening {render(opening, 'length')}, or "
-                    f"+{20 * _log10(factor):.1f} dB at the view")
+               value=o.visible_contrast, limit=o.min_contrast, unit="1", hint=hint,
+               when=~(np.asarray(o.visible_contrast) >= o.min_contrast))
 
 
 def _log10(x: float) -> float:
@@ -47,9 +53,10 @@ def saturated(plan):
     o = plan.optics
     if o is None or not o.saturated:
         return None
-    return Hit(f"knife-edge contrast {abs(o.contrast):.3g} at {o.spl_at_view_db:.1f} dB: the "
+    return Hit(lambda: f"knife-edge contrast {abs(o.contrast):.3g} at {o.spl_at_view_db:.1f} dB: "
+                       f"the "
                "image saturates", value=abs(o.contrast), limit=1.0, unit="1",
-               hint=f"widen optics.cutoff_opening to at least "
+               hint=lambda: f"widen optics.cutoff_opening to at least "
                     f"{render(plan.rig.optics.cutoff_opening * abs(o.contrast), 'length')}")
 
 
@@ -63,7 +70,7 @@ def near_field(plan):
     if o is None or not o.in_near_field:
         return None
     d = plan.rig.emitter.distance_to_view
-    return Hit(f"the view ({render(d, 'length')}) lies inside the near field "
+    return Hit(lambda: f"the view ({render(d, 'length')}) lies inside the near field "
                f"({render(o.near_field_m, 'length')}); the SPL at the view is uncertain",
                value=d, limit=o.near_field_m, unit="m")
 
@@ -83,7 +90,7 @@ def ultrasound_exposure(plan):
         return None
     if o.spl_at_1m_db <= ULTRASOUND_LIMIT_DB:
         return None
-    return Hit(f"about {o.spl_at_1m_db:.0f} dB at 1 m from the emitter at "
+    return Hit(lambda: f"about {o.spl_at_1m_db:.0f} dB at 1 m from the emitter at "
                f"{render(f, 'frequency')}, above the {ULTRASOUND_LIMIT_DB:g} dB occupational "
                "consensus for 25-50 kHz (Howard, Hansen & Zander 2004); a caution: local "
                "rules decide",

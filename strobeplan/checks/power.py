@@ -2,11 +2,13 @@
 
 from __future__ import annotations
 
+import numpy as np
+
+from ..stages.power import RATING_DISAGREEMENT
 from ..units import render
 from .registry import Hit, rule
 
 EXTRAPOLATION_RATIO = 2.0  # fit used beyond 2x the highest datasheet point (issue 4)
-THERMAL_MARGIN_MIN = 10.0  # [K] common practice: keep 10 K below junction_max
 EDGE_FRACTION = 0.10  # edges over 10 % of the pulse width (issue 4)
 BRIGHTNESS_CHANGE_MAX = 0.05  # 5 % flash-to-flash change is visible (common practice)
 REACTION_TIME = 10.0  # [s] nobody notices and switches off a stuck gate faster (issue 4)
@@ -29,12 +31,31 @@ def _c(kelvin):
           "below led.rated_pulse_current_a, or shorten the pulse / lower the duty")
 def pulse_over_rating(plan):
     s = plan.led
-    if s is None or s.rated_pulse_current_a is None or s.peak_current_a <= s.rated_pulse_current_a:
+    if s is None or s.rated_pulse_current_a is None:
         return None
-    return Hit(f"peak LED current {render(s.peak_current_a, 'current')} exceeds the "
+    return Hit(lambda: f"peak LED current {render(s.peak_current_a, 'current')} exceeds the "
                f"{render(s.rated_pulse_current_a, 'current')} allowed by {s.rating_source} at "
-               f"{render(plan.rig.strobe.pulse_width, 'time')} and {s.rating_duty:.2%} duty",
-               value=s.peak_current_a, limit=s.rated_pulse_current_a, unit="A")
+               f"{render(plan.design.pulse_width, 'time')} and {s.rating_duty:.2%} duty",
+               value=s.peak_current_a, limit=s.rated_pulse_current_a, unit="A",
+               when=~(np.asarray(s.peak_current_a) <= s.rated_pulse_current_a))
+
+
+@rule("led.ratings_disagree", "note",
+      trigger=f"led.max_pulse_current and the led.pulse_ratings value at the flash's width and "
+              f"duty differ by more than {RATING_DISAGREEMENT:.0%}: the lower one is used",
+      fix="check both datasheet figures (a flat maximum usually belongs to one width and duty "
+          "of the pulse table)")
+def ratings_disagree(plan):
+    s = plan.led
+    if s is None or s.table_pulse_current_a is None or s.max_pulse_current_a is None:
+        return None
+    table, flat = np.asarray(s.table_pulse_current_a), s.max_pulse_current_a
+    spread = np.abs(table - flat) / np.minimum(table, flat)
+    return Hit(lambda: f"led.max_pulse_current {render(flat, 'current')} and the pulse table's "
+               f"{render(s.table_pulse_current_a, 'current')} at "
+               f"{render(plan.design.pulse_width, 'time')} differ by {spread:.0%}; the lower "
+               "is the limit", value=s.table_pulse_current_a, limit=flat, unit="A",
+               when=spread > RATING_DISAGREEMENT)
 
 
 @rule("led.rating_outside_table", "warning",
@@ -44,12 +65,12 @@ def pulse_over_rating(plan):
           "the pulse inside the table")
 def rating_outside_table(plan):
     s = plan.led
-    if s is None or s.rating_inside_table is not False:
+    if s is None or s.rating_inside_table is None:
         return None
-    return Hit(f"{render(plan.rig.strobe.pulse_width, 'time')} at {s.rating_duty:.2%} in-burst "
-               f"duty lies outside led.pulse_ratings; the allowed current "
-               f"{render(s.rated_pulse_current_a, 'current')} is extrapolated",
-               value=s.rating_duty, unit="1")
+    return Hit(lambda: f"{render(plan.design.pulse_width, 'time')} at {s.rating_duty:.2%} "
+               f"in-burst duty lies outside led.pulse_ratings; the allowed current "
+               f"{render(s.table_pulse_current_a, 'current')} is extrapolated",
+               value=s.rating_duty, unit="1", when=~np.asarray(s.rating_inside_table))
 
 
 @rule("led.no_pulse_rating", "warning",
@@ -59,7 +80,8 @@ def no_pulse_rating(plan):
     s = plan.led
     if s is None or plan.rig.led.pulse_ratings:
         return None
-    return Hit(f"no pulse-rating table: the {render(s.peak_current_a, 'current')} overdrive is "
+    return Hit(lambda: f"no pulse-rating table: the {render(s.peak_current_a, 'current')} "
+                       f"overdrive is "
                f"checked against the junction temperature only")
 
 
@@ -70,13 +92,15 @@ def no_pulse_rating(plan):
           "datasheet's pulsed I-V curve or a bench measurement)")
 def fit_extrapolated(plan):
     s = plan.led
-    if s is None or s.peak_current_a <= EXTRAPOLATION_RATIO * s.datasheet_max_current_a:
+    if s is None:
         return None
-    return Hit(f"peak current {render(s.peak_current_a, 'current')} is "
+    return Hit(lambda: f"peak current {render(s.peak_current_a, 'current')} is "
                f"{s.peak_current_a / s.datasheet_max_current_a:.1f}x the highest datasheet "
                f"point ({render(s.datasheet_max_current_a, 'current')}); the forward voltage, "
                "hence the current, is an estimate", value=s.peak_current_a,
-               limit=EXTRAPOLATION_RATIO * s.datasheet_max_current_a, unit="A")
+               limit=EXTRAPOLATION_RATIO * s.datasheet_max_current_a, unit="A",
+               when=~(np.asarray(s.peak_current_a)
+                      <= EXTRAPOLATION_RATIO * s.datasheet_max_current_a))
 
 
 @rule("led.fit_assumed", "note",
@@ -87,7 +111,7 @@ def fit_assumed(plan):
     s = plan.led
     if s is None or not s.fit_assumed or s.fit_assumed == "series resistance given":
         return None
-    return Hit(f"LED model: {s.fit_assumed}")
+    return Hit(lambda: f"LED model: {s.fit_assumed}")
 
 
 @rule("led.junction_over_limit", "hazard",
@@ -97,23 +121,26 @@ def fit_assumed(plan):
           "flash fewer times per frame, or improve the heat sinking (led.thermal)")
 def junction_over_limit(plan):
     s = plan.led
-    if s is None or s.thermal_margin_k >= 0:
+    if s is None:
         return None
-    lim = plan.rig.led.junction_max
-    return Hit(f"junction peaks at {_c(s.junction_peak_c + 273.15)}, above the {_c(lim)} limit",
-               value=s.junction_peak_c + 273.15, limit=lim, unit="K")
+    lim = s.junction_max_k
+    return Hit(lambda: f"junction peaks at {_c(s.junction_peak_k)}, above the {_c(lim)} limit",
+               value=s.junction_peak_k, limit=lim, unit="K",
+               when=~(np.asarray(s.thermal_margin_k) >= 0))
 
 
 @rule("led.thermal_margin_low", "warning",
-      trigger=f"the peak junction temperature is within {THERMAL_MARGIN_MIN:g} K of "
-              "led.junction_max (common practice margin)",
+      trigger="the peak junction temperature is within led.min_margin (default 10 K, common "
+              "practice) of led.junction_max",
       fix="lower the peak current or the flash count, or improve the heat sinking")
 def thermal_margin_low(plan):
     s = plan.led
-    if s is None or not (0 <= s.thermal_margin_k < THERMAL_MARGIN_MIN):
+    if s is None:
         return None
-    return Hit(f"only {s.thermal_margin_k:.1f} K below the junction limit",
-               value=s.thermal_margin_k, limit=THERMAL_MARGIN_MIN, unit="K")
+    m = np.asarray(s.thermal_margin_k)
+    return Hit(lambda: f"only {s.thermal_margin_k:.1f} K below the junction limit (keep "
+               f"{s.min_margin_k:g} K)", value=s.thermal_margin_k, limit=s.min_margin_k,
+               unit="K", when=(m >= 0) & (m < s.min_margin_k))
 
 
 @rule("led.average_over_dc_rating", "hazard",
@@ -122,12 +149,13 @@ def thermal_margin_low(plan):
       fix="flash fewer times per frame, lower the frame rate or the peak current")
 def average_over_dc_rating(plan):
     s = plan.led
-    lim = plan.rig.led.max_dc_current if plan.rig.led else None
-    if s is None or s.average_current_a <= lim:
+    if s is None:
         return None
-    return Hit(f"average LED current {render(s.average_current_a, 'current')} exceeds the DC "
+    lim = plan.rig.led.max_dc_current
+    return Hit(lambda: f"average LED current {render(s.average_current_a, 'current')} exceeds "
+                       f"the DC "
                f"rating {render(lim, 'current')}", value=s.average_current_a, limit=lim,
-               unit="A")
+               unit="A", when=~(np.asarray(s.average_current_a) <= lim))
 
 
 @rule("switch.gate_drive_low", "hazard",
@@ -140,7 +168,7 @@ def gate_drive_low(plan):
     if s is None or s.gate_drive_margin_v >= 0:
         return None
     sw, gd = plan.rig.switch, plan.rig.gate_driver
-    return Hit(f"{render(gd.supply, 'voltage')} gate drive against a "
+    return Hit(lambda: f"{render(gd.supply, 'voltage')} gate drive against a "
                f"{render(sw.rated_gate_voltage, 'voltage')} rating and a "
                f"{render(sw.plateau_voltage, 'voltage')} plateau (margin "
                f"{render(s.gate_drive_margin_v, 'voltage')})", value=gd.supply,
@@ -154,11 +182,12 @@ def gate_drive_low(plan):
           "larger gate resistor, add a clamp or snubber, or use a higher-voltage switch")
 def overshoot(plan):
     s = plan.switch
-    if s is None or s.vds_peak_v is None or s.vds_peak_v <= plan.rig.switch.max_drain_voltage:
+    if s is None or s.vds_peak_v is None:
         return None
     lim = plan.rig.switch.max_drain_voltage
-    return Hit(f"drain peaks at {render(s.vds_peak_v, 'voltage')} at turn-off, above the "
-               f"{render(lim, 'voltage')} rating", value=s.vds_peak_v, limit=lim, unit="V")
+    return Hit(lambda: f"drain peaks at {render(s.vds_peak_v, 'voltage')} at turn-off, above "
+               f"the {render(lim, 'voltage')} rating", value=s.vds_peak_v, limit=lim, unit="V",
+               when=~(np.asarray(s.vds_peak_v) <= lim))
 
 
 @rule("switch.no_loop_inductance", "note",
@@ -175,12 +204,12 @@ def no_loop_inductance(plan):
       fix="raise supply.series_resistor or use a switch with a higher pulsed-current rating")
 def switch_pulse_over_rating(plan):
     s = plan.switch
-    if s is None or s.peak_current_a <= plan.rig.switch.max_pulse_current:
+    if s is None:
         return None
     lim = plan.rig.switch.max_pulse_current
-    return Hit(f"peak current {render(s.peak_current_a, 'current')} exceeds the switch's "
+    return Hit(lambda: f"peak current {render(s.peak_current_a, 'current')} exceeds the switch's "
                f"{render(lim, 'current')} pulse rating", value=s.peak_current_a, limit=lim,
-               unit="A")
+               unit="A", when=~(np.asarray(s.peak_current_a) <= lim))
 
 
 @rule("switch.slow_edges", "warning",
@@ -190,12 +219,13 @@ def switch_pulse_over_rating(plan):
           "gate charge, or a longer pulse")
 def slow_edges(plan):
     s = plan.switch
-    width = plan.rig.strobe.pulse_width
-    if s is None or s.rise_time_s + s.fall_time_s <= EDGE_FRACTION * width:
+    if s is None:
         return None
-    return Hit(f"edges {render(s.rise_time_s, 'time')} + {render(s.fall_time_s, 'time')} "
+    width = plan.design.pulse_width
+    return Hit(lambda: f"edges {render(s.rise_time_s, 'time')} + {render(s.fall_time_s, 'time')} "
                f"({s.edges_source}) against a {render(width, 'time')} pulse",
-               value=s.rise_time_s + s.fall_time_s, limit=EDGE_FRACTION * width, unit="s")
+               value=s.rise_time_s + s.fall_time_s, limit=EDGE_FRACTION * width, unit="s",
+               when=~(s.rise_time_s + s.fall_time_s <= EDGE_FRACTION * np.asarray(width)))
 
 
 @rule("switch.edges_measured", "note",
@@ -206,7 +236,7 @@ def edges_measured(plan):
     s = plan.switch
     if s is None or not s.edges_source.startswith("measured"):
         return None
-    return Hit(f"edges from measurement: rise {render(s.rise_time_s, 'time')}, fall "
+    return Hit(lambda: f"edges from measurement: rise {render(s.rise_time_s, 'time')}, fall "
                f"{render(s.fall_time_s, 'time')}")
 
 
@@ -216,11 +246,12 @@ def edges_measured(plan):
           "larger boost converter")
 def power_over_limit(plan):
     s = plan.supply
-    if s is None or s.average_power_w <= plan.rig.supply.max_power:
+    if s is None:
         return None
     lim = plan.rig.supply.max_power
-    return Hit(f"the flashes draw {render(s.average_power_w, 'power')} on average, above the "
-               f"boost's {render(lim, 'power')}", value=s.average_power_w, limit=lim, unit="W")
+    return Hit(lambda: f"the flashes draw {render(s.average_power_w, 'power')} on average, "
+               f"above the boost's {render(lim, 'power')}", value=s.average_power_w, limit=lim,
+               unit="W", when=~(np.asarray(s.average_power_w) <= lim))
 
 
 @rule("supply.current_over_limit", "fault",
@@ -228,12 +259,13 @@ def power_over_limit(plan):
       fix="flash fewer times per frame, lower the frame rate or the peak current")
 def current_over_limit(plan):
     s = plan.supply
-    if s is None or s.average_current_a <= plan.rig.supply.max_current:
+    if s is None:
         return None
     lim = plan.rig.supply.max_current
-    return Hit(f"the flashes draw {render(s.average_current_a, 'current')} on average, above "
+    return Hit(lambda: f"the flashes draw {render(s.average_current_a, 'current')} on average, "
+                       f"above "
                f"the boost's {render(lim, 'current')} limit", value=s.average_current_a,
-               limit=lim, unit="A")
+               limit=lim, unit="A", when=~(np.asarray(s.average_current_a) <= lim))
 
 
 @rule("supply.recharge_slow", "warning",
@@ -243,11 +275,12 @@ def current_over_limit(plan):
           "fewer flashes per frame")
 def recharge_slow(plan):
     s = plan.supply
-    if s is None or s.recharge_time_s <= s.idle_time_s:
+    if s is None:
         return None
-    return Hit(f"recharge takes {render(s.recharge_time_s, 'time')}, the idle time is "
+    return Hit(lambda: f"recharge takes {render(s.recharge_time_s, 'time')}, the idle time is "
                f"{render(s.idle_time_s, 'time')}", value=s.recharge_time_s,
-               limit=s.idle_time_s, unit="s")
+               limit=s.idle_time_s, unit="s",
+               when=~(np.asarray(s.recharge_time_s) <= s.idle_time_s))
 
 
 @rule("supply.brightness_drop", "warning",
@@ -256,11 +289,12 @@ def recharge_slow(plan):
       fix="a larger storage capacitor or a boost with a higher current limit")
 def brightness_drop(plan):
     s = plan.supply
-    if s is None or -s.brightness_change <= BRIGHTNESS_CHANGE_MAX:
+    if s is None:
         return None
-    return Hit(f"flash current falls {-s.brightness_change:.1%} across the burst "
+    return Hit(lambda: f"flash current falls {-s.brightness_change:.1%} across the burst "
                f"({render(s.burst_droop_v, 'voltage')} droop)", value=-s.brightness_change,
-               limit=BRIGHTNESS_CHANGE_MAX, unit="1")
+               limit=BRIGHTNESS_CHANGE_MAX, unit="1",
+               when=~(-np.asarray(s.brightness_change) <= BRIGHTNESS_CHANGE_MAX))
 
 
 @rule("supply.stored_energy", "note",
@@ -270,7 +304,7 @@ def stored_energy(plan):
     s = plan.supply
     if s is None:
         return None
-    return Hit(f"the storage capacitor holds {render(s.stored_energy_j, 'energy')}",
+    return Hit(lambda: f"the storage capacitor holds {render(s.stored_energy_j, 'energy')}",
                value=s.stored_energy_j, unit="J")
 
 
@@ -280,11 +314,18 @@ def stored_energy(plan):
       fix=STUCK_ON_FIX)
 def burnout_fast(plan):
     s = plan.stuck_on
-    if s is None or s.time_to_limit_s is None or s.time_to_limit_s >= REACTION_TIME:
+    if s is None:
         return None
-    return Hit(f"a stuck gate drives {render(s.dc_current_a, 'current')} ({s.limited_by}) and "
+    return Hit(lambda: f"a stuck gate drives {render(s.dc_current_a, 'current')} "
+                       f"({s.limited_by}) and "
                f"the LED reaches its junction limit in {render(s.time_to_limit_s, 'time')}",
-               value=s.time_to_limit_s, limit=REACTION_TIME, unit="s")
+               value=s.time_to_limit_s, limit=REACTION_TIME, unit="s",
+               when=_reaches(s) & ~(np.asarray(s.time_to_limit_s, dtype=float) >= REACTION_TIME))
+
+
+def _reaches(s):
+    """True where a stuck gate brings the junction to its limit at all."""
+    return np.isfinite(np.asarray(s.time_to_limit_s, dtype=float))
 
 
 @rule("stuck_on.burnout_slow", "warning",
@@ -293,11 +334,13 @@ def burnout_fast(plan):
       fix=STUCK_ON_FIX)
 def burnout_slow(plan):
     s = plan.stuck_on
-    if s is None or s.time_to_limit_s is None or s.time_to_limit_s < REACTION_TIME:
+    if s is None:
         return None
-    return Hit(f"a stuck gate drives {render(s.dc_current_a, 'current')} and the LED reaches its "
+    return Hit(lambda: f"a stuck gate drives {render(s.dc_current_a, 'current')} and the LED "
+                       f"reaches its "
                f"junction limit after {render(s.time_to_limit_s, 'time')}",
-               value=s.time_to_limit_s, limit=REACTION_TIME, unit="s")
+               value=s.time_to_limit_s, limit=REACTION_TIME, unit="s",
+               when=_reaches(s) & (np.asarray(s.time_to_limit_s, dtype=float) >= REACTION_TIME))
 
 
 @rule("stuck_on.resistor_overload", "hazard",
@@ -306,9 +349,9 @@ def burnout_slow(plan):
       fix=STUCK_ON_FIX)
 def resistor_overload(plan):
     s = plan.stuck_on
-    if s is None or s.resistor_power_w <= plan.rig.supply.series_resistor_power:
+    if s is None:
         return None
     lim = plan.rig.supply.series_resistor_power
-    return Hit(f"a stuck gate puts {render(s.resistor_power_w, 'power')} into the "
+    return Hit(lambda: f"a stuck gate puts {render(s.resistor_power_w, 'power')} into the "
                f"{render(lim, 'power')} series resistor", value=s.resistor_power_w,
-               limit=lim, unit="W")
+               limit=lim, unit="W", when=~(np.asarray(s.resistor_power_w) <= lim))

@@ -18,6 +18,8 @@ from collections.abc import Callable
 from dataclasses import dataclass
 from typing import Any
 
+import numpy as np
+
 from ..plan import SEVERITIES, SEVERITY_RANK, Finding
 
 
@@ -85,6 +87,23 @@ def _scalar(x):
         return float(x)
     except (TypeError, ValueError):
         return x
+
+
+def rule_masks(plan, shape: tuple[int, ...] = ()) -> dict[str, Any]:
+    """code -> where the rule fires (bool array of ``shape``, the plan's design shape), for
+    every rule that fires somewhere. The design search's view of the same rules."""
+    out: dict[str, Any] = {}
+    for r in RULES.values():
+        result = r.func(plan)
+        if result is None:
+            continue
+        hits = result if isinstance(result, list) else [result]
+        mask = np.zeros(shape, dtype=bool)
+        for h in hits:
+            mask = mask | np.broadcast_to(np.asarray(h.when, dtype=bool), shape)
+        if mask.any():
+            out[r.code] = mask
+    return out
 
 
 def run_rules(plan, only: tuple[str, ...] | None = None) -> list[Finding]:

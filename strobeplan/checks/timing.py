@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import numpy as np
+
 from ..units import render
 from .registry import Hit, rule
 
@@ -18,11 +20,12 @@ SMEAR_LIMIT = 0.98
           "(flash.light_length_s), or shorten strobe.pulse_width")
 def no_flash_in_exposure(plan):
     t, cam = plan.timing, plan.rig.camera
-    if cam is None or t.flashes_per_frame or cam.shutter == "rolling":
+    if cam is None or cam.shutter == "rolling":
         return None
-    return Hit(f"the {render(t.window_s, 'time')} exposure is shorter than one light pulse "
-               f"({render(plan.flash.light_length_s, 'time')}): the frame stays dark",
-               value=t.window_s, limit=plan.flash.light_length_s, unit="s")
+    return Hit(lambda: f"the {render(t.window_s, 'time')} exposure is shorter than one light "
+               f"pulse ({render(plan.flash.light_length_s, 'time')}): the frame stays dark",
+               value=t.window_s, limit=plan.flash.light_length_s, unit="s",
+               when=~(np.asarray(t.flashes_per_frame) >= 1))
 
 
 @rule("timing.rolling_window_too_short", "fault",
@@ -34,12 +37,11 @@ def rolling_window_too_short(plan):
     t, cam = plan.timing, plan.rig.camera
     if cam is None or cam.shutter != "rolling":
         return None
-    if t.flashes_per_frame:
-        return None
-    return Hit(f"all rows expose together for only {render(t.window_s, 'time')} "
+    return Hit(lambda: f"all rows expose together for only {render(t.window_s, 'time')} "
                f"(exposure {render(cam.exposure, 'time')} - readout "
                f"{render(cam.readout, 'time')}); a flash outside it bands the image",
-               value=t.window_s, limit=plan.flash.light_length_s, unit="s")
+               value=t.window_s, limit=plan.flash.light_length_s, unit="s",
+               when=~(np.asarray(t.flashes_per_frame) >= 1))
 
 
 @rule("timing.phase_step_below_resolution", "warning",
@@ -50,7 +52,7 @@ def phase_step_below_resolution(plan):
     t = plan.timing
     if t.sweep_step_deg is None or t.sweep_step_deg >= t.phase_resolution_deg:
         return None
-    return Hit(f"sweep step {t.sweep_step_deg:.4g} deg is finer than the timer resolution "
+    return Hit(lambda: f"sweep step {t.sweep_step_deg:.4g} deg is finer than the timer resolution "
                f"{t.phase_resolution_deg:.4g} deg", value=t.sweep_step_deg,
                limit=t.phase_resolution_deg, unit="deg")
 
@@ -64,11 +66,11 @@ def clock_drift_smear(plan):
     t = plan.timing
     if plan.rig.controller.shared_clock or t.drift_per_exposure_deg is None:
         return None
-    if t.mode == "slow_motion" or t.smear >= SMEAR_LIMIT:
+    if t.mode == "slow_motion":
         return None
-    return Hit(f"the clocks drift {t.drift_per_exposure_deg:.3g} deg within one exposure; "
+    return Hit(lambda: f"the clocks drift {t.drift_per_exposure_deg:.3g} deg within one exposure; "
                f"{t.smear:.1%} of the contrast is kept", value=t.smear, limit=SMEAR_LIMIT,
-               unit="1")
+               unit="1", when=~(np.asarray(t.smear) >= SMEAR_LIMIT))
 
 
 @rule("timing.phase_unlocked", "warning",
@@ -80,7 +82,7 @@ def phase_unlocked(plan):
     t = plan.timing
     if plan.rig.controller.shared_clock:
         return None
-    return Hit(f"the frozen phase can wander by up to {t.clock_drift_deg_per_s:.3g} deg/s "
+    return Hit(lambda: f"the frozen phase can wander by up to {t.clock_drift_deg_per_s:.3g} deg/s "
                "with separate clocks", value=t.clock_drift_deg_per_s, unit="deg/s")
 
 
@@ -90,11 +92,12 @@ def phase_unlocked(plan):
       fix="lower sweep.slow_motion, shorten the exposure, or raise strobe.every")
 def slow_motion_smear(plan):
     t = plan.timing
-    if t.mode != "slow_motion" or plan.rig.camera is None or t.smear >= SMEAR_LIMIT:
+    if t.mode != "slow_motion" or plan.rig.camera is None:
         return None
-    return Hit(f"{t.flashes_per_frame} flashes per frame at "
+    return Hit(lambda: f"{t.flashes_per_frame} flashes per frame at "
                f"{360 * t.slow_motion_step_ticks / t.drive_period_ticks:.3g} deg apart keep "
-               f"{t.smear:.1%} of the contrast", value=t.smear, limit=SMEAR_LIMIT, unit="1")
+               f"{t.smear:.1%} of the contrast", value=t.smear, limit=SMEAR_LIMIT, unit="1",
+               when=~(np.asarray(t.smear) >= SMEAR_LIMIT))
 
 
 @rule("timing.slow_motion_quantised", "warning",
@@ -106,11 +109,11 @@ def slow_motion_quantised(plan):
     if t.mode != "slow_motion":
         return None
     want = plan.rig.sweep.slow_motion
-    if abs(t.apparent_frequency_hz - want) <= 0.05 * abs(want):
-        return None
-    return Hit(f"slow motion realises {render(t.apparent_frequency_hz, 'frequency')} for the "
+    return Hit(lambda: f"slow motion realises {render(t.apparent_frequency_hz, 'frequency')} for "
+                       f"the "
                f"requested {render(want, 'frequency')}", value=t.apparent_frequency_hz,
-               limit=want, unit="Hz")
+               limit=want, unit="Hz",
+               when=~(np.abs(np.asarray(t.apparent_frequency_hz) - want) <= 0.05 * abs(want)))
 
 
 @rule("timing.frame_rate_adjusted", "note",
@@ -119,8 +122,10 @@ def slow_motion_quantised(plan):
       fix="pick a frame rate that divides the flash rate, or accept the reported one")
 def frame_rate_adjusted(plan):
     t, cam = plan.timing, plan.rig.camera
-    if cam is None or abs(t.frame_rate_hz - cam.frame_rate) <= 1e-3 * cam.frame_rate:
+    if cam is None:
         return None
-    return Hit(f"frames run at {render(t.frame_rate_hz, 'frequency')} (asked "
+    return Hit(lambda: f"frames run at {render(t.frame_rate_hz, 'frequency')} (asked "
                f"{render(cam.frame_rate, 'frequency')}) to stay locked to the drive",
-               value=t.frame_rate_hz, limit=cam.frame_rate, unit="Hz")
+               value=t.frame_rate_hz, limit=cam.frame_rate, unit="Hz",
+               when=~(np.abs(np.asarray(t.frame_rate_hz) - cam.frame_rate)
+                      <= 1e-3 * cam.frame_rate))

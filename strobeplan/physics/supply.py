@@ -229,30 +229,40 @@ def burst_sag(supply_voltage, capacitance, esr, series_resistor, on_resistance,
     ----------
     1. Charge balance ``C dV = (Ib - I) dt``, flash by flash.
     """
-    vs, c, esr_, rser, ron, ib, tp, s, n, a, i_s, rs = np.broadcast_arrays(
+    vs, c, esr_, rser, ron, ib, tp, s, n, a, i_s, rs = (x.ravel() for x in np.broadcast_arrays(
         *[np.asarray(x, dtype=float) for x in (
             supply_voltage, capacitance, esr, series_resistor, on_resistance,
             recharge_current, width, spacing, n_pulses, n_vt, saturation_current,
-            led_series_resistance)])
+            led_series_resistance)]))
+    shape = np.broadcast_shapes(*(np.shape(x) for x in (
+        supply_voltage, capacitance, esr, series_resistor, on_resistance, recharge_current,
+        width, spacing, n_pulses, n_vt, saturation_current, led_series_resistance)))
     n = np.maximum(np.rint(n), 1.0)
-    v = vs.copy()
     v_before_last = vs.copy()
     v_end = vs.copy()
-    first = last = None
-    for k in range(int(np.max(n))):
-        op = pulse_operating_point(v, c, esr_, rser, ron, ib, tp, a, i_s, rs)
-        if first is None:
-            first = np.asarray(op.peak_current, dtype=float)
-            last = first.copy()
-        run = k < n
-        last = np.where(run, op.peak_current, last)
-        v_before_last = np.where(run, v, v_before_last)
-        v_end = np.where(run, op.end_voltage, v_end)
-        v_next = np.minimum(vs, np.asarray(op.end_voltage) + ib * (s - tp) / c)
-        if np.array_equal(v_next, v):
-            break  # every later flash starts where this one did: it repeats exactly
-        v = v_next
-    out = BurstSag(vs - v_before_last, vs - v_end, first, last)
+    first = np.empty_like(vs)
+    last = np.empty_like(vs)
+    # Only the candidates whose burst still changes are stepped: once a flash starts where
+    # the previous one did, every later flash repeats it exactly.
+    act = np.arange(vs.size)
+    v = vs.copy()
+    k = 0
+    while act.size:
+        op = pulse_operating_point(v, c[act], esr_[act], rser[act], ron[act], ib[act], tp[act],
+                                   a[act], i_s[act], rs[act])
+        peak = np.asarray(op.peak_current, dtype=float)
+        end = np.asarray(op.end_voltage, dtype=float)
+        if k == 0:
+            first[act] = peak
+        last[act] = peak
+        v_before_last[act] = v
+        v_end[act] = end
+        v_next = np.minimum(vs[act], end + ib[act] * (s[act] - tp[act]) / c[act])
+        more = (k + 1 < n[act]) & (v_next != v)
+        act, v = act[more], v_next[more]
+        k += 1
+    out = BurstSag(*((x).reshape(shape) for x in (vs - v_before_last, vs - v_end, first,
+                                                   last)))
     if out.at_end.ndim == 0:
         return BurstSag(*(float(x) for x in out))
     return out

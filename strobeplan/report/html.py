@@ -17,9 +17,10 @@ import html
 import io
 import json
 import re
+from dataclasses import fields
 
 from ..errors import RigError
-from .text import CAUTION, caution_lines, label_and_value
+from .text import CAUTION, caution_lines, label_and_value, section_rows
 
 SVG_HASHSALT = "strobeplan"
 PLOT_ORDER = ("timing", "pulse", "thermal", "divider", "sweep", "tradeoff")
@@ -121,14 +122,15 @@ def figure_svg(fig, prefix: str, label: str | None = None) -> str:
     return svg.strip()
 
 
-def _figures(plan, kinds) -> tuple[list[tuple[str, str]], list[tuple[str, str]]]:
+def _figures(plan, kinds, tune_result=None
+             ) -> tuple[list[tuple[str, str]], list[tuple[str, str]]]:
     """([(kind, svg)], [(kind, why not drawn)])."""
     from . import plots
 
     drawn, missing = [], []
     for kind in kinds:
         try:
-            fig = plots.plot(plan, kind)
+            fig = plots.plot(plan, kind, tune_result=tune_result)
         except RigError as exc:
             missing.append((kind, str(exc)))
             continue
@@ -140,9 +142,7 @@ def _figures(plan, kinds) -> tuple[list[tuple[str, str]], list[tuple[str, str]]]
 
 
 def _section_rows(section) -> list[tuple[str, str]]:
-    data = section.to_json()
-    return [label_and_value(k, v) for k, v in vars(section).items()
-            if not k.startswith("_") and not isinstance(v, dict) and k in data]
+    return section_rows(section)
 
 
 def _section_table(name: str, section) -> str:
@@ -187,7 +187,7 @@ GLANCE = (
     ("exposure", "blur_pixels", "blur [px]"),
     ("optics", "visible_contrast", "visible contrast"),
     ("led", "peak_current_a", "LED peak current"),
-    ("led", "junction_peak_c", "junction peak"),
+    ("led", "junction_peak_k", "junction peak"),
     ("led", "thermal_margin_k", "thermal margin"),
     ("stuck_on", "time_to_limit_s", "stuck gate: time to the junction limit"),
     ("trigger_link", "top_ohm", "trigger divider top"),
@@ -209,7 +209,8 @@ def _glance(plan) -> str:
         elif name == "time_to_limit_s" and value is None:
             shown = "never reaches it"
         else:
-            shown = label_and_value(name, value)[1]
+            spec = next(f for f in fields(sec) if f.name == name)
+            shown = label_and_value(spec, value)[1]
         rows.append(f'<tr><th scope="row">{_e(label)}</th><td class="num">{_e(_micro(shown))}'
                     "</td></tr>")
     if not rows:
@@ -257,13 +258,11 @@ def _cautions(plan) -> str:
     ]
     charge = "<li><strong>Stored charge.</strong> Storage capacitors stay charged after the " \
              "supply is switched off."
-    if rig.supply is not None:
-        from ..physics.supply import stored_energy
-
-        energy = stored_energy(rig.supply.storage_capacitance, rig.supply.voltage)
+    if plan.supply is not None:
+        energy = plan.supply.stored_energy_j
         charge += (f" This rig stores {_e(render(energy, 'energy'))} in "
                    f"{_e(_micro(render(rig.supply.storage_capacitance, 'capacitance')))} at "
-                   f"{_e(render(rig.supply.voltage, 'voltage'))}.")
+                   f"{_e(render(plan.design.supply_voltage, 'voltage'))}.")
     charge += " Fit a bleeder, discharge and measure before touching the power stage.</li>"
     items.append(charge)
     sound = ("<li><strong>Ultrasound.</strong> Airborne ultrasound at the levels used for "
@@ -338,7 +337,7 @@ def _rig_text(plan, rig_text: str | None) -> str:
 # --- page ---------------------------------------------------------------------------------
 
 
-def report_html(plan, rig_text: str | None = None, plots=PLOT_ORDER) -> str:
+def report_html(plan, rig_text: str | None = None, plots=PLOT_ORDER, tune_result=None) -> str:
     """The whole report as one self-contained HTML page.
 
     Parameters
@@ -350,6 +349,8 @@ def report_html(plan, rig_text: str | None = None, plots=PLOT_ORDER) -> str:
     plots : sequence of str, optional
         Which plots to draw, in order (a plot whose inputs the plan lacks is listed with
         the reason instead).
+    tune_result : strobeplan.tune.TuneResult, optional
+        The design search of the rig, for the trade-off plot.
 
     Returns
     -------
@@ -360,7 +361,7 @@ def report_html(plan, rig_text: str | None = None, plots=PLOT_ORDER) -> str:
 
     rig = plan.rig
     verdict = plan.verdict
-    drawn, missing = _figures(plan, plots)
+    drawn, missing = _figures(plan, plots, tune_result)
     parts = [
         "<!DOCTYPE html>",
         '<html lang="en">',

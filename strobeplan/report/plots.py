@@ -23,6 +23,7 @@ import numpy as np
 
 from .. import timing
 from ..errors import MISSING, RigError
+from ..plan import ZERO_CELSIUS
 
 KINDS = ("timing", "pulse", "thermal", "tradeoff", "divider", "sweep")
 
@@ -89,10 +90,11 @@ def _pulse_params(plan):
 
     The exposure stage's reading of the rig and the flash section (one source of truth).
     """
-    from ..stages.exposure import pulse_parameters
+    from ..stages.flash import phosphor
 
-    _need(plan, "flash", "pulse")
-    return pulse_parameters(plan.rig, plan)
+    flash = _need(plan, "flash", "pulse")
+    w, tau = phosphor(plan.rig)
+    return flash.width_s, flash.rise_s, flash.fall_s, w, tau
 
 
 def _jitter(plan) -> float:
@@ -366,7 +368,7 @@ def junction_trace(plan, time):
     from ..physics import thermal as th
 
     led, rig = plan.led, plan.rig
-    width = rig.strobe.pulse_width
+    width = plan.flash.width_s
     spacing = led.flash_spacing_s
     n = max(1, int(led.flashes_per_burst))
     frame = led.frame_period_s if led.pattern == "burst" else spacing
@@ -394,14 +396,15 @@ def plot_thermal(plan, ax=None):
     _need(plan, "timing", "thermal")
     rig = plan.rig
     fig, ax_frame, ax_zoom = _two_axes(ax)
-    width = rig.strobe.pulse_width
+    width = plan.flash.width_s
     spacing = led.flash_spacing_s
     n = max(1, int(led.flashes_per_burst))
     burst = led.pattern == "burst"
     frame = led.frame_period_s if burst else spacing  # the period of the heat pattern
     t0 = _first_light(plan) if burst else 0.0
-    limit_c = led.junction_max_c
-    peak_c = led.junction_peak_c
+    limit_c = led.junction_max_k - ZERO_CELSIUS
+    peak_c = led.junction_peak_k - ZERO_CELSIUS
+    mean_c = led.junction_mean_k - ZERO_CELSIUS
     # Top panel: one frame; a continuous train repeats every flash, so without a camera
     # frame it shows ten flash periods.
     if burst:
@@ -417,11 +420,11 @@ def plot_thermal(plan, ax=None):
         base = np.linspace(lo, hi, points)
         extra = np.concatenate([ends, ends - width, ends - 1e-3 * width])
         time = np.unique(np.concatenate([base, extra[(extra >= lo) & (extra <= hi)]]))
-        temp_c = junction_trace(plan, np.mod(time, frame)) - 273.15
+        temp_c = junction_trace(plan, np.mod(time, frame)) - ZERO_CELSIUS
         ax.plot(time, temp_c, color=INK, linestyle="-", label="junction (steady state)")
-        ax.axhline(led.junction_mean_c, color=GREY, linestyle=":",
-                   label=f"mean {led.junction_mean_c:.4g} \N{DEGREE SIGN}C")
-        ambient_c = rig.led.ambient - 273.15
+        ax.axhline(mean_c, color=GREY, linestyle=":",
+                   label=f"mean {mean_c:.4g} \N{DEGREE SIGN}C")
+        ambient_c = rig.led.ambient - ZERO_CELSIUS
         if with_limit:
             ax.axhline(limit_c, color=INK, linestyle="--",
                        label=f"junction limit {limit_c:.4g} \N{DEGREE SIGN}C")
@@ -475,40 +478,27 @@ def plot_thermal(plan, ax=None):
 # --- tradeoff -----------------------------------------------------------------------------
 
 
-def plot_tradeoff(plan, ax=None, result=None, cloud_widths: int = 60):
+def plot_tradeoff(plan, ax=None, result=None):
     """Light per frame against retention over the tune space (``strobeplan tune``).
 
-    Every point is the brightest candidate of one (pulse width, every) cell of a
-    ``cloud_widths`` x every grid that meets every constraint except retention (and
-    visibility), the quantities the frontier trades; filled when it also meets the retention
-    target. The frontier of the full search, the feasible region (retention at or above the
-    target, light up to the frontier) shaded, the chosen design and the rig as given marked.
-    ``result`` reuses a :class:`strobeplan.tune.TuneResult`.
+    ``result`` is the :class:`strobeplan.tune.TuneResult` to draw (it carries the evaluated
+    cloud): every point is the brightest candidate of one (pulse width, every) cell that
+    meets every constraint except retention (and visibility), the quantities the frontier
+    trades; filled when it also meets the retention target. The frontier, the feasible
+    region (retention at or above the target, light up to the frontier) shaded, the chosen
+    design and the rig as given marked.
     """
-    from .. import tune as tuner
-
     _need(plan, "led", "tradeoff", path="led")
     _need(plan, "supply", "tradeoff", path="supply")
-    rig = plan.rig
     if result is None:
-        result = tuner.tune(rig)
-    limits = result.limits
-    grid = tuner.default_grid(rig, plan, widths=cloud_widths)
-    metrics, viol = tuner.evaluate_grid(rig, plan, grid, limits)
-    traded = ("retention", "visible contrast")
-    safe = ~np.any([v for k, v in viol.items() if k not in traded], axis=0)
-    light = np.asarray(metrics["light"], dtype=float)
-    ret = np.asarray(metrics["retention"], dtype=float)
-    iw, _ir, ie, _iv = np.unravel_index(np.arange(grid.size), grid.shape)
-    cell = iw * grid.shape[2] + ie
-    best = np.full(grid.shape[0] * grid.shape[2], -np.inf)
-    np.maximum.at(best, cell[safe], light[safe])
-    any_best = np.full(best.shape, -np.inf)
-    np.maximum.at(any_best, cell, light)
-    cell_ret = np.full(best.shape, np.nan)
-    cell_ret[cell] = ret  # retention depends on (width, every) only
+        raise RigError("--kind", "tradeoff", "needs the result of a design search (tune)")
+    cloud = result.cloud
+    target = result.min_retention
+    best = cloud.safe_light.ravel()
+    any_best = cloud.any_light.ravel()
+    cell_ret = cloud.retention.ravel()
     shown = np.isfinite(best) & (best > 0)
-    ok = shown & (cell_ret >= limits.min_retention)
+    ok = shown & (cell_ret >= target)
     unsafe = np.isfinite(any_best) & (any_best > 0) & ~(any_best <= best)
 
     fig, ax = _one_axes(ax)
@@ -518,7 +508,7 @@ def plot_tradeoff(plan, ax=None, result=None, cloud_widths: int = 60):
     floor = best[shown] if shown.any() else any_best[np.isfinite(any_best) & (any_best > 0)]
     y_lo = 0.5 * float(np.min(floor)) if floor.size else 1e-9
     if fr.size:
-        sel = fr >= limits.min_retention
+        sel = fr >= target
         if sel.any():
             ax.fill_between(fr[sel], y_lo, fl[sel], step="post", facecolor=LIGHT,
                             edgecolor=GREY, hatch="..", linewidth=0,
@@ -531,10 +521,9 @@ def plot_tradeoff(plan, ax=None, result=None, cloud_widths: int = 60):
             label="safe, below the retention target")
     ax.plot(cell_ret[ok], best[ok], linestyle="none", marker="o", markersize=3,
             color=GREY, label="feasible (meets every constraint)")
-    ax.axvline(limits.min_retention, color=INK, linestyle="--",
-               label=f"retention target {limits.min_retention:.0%}")
+    ax.axvline(target, color=INK, linestyle="--", label=f"retention target {target:.0%}")
     if plan.exposure is not None:
-        here = tuner.light_from_plan(plan)
+        here = plan.led.light_per_frame_a_s
         if here > 0:
             ax.plot([plan.exposure.retention], [here], linestyle="none", marker="D",
                     markerfacecolor="white", color=INK, markeredgecolor=INK, markersize=7,
@@ -686,10 +675,12 @@ def figure_bytes(fig, fmt: str, dpi: float = 150) -> bytes:
     return buf.getvalue()
 
 
-def plot(plan, kind: str, ax=None):
-    """The plot of one ``kind`` (see :data:`KINDS`)."""
+def plot(plan, kind: str, ax=None, tune_result=None):
+    """The plot of one ``kind`` (see :data:`KINDS`); ``tune_result`` feeds "tradeoff"."""
     funcs = {"timing": plot_timing, "pulse": plot_pulse, "thermal": plot_thermal,
              "tradeoff": plot_tradeoff, "divider": plot_divider, "sweep": plot_sweep}
     if kind not in funcs:
         raise RigError("--kind", kind, f"expected one of {', '.join(KINDS)}")
+    if kind == "tradeoff":
+        return plot_tradeoff(plan, ax=ax, result=tune_result)
     return funcs[kind](plan, ax=ax)

@@ -4,31 +4,22 @@ from __future__ import annotations
 
 import json
 import math
+from dataclasses import fields
 
+from ..plan import json_name, unit_of
 from ..units import render
 
-# Field-name suffix -> (unit kind for render, or a fixed unit text; how much of the suffix
-# to drop from the label: None drops all of it).
-_SUFFIX_KINDS = [
-    ("_deg_per_s", None, "deg/s", None), ("_per_kelvin_deg", None, "deg/K", 4),
-    ("_ppm", None, "ppm", None), ("_db_m", None, "dB/m", None),
-    ("_kg_m3", None, "kg/m3", None), ("_m_s", None, "m/s", None), ("_ticks", None, "ticks", None),
-    ("charge_c", "charge", None, 2),  # a charge in coulomb, not a temperature in degC
-    ("_s", "time", None, None), ("_hz", "frequency", None, None), ("_v", "voltage", None, None),
-    ("_a", "current", None, None), ("_w", "power", None, None), ("_j", "energy", None, None),
-    ("_ohm", "resistance", None, None), ("_m", "length", None, None),
-    ("_k", "temperature_difference", None, None), ("_db", None, "dB", None),
-    ("_deg", None, "deg", None), ("_rad", None, "rad", None), ("_pa", "pressure", None, None),
-    ("_f", "capacitance", None, None), ("_c", None, "\u00b0C", None),
-]
-# Dimensionless fields read better as percentages.
-_PERCENT = ("duty_in_burst", "duty_average", "relative_humidity", "brightness_change",
-            "tolerance", "rating_duty", "min_retention")
-
-
-def _label(name: str, suffix: str, keep: int | None) -> str:
-    cut = len(suffix) if keep is None else keep
-    return name[: len(name) - cut].replace("_", " ")
+# Units whose values units.render draws with SI prefixes (the others are fixed texts).
+_RENDERED = {"time", "frequency", "voltage", "current", "power", "energy", "charge",
+             "resistance", "length", "capacitance", "pressure", "temperature",
+             "temperature_difference", "ratio"}
+# The suffix a JSON key carries for its unit (dropped from the label people read).
+_SUFFIX = {"time": "_s", "frequency": "_hz", "voltage": "_v", "current": "_a", "power": "_w",
+           "energy": "_j", "charge": "_c", "resistance": "_ohm", "length": "_m",
+           "capacitance": "_f", "pressure": "_pa", "temperature": "_c",
+           "temperature_difference": "_k", "deg": "_deg", "dB": "_db", "ppm": "_ppm",
+           "ticks": "_ticks", "m/s": "_m_s", "kg/m3": "_kg_m3", "dB/m": "_db_m",
+           "deg/s": "_deg_per_s", "rad": "_rad", "A s": "_a_s"}
 
 
 CAUTION = ("Caution: strobeplan is a planning aid, not a safety certification. Overdriven LEDs "
@@ -37,25 +28,31 @@ CAUTION = ("Caution: strobeplan is a planning aid, not a safety certification. O
            "the datasheets, local codes and licensed practice.")
 
 
-def label_and_value(name: str, value) -> tuple[str, str]:
-    """Readable label and rendered value for a section field."""
+def label_and_value(f, value) -> tuple[str, str]:
+    """Readable label and rendered value of a section field (a dataclass field: its unit
+    comes from its metadata, see :func:`strobeplan.plan.q`)."""
+    name = json_name(f)
+    unit = unit_of(f)
+    suffix = _SUFFIX.get(unit)
+    label = name[: -len(suffix)] if suffix and name.endswith(suffix) else name
+    if name == "phase_per_kelvin_deg":
+        label = "phase per kelvin"
+    label = label.replace("_", " ")
     if isinstance(value, bool) or value is None or isinstance(value, str):
-        shown = "n/a" if value is None else (str(value) or "-")
-        for suffix, _kind, _unit, keep in _SUFFIX_KINDS:
-            if value is None and name.endswith(suffix):
-                return _label(name, suffix, keep), shown
-        return name.replace("_", " "), shown
+        return label, "n/a" if value is None else (str(value) or "-")
     if isinstance(value, (list, tuple)):
-        return name.replace("_", " "), ", ".join(_number(v) for v in value)
-    if name in _PERCENT:
-        return name.replace("_", " "), render(float(value), "ratio")
-    for suffix, kind, unit, keep in _SUFFIX_KINDS:
-        if name.endswith(suffix):
-            label = _label(name, suffix, keep)
-            if kind is not None:
-                return label, render(float(value), kind)
-            return label, f"{_number(value)} {unit}"
-    return name.replace("_", " "), _number(value)
+        return label, ", ".join(_number(v) for v in value)
+    if unit in _RENDERED:
+        return label, render(float(value), unit)
+    if unit and unit != "1":
+        return label, f"{_number(value)} {unit}"
+    return label, _number(value)
+
+
+def section_rows(section) -> list[tuple[str, str]]:
+    """(label, value) of every output field of a section, in order."""
+    return [label_and_value(f, getattr(section, f.name)) for f in fields(section)
+            if not f.name.startswith("_") and not isinstance(getattr(section, f.name), dict)]
 
 
 def _number(v) -> str:
@@ -76,12 +73,15 @@ def plan_text(plan) -> str:
     """The whole plan as aligned text."""
     lines = [f"strobeplan: {plan.rig.name}", f"verdict: {plan.verdict.upper()}", ""]
     for name, section in plan.sections():
-        data = section.to_json()
         lines.append(f"[{name}]")
-        rows = [label_and_value(k, v) for k, v in vars(section).items()
-                if not k.startswith("_") and not isinstance(v, (dict,)) and k in data]
+        rows = section_rows(section)
         width = max((len(r[0]) for r in rows), default=0)
         lines += [f"  {label:<{width}}  {value}" for label, value in rows]
+        lines.append("")
+    if plan.skipped:
+        lines.append("[skipped]")
+        width = max(len(name) for name in plan.skipped)
+        lines += [f"  {name:<{width}}  {why}" for name, why in plan.skipped.items()]
         lines.append("")
     lines.append(findings_text(plan))
     cautions = caution_lines(plan)

@@ -20,18 +20,22 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
-from ..plan import Section
+import numpy as np
+
+from ..plan import Section, q, scalar
 
 
 @dataclass
 class FlashSection(Section):
-    width_s: float
-    delay_s: float
-    rise_s: float
-    fall_s: float
-    edges_source: str
-    centroid_s: float
-    light_length_s: float
+    width_s: float = q("time")
+    width_ticks: int = q("ticks")
+    requested_width_s: float = q("time")
+    delay_s: float = q("time")
+    rise_s: float = q("time")
+    fall_s: float = q("time")
+    edges_source: str = q()
+    centroid_s: float = q("time")
+    light_length_s: float = q("time")
 
 
 def edges(rig) -> tuple[float, float, float, str]:
@@ -56,7 +60,7 @@ def edges(rig) -> tuple[float, float, float, str]:
     return delay, rise, fall, source
 
 
-def centroid(rig, width: float, rise: float, fall: float) -> tuple[float, float]:
+def centroid(rig, width, rise: float, fall: float):
     """(centroid delay after the current starts, length of the light pulse). [s]
 
     Exposure model (strobeplan.physics.exposure): the slew-limited current (ramp 0->1 over
@@ -64,22 +68,34 @@ def centroid(rig, width: float, rise: float, fall: float) -> tuple[float, float]
     shorter than the rise) convolved with the LED response (fast part plus a phosphor
     fraction w with single-exponential decay tau). The centroid is the first moment of that
     optical pulse; the length runs to the end of the current plus 3 tau of phosphor tail
-    (95 % of the tail's light).
+    (95 % of the tail's light). ``width`` may be an array.
     """
     from ..physics import exposure as exposure_model
 
-    w = rig.led.phosphor_fraction if rig.led else 0.0
-    tau = (rig.led.phosphor_decay or 0.0) if rig.led else 0.0
-    if tau == 0.0:
-        w = 0.0
-    c = float(exposure_model.optical_centroid(width, rise, fall, w, tau))
-    peak = min(width / rise, 1.0) if rise > 0 else 1.0
-    return c, width + peak * fall + (3 * tau if w > 0 else 0.0)
+    w, tau = phosphor(rig)
+    c = exposure_model.optical_centroid(width, rise, fall, w, tau)
+    width = np.asarray(width, dtype=float)
+    peak = np.minimum(width / rise, 1.0) if rise > 0 else np.ones_like(width)
+    length = width + peak * fall + (3 * tau if w > 0 else 0.0)
+    return scalar(c), scalar(length)
 
 
-def build(rig, plan) -> None:
-    width = rig.strobe.pulse_width
+def phosphor(rig) -> tuple[float, float]:
+    """(phosphor fraction, decay) of the LED; no decay time given: the phosphor part is
+    as fast as the rest (fraction 0). [1, s]"""
+    led = rig.led
+    w = led.phosphor_fraction if led is not None else 0.0
+    tau = (led.phosphor_decay or 0.0) if led is not None else 0.0
+    return (0.0, 0.0) if tau == 0.0 else (w, tau)
+
+
+def compute(rig, design, plan) -> FlashSection:
+    """The flash section for the design's (realised, whole-tick) pulse width."""
+    width = design.pulse_width
     delay, rise, fall, source = edges(rig)
     c, length = centroid(rig, width, rise, fall)
-    plan.flash = FlashSection(width_s=width, delay_s=delay, rise_s=rise, fall_s=fall,
-                              edges_source=source, centroid_s=c, light_length_s=length)
+    clock = rig.controller.clock
+    return FlashSection(width_s=width, width_ticks=scalar(np.rint(np.asarray(width) * clock)
+                                                          .astype(np.int64)),
+                        requested_width_s=rig.strobe.pulse_width, delay_s=delay, rise_s=rise,
+                        fall_s=fall, edges_source=source, centroid_s=c, light_length_s=length)

@@ -16,9 +16,11 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from types import SimpleNamespace
 
+import numpy as np
+
 from ..errors import RigError
 from ..physics import logic
-from ..plan import Plan, Section
+from ..plan import Plan, Section, q, scalar
 from ..units import render
 
 EDGE_FRACTION = 0.01  # edge limit = 1 % of the pulse width / trigger latency (issue 5)
@@ -42,53 +44,53 @@ class LinkAlternative:
 
 @dataclass
 class TriggerLinkSection(Section):
-    source_family: str
-    destination_family: str
-    mode: str  # "checked" | "proposed" | "infeasible"
-    series: str
-    tolerance: float
-    tolerant: bool
-    top_ohm: float | None
-    bottom_ohm: float | None
-    v_nominal_v: float | None
-    v_high_min_v: float | None
-    v_high_max_v: float | None
-    v_low_max_v: float | None
-    vih_v: float
-    vil_v: float
-    input_max_v: float
-    margin_high_v: float | None
-    margin_max_v: float | None
-    margin_low_v: float | None
-    current_a: float | None
-    rated_current_a: float
-    thevenin_ohm: float | None
-    capacitance_f: float
-    edge_time_s: float | None  # nominal 10-90 %, ln 9 * Rth * C
-    edge_time_max_s: float | None  # resistors at + tolerance
-    delay_to_vih_s: float | None
-    edge_limit_s: float | None
-    pairs_evaluated: int | None = None
-    pairs_feasible: int | None = None
-    alternatives: list[LinkAlternative] = field(default_factory=list)
-    reason: str | None = None
-    recommendation: str | None = None
+    source_family: str = q()
+    destination_family: str = q()
+    mode: str = q()  # "checked" | "proposed" | "infeasible"
+    series: str = q()
+    tolerance: float = q("ratio")
+    tolerant: bool = q()
+    top_ohm: float | None = q("resistance")
+    bottom_ohm: float | None = q("resistance")
+    v_nominal_v: float | None = q("voltage")
+    v_high_min_v: float | None = q("voltage")
+    v_high_max_v: float | None = q("voltage")
+    v_low_max_v: float | None = q("voltage")
+    vih_v: float = q("voltage")
+    vil_v: float = q("voltage")
+    input_max_v: float = q("voltage")
+    margin_high_v: float | None = q("voltage")
+    margin_max_v: float | None = q("voltage")
+    margin_low_v: float | None = q("voltage")
+    current_a: float | None = q("current")
+    rated_current_a: float = q("current")
+    thevenin_ohm: float | None = q("resistance")
+    capacitance_f: float = q("capacitance")
+    edge_time_s: float | None = q("time")  # nominal 10-90 %, ln 9 * Rth * C
+    edge_time_max_s: float | None = q("time")  # resistors at + tolerance
+    delay_to_vih_s: float | None = q("time")
+    edge_limit_s: float | None = q("time")
+    pairs_evaluated: int | None = q(default=None)
+    pairs_feasible: int | None = q(default=None)
+    alternatives: list[LinkAlternative] = q(default_factory=list)
+    reason: str | None = q(default=None)
+    recommendation: str | None = q(default=None)
     _check: object = field(default=None, repr=False)
 
 
 @dataclass
 class GateLinkSection(Section):
-    source_family: str
-    destination_family: str
-    v_high_min_v: float
-    v_high_max_v: float
-    v_low_max_v: float
-    vih_v: float
-    vil_v: float
-    input_max_v: float
-    margin_high_v: float
-    margin_max_v: float
-    margin_low_v: float
+    source_family: str = q()
+    destination_family: str = q()
+    v_high_min_v: float = q("voltage")
+    v_high_max_v: float = q("voltage")
+    v_low_max_v: float = q("voltage")
+    vih_v: float = q("voltage")
+    vil_v: float = q("voltage")
+    input_max_v: float = q("voltage")
+    margin_high_v: float = q("voltage")
+    margin_max_v: float = q("voltage")
+    margin_low_v: float = q("voltage")
 
 
 def resolve_family(name: str, path: str, custom=None) -> logic.Family:
@@ -105,15 +107,17 @@ def resolve_family(name: str, path: str, custom=None) -> logic.Family:
                                    "in [trigger_link.families])") from None
 
 
-def edge_limit_for(pulse_width: float | None, trigger_latency: float | None) -> float | None:
+def edge_limit_for(pulse_width, trigger_latency: float | None):
     """1 % of the longer of the pulse width and the trigger latency (None: no limit). [s]
 
     The trigger edge shifts when the exposure opens; against a camera whose own latency is
     microseconds, an edge of 1 % of that latency is lost in the latency's own spread
-    (project default, common practice for "negligible").
+    (project default, common practice for "negligible"). ``pulse_width`` may be an array.
     """
-    times = [t for t in (pulse_width, trigger_latency) if t]
-    return EDGE_FRACTION * max(times) if times else None
+    if pulse_width is None and not trigger_latency:
+        return None
+    width = np.asarray(0.0 if pulse_width is None else pulse_width, dtype=float)
+    return scalar(EDGE_FRACTION * np.maximum(width, trigger_latency or 0.0))
 
 
 def link_section(source: logic.Family, destination: logic.Family, *, series: str = "E24",
@@ -183,8 +187,14 @@ def _alt(c: logic.DividerCheck) -> LinkAlternative:
     return LinkAlternative(c.top, c.bottom, c.margin, c.current, c.edge_time)
 
 
-def build(rig, plan) -> None:
-    """Set ``plan.trigger_link`` and ``plan.gate_link`` when their inputs are given."""
+def compute(rig, design, plan) -> dict:
+    """The link stage: ``trigger_link`` and ``gate_link`` when their inputs are given (a
+    dict slot -> section).
+
+    The edge limit follows the design's pulse width (an array over a grid); a proposed
+    pair is sized for the design's shortest pulse, so it holds for every wider one.
+    """
+    out = {}
     custom = rig.trigger_link.families if rig.trigger_link else None
     ctrl = rig.controller
     cam = rig.camera
@@ -193,22 +203,26 @@ def build(rig, plan) -> None:
         src = resolve_family(ctrl.output, "controller.output", custom)
         dst = resolve_family(ti.family, "camera.trigger_input.family", custom)
         tl = rig.trigger_link
-        plan.trigger_link = link_section(
+        limit = edge_limit_for(design.pulse_width, cam.trigger_latency)
+        section = link_section(
             src, dst, series=tl.series if tl else "E24", tolerance=tl.tolerance if tl else None,
             capacitance=ti.capacitance, tolerant=ti.tolerant,
             top=tl.top if tl else None, bottom=tl.bottom if tl else None,
-            edge_limit=edge_limit_for(rig.strobe.pulse_width, cam.trigger_latency),
+            edge_limit=None if limit is None else float(np.min(limit)),
             source_resistance=ctrl.output_resistance)
+        section.edge_limit_s = limit
+        out["trigger_link"] = section
     gd = rig.gate_driver
     if gd is not None:
         src = resolve_family(ctrl.output, "controller.output", custom)
         dst = resolve_family(gd.input, "gate_driver.input", custom)
         d = logic.direct_link(src, dst, tolerant=True, tolerant_max=gd.supply + 0.3)
-        plan.gate_link = GateLinkSection(
+        out["gate_link"] = GateLinkSection(
             source_family=src.name, destination_family=dst.name, v_high_min_v=d.v_high_min,
             v_high_max_v=d.v_high_max, v_low_max_v=d.v_low_max, vih_v=d.vih, vil_v=d.vil,
             input_max_v=d.input_max, margin_high_v=d.margin_high, margin_max_v=d.margin_max,
             margin_low_v=d.margin_low)
+    return out
 
 
 def standalone(source: str, destination: str, **kwargs) -> Plan:

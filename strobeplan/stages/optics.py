@@ -13,7 +13,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from ..physics import acoustics, drive, schlieren
-from ..plan import Section
+from ..plan import Section, q, scalar
 
 # Distance from the emitter at which the ultrasound-exposure caution is evaluated. [m]
 SAFETY_DISTANCE = 1.0
@@ -23,19 +23,19 @@ SAFETY_DISTANCE = 1.0
 class OpticsSection(Section):
     """Design §4 ``optics``: SPL at the view and the schlieren contrast it makes."""
 
-    spl_at_view_db: float
-    spl_source: str
-    spl_estimate_db: float | None
-    spl_at_1m_db: float | None
-    detuning_loss_db: float
-    pressure_amplitude_pa: float
-    near_field_m: float | None
-    in_near_field: bool | None
-    deflection_rad: float | None
-    contrast: float | None
-    visible_contrast: float | None
-    min_contrast: float | None
-    saturated: bool | None
+    spl_at_view_db: float = q("dB")
+    spl_source: str = q()
+    spl_estimate_db: float | None = q("dB")
+    spl_at_1m_db: float | None = q("dB")
+    detuning_loss_db: float = q("dB")
+    pressure_amplitude_pa: float = q("pressure")
+    near_field_m: float | None = q("length")
+    in_near_field: bool | None = q()
+    deflection_rad: float | None = q("rad")
+    contrast: float | None = q()
+    visible_contrast: float | None = q()
+    min_contrast: float | None = q()
+    saturated: bool | None = q()
 
 
 def _datasheet_spl(em, frequency, absorption, distance):
@@ -51,11 +51,12 @@ def _datasheet_spl(em, frequency, absorption, distance):
     ))
 
 
-def build(rig, plan) -> None:
-    """Store ``plan.optics`` when the emitter's level is known."""
+def compute(rig, design, plan) -> OpticsSection | None:
+    """The optics section when the emitter's level is known (the retention, hence the
+    visible contrast, follows the design)."""
     em = rig.emitter
     if em is None:
-        return
+        return None
     f = plan.timing.drive_frequency_hz
     alpha = plan.air.absorption_db_m
     speed = plan.air.speed_of_sound_m_s
@@ -65,7 +66,7 @@ def build(rig, plan) -> None:
     elif estimate is not None:
         spl, source = estimate, "datasheet rating, spreading, absorption, detuning"
     else:
-        return
+        return None
     at_1m = _datasheet_spl(em, f, alpha, SAFETY_DISTANCE)
     if at_1m is None and rig.wave.kind == "travelling":
         # A measured travelling-wave level extrapolates by spreading and absorption.
@@ -97,7 +98,7 @@ def build(rig, plan) -> None:
             float(schlieren.default_min_contrast(bits))
         section.deflection_rad = eps
         section.contrast = contrast
-        section.visible_contrast = float(schlieren.visible_contrast(contrast, retention))
+        section.visible_contrast = scalar(schlieren.visible_contrast(contrast, retention))
         section.min_contrast = minimum
         section.saturated = bool(schlieren.saturated(contrast))
-    plan.optics = section
+    return section

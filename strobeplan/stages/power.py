@@ -24,123 +24,138 @@ Models (strobeplan.physics.led / thermal / switching / supply):
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
 
 from ..physics import led as led_model
 from ..physics import supply as supply_model
 from ..physics import switching as sw_model
 from ..physics import thermal as thermal_model
-from ..plan import Section
-
-ZERO_C = 273.15  # [K]
+from ..plan import Section, q, scalar
 
 
 @dataclass
 class LedSection(Section):
     """Design §4 ``led``: the flash operating point and the junction temperature."""
 
-    peak_current_a: float
-    end_current_a: float
-    mean_current_a: float
-    pulse_energy_j: float
-    pulse_charge_c: float
-    heat_per_pulse_j: float
-    average_current_a: float
-    average_power_w: float
-    junction_peak_c: float
-    junction_mean_c: float
-    junction_max_c: float
-    thermal_margin_k: float
-    single_pulse_rise_k: float
-    droop_v: float
-    rated_pulse_current_a: float | None
-    rating_source: str
-    rating_inside_table: bool | None
-    rating_duty: float
-    pattern: str
-    flash_spacing_s: float
-    frame_period_s: float | None
-    flashes_per_burst: int
-    fit_n_vt_v: float
-    fit_saturation_current_a: float
-    fit_series_resistance_ohm: float
-    fit_assumed: str
-    datasheet_max_current_a: float
-    forward_voltage_peak_v: float
+    peak_current_a: float = q("current")
+    end_current_a: float = q("current")
+    mean_current_a: float = q("current")
+    pulse_energy_j: float = q("energy")
+    pulse_charge_c: float = q("charge")
+    heat_per_pulse_j: float = q("energy")
+    average_current_a: float = q("current")
+    average_power_w: float = q("power")
+    light_per_frame_a_s: float = q("A s")
+    junction_peak_k: float = q("temperature", json="junction_peak_c")
+    junction_mean_k: float = q("temperature", json="junction_mean_c")
+    junction_max_k: float = q("temperature", json="junction_max_c")
+    thermal_margin_k: float = q("temperature_difference")
+    min_margin_k: float = q("temperature_difference")
+    single_pulse_rise_k: float = q("temperature_difference")
+    droop_v: float = q("voltage")
+    rated_pulse_current_a: float | None = q("current")
+    table_pulse_current_a: float | None = q("current")
+    max_pulse_current_a: float | None = q("current")
+    rating_source: str = q()
+    rating_inside_table: bool | None = q()
+    rating_duty: float = q("ratio")
+    pattern: str = q()
+    flash_spacing_s: float = q("time")
+    frame_period_s: float | None = q("time")
+    flashes_per_burst: int = q()
+    fit_n_vt_v: float = q("voltage")
+    fit_saturation_current_a: float = q("current")
+    fit_series_resistance_ohm: float = q("resistance")
+    fit_assumed: str = q()
+    datasheet_max_current_a: float = q("current")
+    forward_voltage_peak_v: float = q("voltage")
 
 
 @dataclass
 class SwitchSection(Section):
     """Design §4 ``switch``: gate-charge switching of the LED current."""
 
-    rise_time_s: float
-    fall_time_s: float
-    edges_source: str
-    turn_on_delay_s: float
-    turn_off_delay_s: float
-    gate_current_a: float
-    vds_peak_v: float | None
-    gate_drive_margin_v: float
-    peak_current_a: float
-    switching_energy_j: float
-    conduction_energy_j: float
-    average_power_w: float
-    gate_drive_power_w: float
-    switching_model: str
+    rise_time_s: float = q("time")
+    fall_time_s: float = q("time")
+    edges_source: str = q()
+    turn_on_delay_s: float = q("time")
+    turn_off_delay_s: float = q("time")
+    gate_current_a: float = q("current")
+    vds_peak_v: float | None = q("voltage")
+    gate_drive_margin_v: float = q("voltage")
+    peak_current_a: float = q("current")
+    switching_energy_j: float = q("energy")
+    conduction_energy_j: float = q("energy")
+    average_power_w: float = q("power")
+    gate_drive_power_w: float = q("power")
+    switching_model: str = q()
 
 
 @dataclass
 class SupplySection(Section):
     """Design §4 ``supply``: what the boost and the storage capacitor must deliver."""
 
-    average_power_w: float
-    average_current_a: float
-    energy_per_flash_j: float
-    recharge_time_s: float
-    idle_time_s: float
-    burst_droop_v: float
-    droop_before_last_v: float
-    last_flash_current_a: float
-    brightness_change: float
-    stored_energy_j: float
-    flash_rate_average_hz: float
+    average_power_w: float = q("power")
+    average_current_a: float = q("current")
+    energy_per_flash_j: float = q("energy")
+    recharge_time_s: float = q("time")
+    idle_time_s: float = q("time")
+    burst_droop_v: float = q("voltage")
+    droop_before_last_v: float = q("voltage")
+    last_flash_current_a: float = q("current")
+    brightness_change: float = q("ratio")
+    stored_energy_j: float = q("energy")
+    flash_rate_average_hz: float = q("frequency")
 
 
 @dataclass
 class StuckOnSection(Section):
     """Design §4 ``stuck_on``: the gate held on indefinitely."""
 
-    time_to_limit_s: float | None
-    dc_current_a: float
-    limited_by: str
-    led_power_w: float
-    heat_w: float
-    resistor_power_w: float
-    switch_power_w: float
-    start_c: float
-    capacitor_energy_j: float
+    time_to_limit_s: float | None = q("time")
+    dc_current_a: float = q("current")
+    limited_by: str = q()
+    led_power_w: float = q("power")
+    heat_w: float = q("power")
+    resistor_power_w: float = q("power")
+    switch_power_w: float = q("power")
+    start_k: float = q("temperature", json="start_c")
+    capacitor_energy_j: float = q("energy")
 
 
 @dataclass(frozen=True)
 class Pattern:
-    """The flash pattern the LED sees."""
+    """The flash pattern the LED sees (fields broadcast over the design's arrays).
 
-    kind: str  # "burst" or "continuous"
-    spacing: float  # start-to-start spacing of flashes [s]
-    n: int  # flashes per burst (1 for continuous)
-    frame: float | None  # burst period [s]
-    rate: float  # average flash rate [Hz]
+    A burst of ``n`` flashes at ``spacing`` every ``frame``; a continuous train is the burst
+    of one flash every spacing (``n`` = 1, ``frame`` = spacing), which is what the Foster
+    burst peak reduces to exactly.
+    """
+
+    burst: Any  # bool (array): a burst per camera frame, else a continuous train
+    spacing: Any  # start-to-start spacing of flashes [s]
+    n: Any  # flashes per burst (1 for continuous)
+    frame: Any  # burst period [s] (the spacing for a continuous train)
+    rate: Any  # average flash rate [Hz]
 
 
 def flash_pattern(rig, timing) -> Pattern:
-    """Burst of flashes_per_frame every frame, or a continuous train."""
-    spacing = timing.flash_period_ticks * timing.tick_s
-    n = timing.flashes_per_frame
-    if rig.strobe.continuous or rig.camera is None or not n or timing.frame_rate_hz is None:
-        return Pattern("continuous", spacing, 1, None, 1.0 / spacing)
-    frame = 1.0 / timing.frame_rate_hz
-    return Pattern("burst", spacing, int(n), frame, n / frame)
+    """Burst of flashes_per_frame every frame, or a continuous train (``strobe.continuous``,
+    no camera, or no flash in the exposure)."""
+    spacing = np.asarray(timing.flash_period_ticks) * timing.tick_s
+    if rig.strobe.continuous or rig.camera is None or timing.frame_rate_hz is None:
+        n = np.zeros_like(spacing)
+        frame_len = spacing
+    else:
+        n = np.asarray(timing.flashes_per_frame, dtype=float)
+        frame_len = 1.0 / np.asarray(timing.frame_rate_hz, dtype=float)
+    burst = n >= 1
+    n_b = np.where(burst, n, 1.0)
+    frame = np.where(burst, frame_len, spacing)
+    return Pattern(burst=burst, spacing=spacing, n=n_b, frame=frame, rate=n_b / frame)
 
 
 def diode(rig) -> led_model.DiodeFit:
@@ -177,122 +192,155 @@ def gate_edges(rig):
     return d_on, d_off, rise, fall, source
 
 
-def build(rig, plan) -> None:
+# The two datasheet pulse limits disagree when they differ by more than this fraction.
+RATING_DISAGREEMENT = 0.20
+
+
+def pulse_limit(led, width, duty):
+    """The LED's allowed pulse current: the lower of ``led.max_pulse_current`` and the
+    rating interpolated from ``led.pulse_ratings`` at the flash's width and in-burst duty.
+
+    Returns (allowed [A] or None, table value [A] or None, inside the table (bool or None),
+    source text).
+    """
+    table = inside = None
+    if led.pulse_ratings:
+        table, inside = led_model.rated_pulse_current(
+            width, duty, [p.width for p in led.pulse_ratings],
+            [p.duty for p in led.pulse_ratings], [p.current for p in led.pulse_ratings])
+        table, inside = scalar(np.asarray(table, dtype=float)), scalar(np.asarray(inside))
+    flat = led.max_pulse_current
+    if table is None and flat is None:
+        return None, None, None, "none (thermal model only)"
+    if table is None:
+        return flat, None, None, "led.max_pulse_current"
+    if flat is None:
+        return table, table, inside, "led.pulse_ratings (log-log)"
+    allowed = scalar(np.minimum(table, flat))
+    source = "lower of led.max_pulse_current and led.pulse_ratings (log-log)"
+    return allowed, table, inside, source
+
+
+def _finite_or_none(x):
+    """A scalar figure that may be infinite ("never") as None; arrays keep NaN for it."""
+    x = np.where(np.isfinite(x), x, np.nan)
+    return None if x.ndim == 0 and np.isnan(x) else scalar(x)
+
+
+def compute(rig, design, plan) -> dict:
+    """The power stage: ``led``, ``switch``, ``supply`` and ``stuck_on`` sections (a dict
+    slot -> section; empty without [led] and [supply])."""
     if rig.led is None or rig.supply is None or plan.timing is None:
-        return
+        return {}
     led, sup, sw = rig.led, rig.supply, rig.switch
     fit = diode(rig)
     pat = flash_pattern(rig, plan.timing)
-    width = rig.strobe.pulse_width
+    width = np.asarray(design.pulse_width, dtype=float)
+    v_sup = np.asarray(design.supply_voltage, dtype=float)
+    r_ser = np.asarray(design.series_resistor, dtype=float)
     ron = sw.on_resistance if sw is not None else 0.0
-    op = led_model.pulse_operating_point(sup.voltage, sup.storage_capacitance, sup.esr,
-                                         sup.series_resistor, ron, sup.max_current, width,
-                                         fit.n_vt, fit.saturation_current,
-                                         fit.series_resistance)
-    i_pk = op.peak_current
-    heat = (1.0 - led.efficiency) * op.led_energy
+    op = led_model.pulse_operating_point(v_sup, sup.storage_capacitance, sup.esr, r_ser, ron,
+                                         sup.max_current, width, fit.n_vt,
+                                         fit.saturation_current, fit.series_resistance)
+    i_pk = np.asarray(op.peak_current)
+    heat = (1.0 - led.efficiency) * np.asarray(op.led_energy)
     r = [t.resistance for t in led.thermal]
     tau = [t.time_constant for t in led.thermal]
     p_heat = heat / width
-    if pat.kind == "burst":
-        rise = float(thermal_model.burst_peak(p_heat, width, pat.spacing, pat.n, pat.frame,
-                                              r, tau))
-    else:
-        rise = float(thermal_model.pulse_train_peak(p_heat, width, pat.spacing, r, tau))
-    duty_avg = width * pat.rate
-    mean = float(thermal_model.mean_rise(p_heat, duty_avg, r))
+    rise = thermal_model.burst_peak(p_heat, width, pat.spacing, pat.n, pat.frame, r, tau)
+    mean = thermal_model.mean_rise(p_heat, width * pat.rate, r)
     t_peak = led.ambient + rise
     duty_burst = width / pat.spacing
-
-    if led.pulse_ratings:
-        rated, inside = led_model.rated_pulse_current(
-            width, duty_burst, [p.width for p in led.pulse_ratings],
-            [p.duty for p in led.pulse_ratings], [p.current for p in led.pulse_ratings])
-        rated, inside, source = float(rated), bool(inside), "led.pulse_ratings (log-log)"
-    elif led.max_pulse_current is not None:
-        rated, inside, source = led.max_pulse_current, None, "led.max_pulse_current"
-    else:
-        rated, inside, source = None, None, "none (thermal model only)"
-
-    v_pk = float(led_model.forward_voltage(i_pk, fit.n_vt, fit.saturation_current,
-                                           fit.series_resistance))
-    plan.led = LedSection(
-        peak_current_a=i_pk, end_current_a=op.end_current, mean_current_a=op.mean_current,
-        pulse_energy_j=op.led_energy, pulse_charge_c=op.charge, heat_per_pulse_j=heat,
-        average_current_a=op.charge * pat.rate, average_power_w=op.led_energy * pat.rate,
-        junction_peak_c=t_peak - ZERO_C, junction_mean_c=led.ambient + mean - ZERO_C,
-        junction_max_c=led.junction_max - ZERO_C, thermal_margin_k=led.junction_max - t_peak,
-        single_pulse_rise_k=float(p_heat * thermal_model.zth(width, r, tau)),
-        droop_v=op.droop, rated_pulse_current_a=rated, rating_source=source,
-        rating_inside_table=inside, rating_duty=duty_burst, pattern=pat.kind,
-        flash_spacing_s=pat.spacing, frame_period_s=pat.frame, flashes_per_burst=pat.n,
+    rated, table, inside, source = pulse_limit(led, width, duty_burst)
+    n_frame = plan.timing.flashes_per_frame if rig.camera is not None else 1
+    area = plan.exposure.optical_area_s
+    v_pk = led_model.forward_voltage(i_pk, fit.n_vt, fit.saturation_current,
+                                     fit.series_resistance)
+    out = {}
+    out["led"] = LedSection(
+        peak_current_a=scalar(i_pk), end_current_a=scalar(op.end_current),
+        mean_current_a=scalar(op.mean_current), pulse_energy_j=scalar(op.led_energy),
+        pulse_charge_c=scalar(op.charge), heat_per_pulse_j=scalar(heat),
+        average_current_a=scalar(op.charge * pat.rate),
+        average_power_w=scalar(op.led_energy * pat.rate),
+        light_per_frame_a_s=scalar(np.asarray(op.mean_current) * area
+                                   * np.asarray(n_frame if n_frame is not None else 0)),
+        junction_peak_k=scalar(t_peak), junction_mean_k=scalar(led.ambient + mean),
+        junction_max_k=led.junction_max, thermal_margin_k=scalar(led.junction_max - t_peak),
+        min_margin_k=led.min_margin,
+        single_pulse_rise_k=scalar(p_heat * thermal_model.zth(width, r, tau)),
+        droop_v=scalar(op.droop), rated_pulse_current_a=rated,
+        table_pulse_current_a=table, max_pulse_current_a=led.max_pulse_current,
+        rating_source=source, rating_inside_table=inside, rating_duty=scalar(duty_burst),
+        pattern=scalar(np.where(pat.burst, "burst", "continuous")),
+        flash_spacing_s=scalar(pat.spacing),
+        frame_period_s=scalar(np.where(pat.burst, pat.frame, np.nan)),
+        flashes_per_burst=scalar(pat.n.astype(np.int64)),
         fit_n_vt_v=fit.n_vt, fit_saturation_current_a=fit.saturation_current,
         fit_series_resistance_ohm=fit.series_resistance, fit_assumed=fit.assumed,
         datasheet_max_current_a=max(p.current for p in led.forward_voltage),
-        forward_voltage_peak_v=v_pk,
+        forward_voltage_peak_v=scalar(v_pk),
     )
 
-    # Switch
     d_on, d_off, t_rise, t_fall, edge_src = gate_edges(rig)
-    conduction = op.i2t * ron
+    conduction = np.asarray(op.i2t) * ron
     if sw is not None and rig.gate_driver is not None:
         gd = rig.gate_driver
         ig = float(sw_model.gate_current_on(gd.supply, sw.plateau_voltage,
                                             gd.output_resistance, gd.gate_resistor))
         margin = float(sw_model.gate_drive_margin(gd.supply, sw.rated_gate_voltage,
                                                   sw.plateau_voltage))
-        e_sw = float(sw_model.edge_energy(sup.voltage, i_pk, t_rise)
-                     + sw_model.edge_energy(sup.voltage, op.end_current, t_fall))
-        vds = (float(sw_model.turn_off_overshoot(sup.voltage, sw.loop_inductance,
-                                                 op.end_current, t_fall))
+        e_sw = (sw_model.edge_energy(v_sup, i_pk, t_rise)
+                + sw_model.edge_energy(v_sup, op.end_current, t_fall))
+        vds = (scalar(sw_model.turn_off_overshoot(v_sup, sw.loop_inductance, op.end_current,
+                                                  t_fall))
                if sw.loop_inductance is not None else None)
-        plan.switch = SwitchSection(
+        out["switch"] = SwitchSection(
             rise_time_s=t_rise, fall_time_s=t_fall, edges_source=edge_src,
             turn_on_delay_s=d_on, turn_off_delay_s=d_off, gate_current_a=ig,
-            vds_peak_v=vds, gate_drive_margin_v=margin, peak_current_a=i_pk,
-            switching_energy_j=e_sw, conduction_energy_j=conduction,
-            average_power_w=(e_sw + conduction) * pat.rate,
-            gate_drive_power_w=float(sw_model.gate_drive_power(sw.gate_charge, gd.supply,
-                                                               pat.rate)),
+            vds_peak_v=vds, gate_drive_margin_v=margin, peak_current_a=scalar(i_pk),
+            switching_energy_j=scalar(e_sw), conduction_energy_j=scalar(conduction),
+            average_power_w=scalar((e_sw + conduction) * pat.rate),
+            gate_drive_power_w=scalar(sw_model.gate_drive_power(sw.gate_charge, gd.supply,
+                                                                pat.rate)),
             switching_model="resistive/LED load, V*I*t/6 per edge",
         )
 
-    # Supply
-    # energy drawn per flash: LED + series resistor + switch + ESR (ESR taken at the full
-    # string current: conservative)
-    e_flash = op.led_energy + op.i2t * (sup.series_resistor + ron + sup.esr)
-    sag = supply_model.burst_sag(sup.voltage, sup.storage_capacitance, sup.esr,
-                                 sup.series_resistor, ron, sup.max_current, width, pat.spacing,
-                                 pat.n, fit.n_vt, fit.saturation_current,
-                                 fit.series_resistance)
-    burst_len = (pat.n - 1) * pat.spacing + width
-    idle = (pat.frame - burst_len) if pat.frame is not None else pat.spacing - width
-    plan.supply = SupplySection(
-        average_power_w=float(supply_model.average_power(e_flash, pat.rate)),
-        average_current_a=float(supply_model.average_current(op.charge, pat.rate)),
-        energy_per_flash_j=e_flash,
-        recharge_time_s=float(supply_model.recharge_time(sup.storage_capacitance,
-                                                         sag.at_end, sup.max_current)),
-        idle_time_s=idle, burst_droop_v=sag.at_end, droop_before_last_v=sag.before_last,
-        last_flash_current_a=sag.last_current,
-        brightness_change=float(supply_model.brightness_change(i_pk, sag.last_current)),
-        stored_energy_j=float(supply_model.stored_energy(sup.storage_capacitance,
-                                                         sup.voltage)),
-        flash_rate_average_hz=pat.rate,
+    # Energy drawn per flash: LED + series resistor + switch + ESR (ESR taken at the full
+    # string current: conservative).
+    e_flash = np.asarray(op.led_energy) + np.asarray(op.i2t) * (r_ser + ron + sup.esr)
+    sag = supply_model.burst_sag(v_sup, sup.storage_capacitance, sup.esr, r_ser, ron,
+                                 sup.max_current, width, pat.spacing, pat.n, fit.n_vt,
+                                 fit.saturation_current, fit.series_resistance)
+    idle = pat.frame - (pat.n - 1) * pat.spacing - width
+    stored = supply_model.stored_energy(sup.storage_capacitance, v_sup)
+    out["supply"] = SupplySection(
+        average_power_w=scalar(supply_model.average_power(e_flash, pat.rate)),
+        average_current_a=scalar(supply_model.average_current(op.charge, pat.rate)),
+        energy_per_flash_j=scalar(e_flash),
+        recharge_time_s=scalar(supply_model.recharge_time(sup.storage_capacitance,
+                                                          sag.at_end, sup.max_current)),
+        idle_time_s=scalar(idle), burst_droop_v=scalar(sag.at_end),
+        droop_before_last_v=scalar(sag.before_last),
+        last_flash_current_a=scalar(sag.last_current),
+        brightness_change=scalar(supply_model.brightness_change(i_pk, sag.last_current)),
+        stored_energy_j=scalar(stored), flash_rate_average_hz=scalar(pat.rate),
     )
 
     # Stuck-on gate
-    s = supply_model.stuck_on_state(sup.voltage, sup.max_current, sup.series_resistor, ron,
-                                    fit.n_vt, fit.saturation_current, fit.series_resistance)
-    heat_dc = (1.0 - led.efficiency) * float(s.led_power)
+    st = supply_model.stuck_on_state(v_sup, sup.max_current, r_ser, ron, fit.n_vt,
+                                     fit.saturation_current, fit.series_resistance)
+    heat_dc = (1.0 - led.efficiency) * np.asarray(st.led_power)
     t_start = led.ambient + mean
-    t_lim = float(thermal_model.step_time_to_rise(heat_dc, led.junction_max - t_start, r, tau))
-    plan.stuck_on = StuckOnSection(
-        time_to_limit_s=t_lim if math.isfinite(t_lim) else None,
-        dc_current_a=float(s.current),
-        limited_by="boost current limit" if bool(s.boost_limited) else "string resistance",
-        led_power_w=float(s.led_power), heat_w=heat_dc,
-        resistor_power_w=float(s.resistor_power), switch_power_w=float(s.switch_power),
-        start_c=t_start - ZERO_C,
-        capacitor_energy_j=plan.supply.stored_energy_j,
+    t_lim = thermal_model.step_time_to_rise(heat_dc, led.junction_max - t_start, r, tau)
+    t_lim = np.asarray(t_lim, dtype=float)
+    out["stuck_on"] = StuckOnSection(
+        time_to_limit_s=_finite_or_none(t_lim),
+        dc_current_a=scalar(st.current),
+        limited_by=scalar(np.where(st.boost_limited, "boost current limit",
+                                   "string resistance")),
+        led_power_w=scalar(st.led_power), heat_w=scalar(heat_dc),
+        resistor_power_w=scalar(st.resistor_power), switch_power_w=scalar(st.switch_power),
+        start_k=scalar(t_start), capacitor_energy_j=scalar(stored),
     )
+    return out
