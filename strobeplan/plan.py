@@ -26,7 +26,7 @@ if TYPE_CHECKING:
     from .stages.power import LedSection, StuckOnSection, SupplySection, SwitchSection
     from .timing import DriveSection, TimingSection
 
-ZERO_CELSIUS = 273.15  # [K] 0 degC: the one place this offset is written
+from .physics.air import ZERO_CELSIUS  # [K] 0 degC, written once (physics/air.py)
 
 # Units a field can declare: a units.py kind (rendered with SI prefixes) or a fixed text.
 UNIT_KINDS = {

@@ -30,161 +30,32 @@ from __future__ import annotations
 
 import math
 import time
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
 
 from .design import Design
-from .errors import RigError
+from .physics.air import ZERO_CELSIUS
+from .search_space import (
+    AVOID,
+    Candidate,
+    Cloud,
+    Grid,
+    Limits,
+    TuneResult,
+    default_grid,
+    require,
+    search_options,
+)
 
 __all__ = ["AVOID", "Grid", "Limits", "Candidate", "TuneResult", "Cloud", "default_grid",
-           "evaluate", "search_options", "tune", "candidate_rig"]
+           "evaluate", "search_options", "tune", "candidate_rig", "require"]
 
 DEFAULT_CHUNK = 1 << 16  # candidates per evaluated chunk (bounds memory)
-# Warnings the search avoids besides every hazard and fault.
-AVOID = ("led.thermal_margin_low", "led.rating_outside_table", "supply.recharge_slow",
-         "exposure.blur_over_pixel")
 # What the frontier trades against light: it is drawn over the designs passing the rest.
 TRADED = ("exposure.retention_low", "optics.not_visible")
 _VERDICTS = ("pass", "warn", "fail")
-
-
-@dataclass(frozen=True)
-class Limits:
-    """Targets that override the rig's for the search (None: the rig's own)."""
-
-    min_retention: float | None = None
-    min_margin: float | None = None
-
-    def apply(self, rig):
-        """The rig with these targets written in (``strobe.min_retention``,
-        ``led.min_margin``); the rig itself when both are None."""
-        update = {}
-        if self.min_retention is not None:
-            update["strobe"] = rig.strobe.model_copy(
-                update={"min_retention": float(self.min_retention)})
-        if self.min_margin is not None and rig.led is not None:
-            update["led"] = rig.led.model_copy(update={"min_margin": float(self.min_margin)})
-        return rig.model_copy(update=update) if update else rig
-
-
-@dataclass(frozen=True)
-class Grid:
-    """The decision variables: the search covers their full Cartesian product."""
-
-    widths: np.ndarray  # [s] gate-on times (whole ticks)
-    resistors: np.ndarray  # [ohm]
-    everys: np.ndarray  # [1] integers
-    voltages: np.ndarray  # [V]
-    series: str = "E24"
-
-    @property
-    def shape(self) -> tuple[int, int, int, int]:
-        """(widths, resistors, everys, voltages)."""
-        return (self.widths.size, self.resistors.size, self.everys.size, self.voltages.size)
-
-    @property
-    def size(self) -> int:
-        return int(np.prod(self.shape))
-
-    def design(self, rows=slice(None)) -> Design:
-        """The design of the widths ``rows`` (a slice) times every other axis."""
-        return Design(pulse_width=self.widths[rows][:, None, None, None],
-                      series_resistor=self.resistors[None, :, None, None],
-                      every=self.everys[None, None, :, None],
-                      supply_voltage=self.voltages[None, None, None, :])
-
-    def at(self, flat: int) -> tuple[float, float, int, float]:
-        iw, ir, ie, iv = np.unravel_index(int(flat), self.shape)
-        return (float(self.widths[iw]), float(self.resistors[ir]), int(self.everys[ie]),
-                float(self.voltages[iv]))
-
-
-@dataclass
-class Candidate:
-    """One design with its figures (SI)."""
-
-    pulse_width_s: float
-    series_resistor_ohm: float
-    every: int
-    supply_voltage_v: float
-    light_per_frame: float  # [A s]
-    retention: float
-    thermal_margin_k: float
-    junction_peak_c: float
-    peak_current_a: float
-    flashes_per_frame: int
-    verdict: str
-    violates: list[str] = field(default_factory=list)
-    limited_by: str | None = None
-
-    def to_json(self) -> dict:
-        from .plan import jsonable
-
-        return jsonable(self)
-
-
-@dataclass
-class Cloud:
-    """Per (width, every) cell of the grid: the retention, the brightest candidate passing
-    every constraint but the traded ones, and the brightest of all (the trade-off plot)."""
-
-    retention: np.ndarray
-    safe_light: np.ndarray
-    any_light: np.ndarray
-    safe_flat: np.ndarray  # flat grid index of each cell's brightest safe candidate
-
-
-@dataclass
-class TuneResult:
-    """What :func:`tune` found."""
-
-    best: Candidate | None
-    runner_ups: list[Candidate]
-    frontier: list[Candidate]  # light against retention, retention descending
-    candidates: int
-    feasible: int
-    seconds: float
-    excluded: dict[str, int]  # candidates each code excludes
-    only_excluded: dict[str, int]  # candidates that code alone excludes
-    best_reached: dict[str, float]
-    explanation: str | None
-    grid: Grid
-    min_retention: float
-    min_margin: float | None
-    cloud: Cloud
-    refined_from: float | None = None  # [s] the grid's best width before the refinement
-    rejected_by_check: list[dict] = field(default_factory=list)
-    plan: Any = None  # the solved Plan of the best rig
-
-    def to_json(self) -> dict:
-        from .plan import jsonable
-
-        g = self.grid
-        return jsonable({
-            "format": "strobeplan.tune", "version": 1,
-            "best": self.best.to_json() if self.best is not None else None,
-            "runner_ups": [d.to_json() for d in self.runner_ups],
-            "frontier": [d.to_json() for d in self.frontier],
-            "candidates": self.candidates, "feasible": self.feasible, "seconds": self.seconds,
-            "light_unit": "A s (LED current integrated over the optical pulse, per frame)",
-            "limits": {"min_retention": self.min_retention, "min_margin_k": self.min_margin},
-            "avoided_warnings": list(AVOID),
-            "grid": {"pulse_width_min_s": float(g.widths[0]),
-                     "pulse_width_max_s": float(g.widths[-1]),
-                     "pulse_widths": int(g.widths.size), "series": g.series,
-                     "series_resistor_min_ohm": float(g.resistors[0]),
-                     "series_resistor_max_ohm": float(g.resistors[-1]),
-                     "series_resistors": int(g.resistors.size), "every_max": int(g.everys[-1]),
-                     "supply_voltage_min_v": float(g.voltages[0]),
-                     "supply_voltage_max_v": float(g.voltages[-1]),
-                     "supply_voltages": int(g.voltages.size)},
-            "refined_from_s": self.refined_from,
-            "excluded": self.excluded, "excluded_only_by": self.only_excluded,
-            "explanation": self.explanation, "rejected_by_check": self.rejected_by_check,
-            "plan": self.plan.to_json() if self.plan is not None else None,
-        })
 
 
 # --- the engine on a grid -------------------------------------------------------------------
@@ -252,7 +123,7 @@ def _candidate(ev: Evaluation, index, design: Design) -> Candidate:
         every=int(pick(design.every)), supply_voltage_v=pick(design.supply_voltage),
         light_per_frame=float(ev.light[index]), retention=float(ev.retention[index]),
         thermal_margin_k=float(ev.margin[index]),
-        junction_peak_c=pick(p.led.junction_peak_k) - 273.15,
+        junction_peak_c=pick(p.led.junction_peak_k) - ZERO_CELSIUS,
         peak_current_a=pick(p.led.peak_current_a),
         flashes_per_frame=int(pick(p.timing.flashes_per_frame if p.rig.camera else 1) or 0),
         verdict=_VERDICTS[int(ev.verdict[index])],
@@ -264,89 +135,6 @@ def _design_of(values: list[tuple[float, float, int, float]]) -> Design:
     a = np.array(values, dtype=float).reshape(-1, 4)
     return Design(pulse_width=a[:, 0], series_resistor=a[:, 1],
                   every=a[:, 2].astype(np.int64), supply_voltage=a[:, 3])
-
-
-# --- the grid -------------------------------------------------------------------------------
-
-
-def _require(rig) -> None:
-    for name in ("led", "supply"):
-        if getattr(rig, name) is None:
-            raise RigError(name, None, f"tune needs a [{name}] section (the search varies the "
-                                       "LED current and checks its heating)")
-
-
-def default_grid(rig, plan, *, widths: int = 160, series: str = "E24",
-                 resistor_range: tuple[float, float] = (0.1, 100.0), max_every: int = 8,
-                 supply_range: tuple[float, float] | None = None,
-                 supply_steps: int = 13) -> Grid:
-    """The search grid of a rig (see the module docstring); ``plan`` is ``solve(rig)``."""
-    from .physics.logic import series_values
-
-    _require(rig)
-    clock = rig.controller.clock
-    lo = max(plan.flash.rise_s + plan.flash.fall_s, 2.0 / clock)
-    period = 1.0 / rig.wave.frequency
-    if lo >= period:
-        raise RigError("strobe.pulse_width", None,
-                       "the switching limit (rise + fall) is not shorter than one wave period: "
-                       "nothing to search")
-    ticks = np.unique(np.round(np.geomspace(lo, period, widths) * clock).astype(np.int64))
-    ticks = ticks[(ticks >= math.ceil(lo * clock - 1e-9)) & (ticks < period * clock - 1e-9)]
-    r = series_values(series, *resistor_range)
-    if r.size == 0:
-        raise RigError("--resistor-range", None, f"no {series} value between "
-                                                 f"{resistor_range[0]:g} and "
-                                                 f"{resistor_range[1]:g} ohm")
-    top = max_every
-    if rig.camera is not None:
-        top = min(top, max(1, int(math.floor(rig.wave.frequency / rig.camera.frame_rate))))
-    v = (np.array([rig.supply.voltage]) if supply_range is None
-         else np.linspace(supply_range[0], supply_range[1], max(1, supply_steps)))
-    return Grid(widths=ticks / clock, resistors=r, everys=np.arange(1, max(1, top) + 1),
-                voltages=v, series=series)
-
-
-def search_options(rig, *, min_retention=None, min_margin=None, series="E24",
-                   resistor_range=("0.1 ohm", "100 ohm"), max_every=8, supply_range=None,
-                   supply_steps=13, widths=160) -> tuple[Limits, dict]:
-    """Validate the search options (texts with units, as typed) into Limits and the keyword
-    arguments of :func:`default_grid`. Bad values raise RigError naming the option."""
-    from .units import parse
-
-    def quantity(text, kind, option):
-        try:
-            value = parse(str(text), kind)
-        except (ValueError, RigError) as exc:
-            raise RigError(option, text, f"expected a {kind.replace('_', ' ')} with a unit "
-                                         f"({exc})") from None
-        if not math.isfinite(value):
-            raise RigError(option, text, "expected a finite value")
-        return value
-
-    ret = None if min_retention is None else quantity(min_retention, "ratio", "--min-retention")
-    if ret is not None and not 0.0 < ret < 1.0:
-        raise RigError("--min-retention", min_retention, "expected a ratio between 0 and "
-                                                         "100 % (e.g. 90%)")
-    margin = (None if min_margin is None
-              else quantity(min_margin, "temperature_difference", "--min-margin"))
-    if margin is not None and not 0.0 <= margin <= 200.0:
-        raise RigError("--min-margin", min_margin, "expected 0 K to 200 K")
-    r_lo, r_hi = (quantity(x, "resistance", "--resistor-range") for x in resistor_range)
-    if not 0.0 < r_lo <= r_hi:
-        raise RigError("--resistor-range", f"{resistor_range[0]} {resistor_range[1]}",
-                       "expected 0 < MIN <= MAX")
-    grid = {"widths": int(widths), "series": series.upper(), "resistor_range": (r_lo, r_hi),
-            "max_every": int(max_every), "supply_steps": int(supply_steps)}
-    if supply_range is not None:
-        v_lo, v_hi = (quantity(x, "voltage", "--supply-range") for x in supply_range)
-        if not 0.0 < v_lo <= v_hi:
-            raise RigError("--supply-range", f"{supply_range[0]} {supply_range[1]}",
-                           "expected 0 V < MIN <= MAX")
-        grid["supply_range"] = (v_lo, v_hi)
-    if rig is not None:
-        _require(rig)
-    return Limits(min_retention=ret, min_margin=margin), grid
 
 
 # --- the search -----------------------------------------------------------------------------
@@ -377,7 +165,7 @@ def tune(rig, limits: Limits | None = None, grid: Grid | None = None, *,
     from .solve import solve
 
     t0 = time.perf_counter()
-    _require(rig)
+    require(rig)
     limits = limits or Limits()
     rig = limits.apply(rig)
     if grid is None:

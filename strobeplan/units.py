@@ -26,6 +26,8 @@ import math
 import re
 from dataclasses import dataclass
 
+from .physics.air import ZERO_CELSIUS
+
 __all__ = ["UnitError", "KINDS", "parse", "render", "kind_example"]
 
 
@@ -59,7 +61,7 @@ def _k(name, units, display, example, prefixable=True, unitless_ok=False):
 
 _OHM = {"ohm": (1.0, 0.0), "Ohm": (1.0, 0.0), "ohms": (1.0, 0.0), "\u03a9": (1.0, 0.0),
         "\u2126": (1.0, 0.0)}
-_DEGC = {"degC": (1.0, 273.15), "\u00b0C": (1.0, 273.15), "C": (1.0, 273.15)}
+_DEGC = {"degC": (1.0, ZERO_CELSIUS), "\u00b0C": (1.0, ZERO_CELSIUS), "C": (1.0, ZERO_CELSIUS)}
 _DELTA_T = {"K": (1.0, 0.0), "degC": (1.0, 0.0), "\u00b0C": (1.0, 0.0)}
 
 KINDS: dict[str, Kind] = {k.name: k for k in [
@@ -209,7 +211,7 @@ def render(value: float | None, kind: str, digits: int = 4) -> str:
         return "n/a"
     k = KINDS[kind]
     if kind == "temperature":
-        return f"{_fmt(value - 273.15, digits)} \u00b0C"
+        return f"{_fmt(value - ZERO_CELSIUS, digits)} \u00b0C"
     if kind == "angle":
         return f"{_fmt(math.degrees(value), digits)} deg"
     if kind == "ratio":
