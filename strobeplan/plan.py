@@ -14,8 +14,8 @@ SEVERITIES = ("hazard", "fault", "warning", "note")
 SEVERITY_RANK = {s: i for i, s in enumerate(SEVERITIES)}
 
 # Order of the sections in outputs; every stage stores its section under one of these.
-SECTION_ORDER = ("timing", "drive", "air", "flash", "exposure", "optics", "led", "switch",
-                 "supply", "stuck_on", "trigger_link", "gate_link")
+SECTION_ORDER = ("timing", "drive", "air", "flash", "exposure", "optics", "image", "eye", "led",
+                 "switch", "supply", "stuck_on", "trigger_link", "gate_link")
 
 
 def jsonable(value: Any) -> Any:
@@ -96,6 +96,8 @@ class Plan:
     flash: Any = None
     exposure: Any = None
     optics: Any = None
+    image: Any = None
+    eye: Any = None
     led: Any = None
     switch: Any = None
     supply: Any = None

@@ -6,10 +6,12 @@ import numpy as np
 
 from . import timing
 from .checks import run_checks
+from .design import Design
 from .plan import Plan
 from .stages import air as air_stage
 from .stages import exposure as exposure_stage
 from .stages import flash as flash_stage
+from .stages import image as image_stage
 from .stages import link as link_stage
 from .stages import optics as optics_stage
 from .stages import power as power_stage
@@ -37,6 +39,9 @@ def _solve(rig) -> Plan:
     exposure_stage.build(rig, plan)
     optics_stage.build(rig, plan)
     power_stage.build(rig, plan)
+    design = Design.of(rig)
+    plan.image = image_stage.compute(rig, design, plan)  # after power: the LED's currents
+    plan.eye = image_stage.compute_eye(rig, design, plan)
     plan.findings = run_checks(plan)
     return plan
 

@@ -92,7 +92,7 @@ def plan_text(plan) -> str:
 
 # One line per concern, shown by `check` when a finding concerns it (issue 8).
 _CONCERNS = (
-    ("eyes", lambda f: f.severity == "hazard" and f.subject == "led",
+    ("eyes", lambda f: f.severity == "hazard" and f.subject in ("led", "eye"),
      "caution (eyes): this LED is driven beyond its ratings; its flashes can injure eyes - "
      "never look into the source or its image, enclose the beam (IEC 62471)."),
     ("stored charge", lambda f: f.severity == "hazard" and f.subject in ("supply", "stuck_on",
