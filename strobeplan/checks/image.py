@@ -25,7 +25,8 @@ def _f(x) -> float:
 
 @rule("image.too_dark", "fault",
       trigger=f"the background (undisturbed) level is under {TOO_DARK:.0%} of the full well "
-              "(a documented default): the wave drowns in read and quantisation noise",
+              "(a documented default; with a dark-field rod stop, the wave's brightest "
+              "level): the wave drowns in read and quantisation noise",
       fix="more light per frame: a longer strobe.pulse_width (within the blur limit), a "
           "higher LED current (supply.voltage, a smaller series_resistor), a wider slit "
           "(optics.source), more flashes per exposure (camera.exposure), or camera.binning")

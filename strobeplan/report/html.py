@@ -22,7 +22,7 @@ from ..errors import RigError
 from .text import CAUTION, caution_lines, label_and_value
 
 SVG_HASHSALT = "strobeplan"
-PLOT_ORDER = ("timing", "pulse", "thermal", "divider", "sweep", "tradeoff")
+PLOT_ORDER = ("timing", "pulse", "image", "thermal", "divider", "sweep", "tradeoff")
 PLOT_TITLES = {
     "timing": "Timing: one frame and one drive period",
     "pulse": "Optical pulse and contrast retention",
@@ -30,8 +30,12 @@ PLOT_TITLES = {
     "divider": "Camera trigger divider: worst-case levels",
     "sweep": "Phase sweep: achieved against target",
     "tradeoff": "Design space: light per frame against retention",
+    "image": "What the camera records: cutoff response and grey-level budget",
 }
 PLOT_HINTS = {
+    "image": "The wave's peak deflection should stay inside the linear part of the response, "
+             "the level between the too-dark line and the full well, and the wave's signal "
+             "well above the noise (SNR 5 or more).",
     "timing": "The flash should sit where the wave at the view has the requested phase, and "
               "every flash of the burst inside the exposure.",
     "pulse": "Each marked harmonic of the wave should keep at least the retention target.",

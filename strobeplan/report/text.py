@@ -10,6 +10,7 @@ from ..units import render
 # Field-name suffix -> (unit kind for render, or a fixed unit text; how much of the suffix
 # to drop from the label: None drops all of it).
 _SUFFIX_KINDS = [
+    ("_per_rad", None, "/rad", None), ("_w_m2_sr", None, "W/(m2 sr)", None),
     ("_deg_per_s", None, "deg/s", None), ("_per_kelvin_deg", None, "deg/K", 4),
     ("_ppm", None, "ppm", None), ("_db_m", None, "dB/m", None),
     ("_kg_m3", None, "kg/m3", None), ("_m_s", None, "m/s", None), ("_ticks", None, "ticks", None),
@@ -23,7 +24,8 @@ _SUFFIX_KINDS = [
 ]
 # Dimensionless fields read better as percentages.
 _PERCENT = ("duty_in_burst", "duty_average", "relative_humidity", "brightness_change",
-            "tolerance", "rating_duty", "min_retention")
+            "tolerance", "rating_duty", "min_retention", "grey_fraction",
+            "background_transmission", "sensor_fill", "lens_pass", "wall_plug_efficiency")
 
 
 def _label(name: str, suffix: str, keep: int | None) -> str:

@@ -82,6 +82,8 @@ class ImageSection(Section):
     radiance_w_m2_sr: float | None = None
     electrons_per_flash: float | None = None
     electrons_per_frame: float | None = None
+    electrons_open: float | None = None
+    peak_electrons: float | None = None
     full_well: float | None = None
     grey_level: float | None = None
     grey_fraction: float | None = None
@@ -310,8 +312,13 @@ def _light_budget(rig, design, plan, section, img_w, img_h, lens_pass, retention
     section.full_well = cam.full_well
     section.grey_level = _val(cam_model.grey_level(background, cam.full_well, cam.bit_depth))
     section.grey_fraction = _val(background / cam.full_well)
-    section.too_dark = _flag(background < TOO_DARK * cam.full_well)
-    section.sensor_saturated = _flag(unit * peak_t + dark >= cam.full_well)
+    peak_level = unit * peak_t + dark
+    section.electrons_open = _val(unit)
+    section.peak_electrons = _val(peak_level)
+    # dark field (rod): the background is dark by design; judge the wave's brightest level
+    section.too_dark = _flag((peak_level if order == 2 else background)
+                             < TOO_DARK * cam.full_well)
+    section.sensor_saturated = _flag(peak_level >= cam.full_well)
     section.noise_electrons = _val(noise)
     section.binning = cam.binning
     section.average_frames = cam.average_frames
