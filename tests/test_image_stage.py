@@ -150,3 +150,12 @@ def test_stage_and_rules_on_an_array_design():
     assert np.asarray(hit.when).tolist() == [True, False, False]
     arr.eye = image_stage.compute_eye(plan.rig, design, arr)
     assert np.shape(arr.eye.time_to_limit_s) == (3,)
+
+
+def test_report_cautions_cite_the_eye_estimate():
+    from strobeplan.report.html import report_html
+
+    plan = plan_of("unsafe-bench")
+    text = report_html(plan, plots=())
+    assert "IEC 62471 risk group 2" in text
+    assert "blue light limit after" in text

@@ -16,6 +16,7 @@ from __future__ import annotations
 import html
 import io
 import json
+import math
 import re
 
 from ..errors import RigError
@@ -248,6 +249,22 @@ def _findings(plan) -> str:
             + "\n".join(rows) + "\n</tbody></table>\n")
 
 
+def _eye_figure(plan) -> str:
+    """The computed IEC 62471 estimate for the source image at the cutoff, as a sentence."""
+    from ..units import render
+
+    eye = plan.eye
+    if eye is None:
+        return ""
+    t = eye.time_to_limit_s
+    when = (f"reaches the {_e(eye.limited_by)} limit after "
+            f"{_e(_micro(render(t, 'time')))}" if t is not None and math.isfinite(t)
+            else "reaches no limit")
+    return (f" Here, looking into the source image at the cutoff {when} (time-averaged over "
+            f"the flash pattern; IEC 62471 risk group {eye.risk_group}); an estimate, not a "
+            "certification.")
+
+
 def _cautions(plan) -> str:
     from ..units import render
 
@@ -257,7 +274,7 @@ def _cautions(plan) -> str:
         "gives short flashes bright enough to injure eyes, and a schlieren system focuses "
         "the source to a point. Never look into the LED, the source image or the beam; "
         "enclose the light path and assess the source against the photobiological safety "
-        "standard that applies to you (e.g. IEC 62471).</li>",
+        "standard that applies to you (e.g. IEC 62471)." + _eye_figure(plan) + "</li>",
     ]
     charge = "<li><strong>Stored charge.</strong> Storage capacitors stay charged after the " \
              "supply is switched off."
