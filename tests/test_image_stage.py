@@ -159,3 +159,27 @@ def test_report_cautions_cite_the_eye_estimate():
     text = report_html(plan, plots=())
     assert "IEC 62471 risk group 2" in text
     assert "blue light limit after" in text
+
+
+@pytest.mark.parametrize("factor", [0.5, 2.0])
+def test_light_scales_with_the_flux_rating(factor):
+    # The camera equation is linear in the radiance (Boyd 1983, ch. 5): scaling the
+    # datasheet flux scales the electrons; the SNR follows the shot/read noise model.
+    base = plan_of("levitator-40k")
+    power = 0.45 * factor
+    other = plan_of("levitator-40k", {"led.optical_power": {"current": "700 mA",
+                                                            "power": f"{power} W"}})
+    assert other.image.electrons_per_frame == pytest.approx(
+        factor * base.image.electrons_per_frame, rel=1e-9)
+    cam = base.rig.camera
+    q2 = (cam.full_well / 2**cam.bit_depth) ** 2 / 12
+    mean = other.image.electrons_per_frame
+    expected = factor * base.image.signal_electrons / math.sqrt(mean + cam.read_noise**2 + q2)
+    assert other.image.snr == pytest.approx(expected, rel=1e-3)
+
+
+def test_no_light_budget_without_led_optics():
+    plan = plan_of("levitator-40k", {"led.optical_power": None, "led.relative_output": None})
+    assert plan.image is not None and plan.image.electrons_per_frame is None
+    assert plan.eye is None
+    assert not {f.code for f in plan.findings if f.code.startswith(("image.", "eye."))}

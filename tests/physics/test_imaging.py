@@ -33,7 +33,8 @@ def test_filling_focal_length_fills_the_sensor():
 
 
 def test_settles_sensitivity_and_range():
-    # Settles (2001), eq. 3.6: dC/d eps = f2 / a; a half-cut 1 mm image (a = 0.5 mm) at
+    # Settles (2001), eq. 3.6 (C = f2 eps / a, the image shifting by f2 eps; as quoted by a
+    # secondary source): dC/d eps = f2 / a; a half-cut 1 mm image (a = 0.5 mm) at
     # f2 = 1.5 m: 3000 per rad, range a / f2 = 0.333 mrad.
     a = im.unobstructed_height(1e-3, 0.5)
     assert a == pytest.approx(0.5e-3)
