@@ -148,6 +148,10 @@ def test_stage_and_rules_on_an_array_design():
         arr.image.electrons_per_frame[2])
     hit = RULES["image.too_dark"].func(arr)
     assert np.asarray(hit.when).tolist() == [True, False, False]
+    for code in ("image.snr_low", "image.overexposed", "image.cutoff_saturated",
+                 "led.optical_exceeds_electrical"):
+        when = np.asarray(RULES[code].func(arr).when)
+        assert when.shape in ((), (3,)) and when.dtype == bool, code
     arr.eye = image_stage.compute_eye(plan.rig, design, arr)
     assert np.shape(arr.eye.time_to_limit_s) == (3,)
 

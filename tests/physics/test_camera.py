@@ -79,3 +79,21 @@ def test_noise_at_least_shot_and_read(m, r):
 def test_broadcasts():
     out = cam.photoelectrons(np.ones((3, 1)) * 1e-15, np.array([450e-9, 625e-9]), 0.6)
     assert out.shape == (3, 2)
+
+
+def test_etendue_against_monte_carlo():
+    # Independent: the flux between two small parallel patches (the slit, and a pixel's
+    # object area on the mirror f1 away) is L int int cos(t1) cos(t2) / r^2 dA1 dA2
+    # (Boyd 1983, ch. 5); Monte-Carlo over random points of both patches, 2 % agreement
+    # with the small-angle product L A_p A_s / f1^2.
+    rng = np.random.default_rng(3)
+    n, f1 = 200_000, 0.5
+    src = rng.uniform(-0.5e-3, 0.5e-3, (n, 2)) * [0.2, 1.0]  # 0.2 mm x 1 mm slit
+    pix = rng.uniform(-20e-6, 20e-6, (n, 2)) + [30e-3, 0.0]  # 40 um patch, 30 mm off axis
+    d = np.column_stack([pix - src, np.full(n, f1)])
+    r2 = (d**2).sum(axis=1)
+    cos = f1 / np.sqrt(r2)
+    area_s, area_p = 0.2e-3 * 1e-3, 40e-6 * 40e-6
+    mc = (cos * cos / r2).mean() * area_s * area_p
+    model = cam.pixel_power(1.0, 1.0, 40e-6, area_s, f1)
+    assert model == pytest.approx(mc, rel=0.02)
