@@ -201,7 +201,7 @@ def divider(source, destination, series, tolerance, capacitance, pair, tolerant,
     sys.exit(exit_code_for(plan.verdict))
 
 
-PLOT_KINDS = ("timing", "pulse", "thermal", "tradeoff", "divider", "sweep")
+PLOT_KINDS = ("timing", "pulse", "thermal", "tradeoff", "divider", "sweep", "image")
 
 
 @cli.command()

@@ -21,6 +21,7 @@ if TYPE_CHECKING:
     from .stages.air import AirSection
     from .stages.exposure import ExposureSection
     from .stages.flash import FlashSection
+    from .stages.image import EyeSection, ImageSection
     from .stages.link import GateLinkSection, TriggerLinkSection
     from .stages.optics import OpticsSection
     from .stages.power import LedSection, StuckOnSection, SupplySection, SwitchSection
@@ -91,8 +92,8 @@ SEVERITIES = ("hazard", "fault", "warning", "note")
 SEVERITY_RANK = {s: i for i, s in enumerate(SEVERITIES)}
 
 # Order of the sections in outputs; every stage stores its section under one of these.
-SECTION_ORDER = ("timing", "drive", "air", "flash", "exposure", "optics", "led", "switch",
-                 "supply", "stuck_on", "trigger_link", "gate_link")
+SECTION_ORDER = ("timing", "drive", "air", "flash", "exposure", "optics", "image", "eye", "led",
+                 "switch", "supply", "stuck_on", "trigger_link", "gate_link")
 
 
 def jsonable(value: Any) -> Any:
@@ -185,6 +186,8 @@ class Plan:
     switch: SwitchSection | None = None
     supply: SupplySection | None = None
     stuck_on: StuckOnSection | None = None
+    image: ImageSection | None = None
+    eye: EyeSection | None = None
     findings: list[Finding] = field(default_factory=list)
     skipped: dict[str, str] = field(default_factory=dict)
 

@@ -19,7 +19,7 @@ import tomllib
 from pathlib import Path
 from typing import Annotated, Any, Literal
 
-from pydantic import BaseModel, BeforeValidator, ConfigDict, Field, ValidationError
+from pydantic import BaseModel, BeforeValidator, ConfigDict, Field, ValidationError, model_validator
 
 from . import units
 from .errors import MISSING, RigError
@@ -161,6 +161,16 @@ class FosterTerm(_Model):
     time_constant: Q("time", gt=0)
 
 
+class OpticalPower(_Model):
+    current: Q("current", gt=0, description="Current of the datasheet's radiant-flux rating.")
+    power: Q("power", gt=0, description="Radiant flux (optical watts) at that current.")
+
+
+class RelativeOutput(_Model):
+    current: Q("current", gt=0)
+    ratio: Number(gt=0, description="Relative optical output at that current.")
+
+
 class Led(_Model):
     forward_voltage: list[ForwardPoint] = Field(min_length=1, max_length=3)
     series_resistance: Q("resistance", ge=0) | None = None
@@ -175,6 +185,11 @@ class Led(_Model):
     phosphor_fraction: Q("ratio", ge=0, le=1) = 0.0
     phosphor_decay: Q("time", gt=0) | None = None
     rise_time: Q("time", ge=0) | None = None
+    optical_power: OpticalPower | None = None
+    relative_output: list[RelativeOutput] | None = Field(default=None, min_length=1)
+    wavelength: Q("length", gt=200e-9, lt=2e-6) | None = None
+    spectrum: Literal["white"] | None = None
+    emitting_size: Q("length", gt=0) | None = None
 
 
 class Switch(_Model):
@@ -217,6 +232,11 @@ class TriggerInput(_Model):
     tolerant: bool = False
 
 
+class Lens(_Model):
+    focal_length: Q("length", gt=0)
+    f_number: Number(gt=0)
+
+
 class Camera(_Model):
     exposure: Q("time", gt=0)
     frame_rate: Q("frequency", gt=0)
@@ -226,6 +246,16 @@ class Camera(_Model):
     trigger_input: TriggerInput | None = None
     object_pixel: Q("length", gt=0) | None = None
     bit_depth: Count(ge=1, le=24) = 8
+    pixel_pitch: Q("length", gt=0, lt=1e-3) | None = None
+    width_px: Count(ge=1) | None = None
+    height_px: Count(ge=1) | None = None
+    quantum_efficiency: Q("ratio", gt=0, le=1) | None = None
+    full_well: Number(gt=0) | None = None
+    read_noise: Number(ge=0) | None = None
+    dark_current: Number(ge=0) = 0.0
+    lens: Lens | None = None
+    binning: Count(ge=1, le=64) = 1
+    average_frames: Count(ge=1) = 1
 
 
 class LogicFamily(_Model):
@@ -252,13 +282,34 @@ class TriggerLink(_Model):
         "name is asked (controller.output, camera.trigger_input.family, gate_driver.input).")
 
 
+class Source(_Model):
+    width: Q("length", gt=0)
+    height: Q("length", gt=0)
+
+
 class Optics(_Model):
     passes: Literal[1, 2] = 1
-    cutoff_distance: Q("length", gt=0)
-    cutoff_opening: Q("length", gt=0)
+    cutoff_distance: Q("length", gt=0) | None = None
+    cutoff_opening: Q("length", gt=0) | None = None
     sound_path: Q("length", gt=0)
     light_wavelength: Q("length", gt=100e-9, lt=2e-6) = 630e-9
     min_contrast: Q("ratio", gt=0, lt=1) | None = None
+    layout: Literal["z-type", "double-pass"] | None = None
+    mirror_diameter: Q("length", gt=0) | None = None
+    focal_length: Q("length", gt=0) | None = None
+    offset_angle: Q("angle", ge=0, lt=math.pi / 4) = 0.0
+    mirror_separation: Q("length", gt=0) | None = None
+    source: Source | None = None
+    source_separation: Q("length", ge=0) = 0.0
+    cutoff: Literal["knife", "rod"] = "knife"
+    cut_fraction: Q("ratio", gt=0, lt=1) = 0.5
+    cutoff_width: Q("length", gt=0) | None = None
+    mirror_reflectance: Q("ratio", gt=0, le=1) = 0.9
+    beamsplitter: Q("ratio", gt=0, lt=1) = 0.5
+    lens_transmission: Q("ratio", gt=0, le=1) = 0.9
+    test_distance: Q("length", ge=0) | None = None
+    bench_length: Q("length", gt=0) | None = None
+    min_snr: Number(gt=0) = 5.0
 
 
 class Rig(_Model):
@@ -277,6 +328,50 @@ class Rig(_Model):
     camera: Camera | None = None
     trigger_link: TriggerLink | None = None
     optics: Optics | None = None
+
+    @model_validator(mode="after")
+    def _derived(self):
+        """Fill cutoff_distance, cutoff_opening and camera.object_pixel from the layout when
+        they are not given (given values stay: they override the layout)."""
+        _derive_layout(self)
+        return self
+
+
+def _derive_layout(rig: "Rig") -> None:
+    from .physics import imaging
+
+    opt, cam = rig.optics, rig.camera
+    if opt is None:
+        return
+    led = rig.led
+    if led is not None and led.wavelength is not None \
+            and "light_wavelength" not in opt.model_fields_set:
+        object.__setattr__(opt, "light_wavelength", led.wavelength)
+    if opt.layout is None or opt.focal_length is None:
+        return
+    double = opt.layout == "double-pass"
+    u = float(imaging.lens_object_distance(double, opt.focal_length))
+    if double and "passes" not in opt.model_fields_set:
+        object.__setattr__(opt, "passes", 2)
+    if opt.cutoff_distance is None:
+        object.__setattr__(opt, "cutoff_distance", u)
+    height = _source_height(rig)
+    if opt.cutoff_opening is None and height is not None:
+        object.__setattr__(opt, "cutoff_opening",
+                           float(imaging.unobstructed_height(height, opt.cut_fraction)))
+    if cam is not None and cam.object_pixel is None and cam.pixel_pitch is not None \
+            and cam.lens is not None and u > cam.lens.focal_length:
+        m = float(imaging.magnification(cam.lens.focal_length, u))
+        object.__setattr__(cam, "object_pixel", float(imaging.object_pixel(cam.pixel_pitch, m)))
+
+
+def _source_height(rig) -> float | None:
+    """Lit source height: the slit within the LED die (either alone when one is missing)."""
+    opt, led = rig.optics, rig.led
+    die = led.emitting_size if led is not None else None
+    slit = opt.source.height if opt is not None and opt.source is not None else None
+    given = [v for v in (slit, die) if v is not None]
+    return min(given) if given else None
 
 
 # --- loading ------------------------------------------------------------------------------
@@ -567,7 +662,53 @@ def cross_check(rig: Rig, raw: dict | None = None) -> None:
         if sw.gate_source_charge + sw.gate_drain_charge > sw.gate_charge * 1.0001:
             _fail(raw, "switch.gate_charge",
                   "expected at least gate_source_charge + gate_drain_charge")
+    _cross_check_image(rig, raw)
     tl = rig.trigger_link
     if tl is not None and (tl.top is None) != (tl.bottom is None):
         _fail(raw, "trigger_link.top" if tl.top is None else "trigger_link.bottom",
               "give both top and bottom (to check a pair) or neither (to propose one)")
+
+
+def _cross_check_image(rig: Rig, raw) -> None:
+    """The image chain: layout, cutoff, LED optics and camera sensor keys that go together."""
+    opt, led, cam = rig.optics, rig.led, rig.camera
+    if led is not None:
+        if led.wavelength is not None and led.spectrum is not None:
+            _fail(raw, "led.spectrum", "give led.wavelength (a colour LED) or "
+                  "spectrum = 'white', not both")
+        if led.optical_power is not None and led.wavelength is None and led.spectrum is None:
+            _fail(raw, "led.wavelength", "required with led.optical_power (or spectrum = "
+                  "'white'): the photon energy and the eye hazard depend on it")
+        if led.relative_output:
+            cur = [p.current for p in led.relative_output]
+            if any(b <= a for a, b in zip(cur, cur[1:], strict=False)):
+                _fail(raw, "led.relative_output", "expected points at increasing currents")
+    if opt is None:
+        return
+    if opt.layout is None:
+        for key in ("cutoff_distance", "cutoff_opening"):
+            if getattr(opt, key) is None:
+                _fail(raw, f"optics.{key}", "required without optics.layout (or give layout, "
+                      "focal_length, mirror_diameter and source to derive it)")
+        return
+    for key in ("focal_length", "mirror_diameter"):
+        if getattr(opt, key) is None:
+            _fail(raw, f"optics.{key}", f"required with layout = '{opt.layout}'")
+    if opt.layout == "z-type" and opt.passes != 1:
+        _fail(raw, "optics.passes", "expected 1 for layout = 'z-type'")
+    if opt.layout == "double-pass" and opt.passes != 2:
+        _fail(raw, "optics.passes", "expected 2 for layout = 'double-pass'")
+    if opt.cutoff_opening is None:
+        _fail(raw, "optics.source", "required with layout (or led.emitting_size, or "
+              "optics.cutoff_opening): the source image sets the cutoff's opening")
+    if opt.cutoff == "rod" and opt.cutoff_width is None:
+        _fail(raw, "optics.cutoff_width", "required with cutoff = 'rod' (the rod's diameter)")
+    if opt.test_distance is not None and opt.layout == "double-pass" \
+            and opt.test_distance >= 2 * opt.focal_length:
+        _fail(raw, "optics.test_distance", "expected less than the radius of curvature "
+              "2 x focal_length")
+    if cam is not None and cam.lens is not None:
+        u = opt.focal_length * (2.0 if opt.layout == "double-pass" else 1.0)
+        if cam.lens.focal_length >= u:
+            _fail(raw, "camera.lens.focal_length", "expected shorter than the lens's distance "
+                  f"to the mirror ({units.render(u, 'length')}): it could not focus there")

@@ -100,6 +100,16 @@ MEANINGS = {
     "led.phosphor_fraction": "Share of the light from the phosphor (white LEDs).",
     "led.phosphor_decay": "Single-exponential decay time of the phosphor.",
     "led.rise_time": "Intrinsic optical rise time of the LED.",
+    "led.optical_power": "Datasheet radiant flux {current, power} (optical watts).",
+    "led.optical_power.current": "Current of the rating.",
+    "led.optical_power.power": "Radiant flux at that current.",
+    "led.relative_output": "Datasheet relative output against current {current, ratio} "
+                           "(droop at overdrive); absent: output proportional to current.",
+    "led.relative_output.current": "Current of the point.",
+    "led.relative_output.ratio": "Relative output there (any scale: only ratios are used).",
+    "led.wavelength": "Peak wavelength of a colour LED (20 nm FWHM assumed).",
+    "led.spectrum": "'white': a generic phosphor-white spectrum (blue line + phosphor band).",
+    "led.emitting_size": "Side of the square emitting area (radiance = flux / (pi area)).",
     "switch": "The MOSFET that switches the LED.",
     "switch.on_resistance": "Drain-source on resistance at the drive voltage.",
     "switch.rated_gate_voltage": "Gate voltage at which on_resistance is specified.",
@@ -138,8 +148,22 @@ MEANINGS = {
     "camera.trigger_input.family": "Logic family of the trigger input.",
     "camera.trigger_input.capacitance": "Input capacitance (edge time of the divider).",
     "camera.trigger_input.tolerant": "The input tolerates more than VDD + 0.3 V.",
-    "camera.object_pixel": "Size of one pixel at the object (for blur in pixels).",
-    "camera.bit_depth": "Bits per pixel (sets the default visible contrast).",
+    "camera.object_pixel": "Size of one pixel at the object (for blur in pixels); default "
+                           "derived from the lens, the pixel pitch and the layout (a warning "
+                           "when a given value differs by more than 5 %).",
+    "camera.bit_depth": "Bits per pixel (quantisation noise, grey levels).",
+    "camera.pixel_pitch": "Sensor pixel pitch.",
+    "camera.width_px": "Pixels across (field of view).",
+    "camera.height_px": "Pixels down (field of view; the mirror should fill this side).",
+    "camera.quantum_efficiency": "Electrons per photon at the LED's wavelength.",
+    "camera.full_well": "Full-well capacity in electrons (mapped to full scale).",
+    "camera.read_noise": "Read noise in electrons RMS.",
+    "camera.dark_current": "Dark current in electrons per second (default 0).",
+    "camera.lens": "The camera lens behind the cutoff, focused on the test region.",
+    "camera.lens.focal_length": "Lens focal length.",
+    "camera.lens.f_number": "Lens f-number (its pupil must pass the source image).",
+    "camera.binning": "Side of the square of pixels summed for the stated SNR (default 1).",
+    "camera.average_frames": "Frames averaged for the stated SNR (default 1).",
     "trigger_link": "Resistor divider from the controller output to the camera trigger.",
     "trigger_link.series": "IEC 60063 series for the search.",
     "trigger_link.tolerance": "Resistor tolerance (default: the series' own).",
@@ -147,11 +171,41 @@ MEANINGS = {
     "trigger_link.bottom": "Bottom resistor to check (with top).",
     "optics": "Schlieren optics.",
     "optics.passes": "1 (Z-type, lens) or 2 (double pass, single mirror).",
-    "optics.cutoff_distance": "Focal length to the knife edge (f2; R for double pass).",
-    "optics.cutoff_opening": "Unobstructed source-image height at the knife edge.",
+    "optics.cutoff_distance": "Focal length to the knife edge (f2; R for double pass); "
+                              "default from layout and focal_length.",
+    "optics.cutoff_opening": "Unobstructed source-image height at the knife edge; default "
+                             "(1 - cut_fraction) x the source image height.",
     "optics.sound_path": "Path length of the light through the sound.",
     "optics.light_wavelength": "Centre wavelength of the light.",
-    "optics.min_contrast": "Smallest visible contrast (default 2 grey levels at half scale).",
+    "optics.min_contrast": "Smallest visible contrast without a camera sensor model "
+                           "(default 2 grey levels at half scale).",
+    "optics.layout": "'z-type' (two mirrors) or 'double-pass' (one mirror, source and cutoff "
+                     "at its centre of curvature, a beamsplitter).",
+    "optics.mirror_diameter": "Mirror diameter (the field of view in the test region).",
+    "optics.focal_length": "Focal length of the mirror(s); double-pass: R = 2 x this.",
+    "optics.offset_angle": "z-type: angle between each mirror's axis and its beams "
+                           "(astigmatism, coma).",
+    "optics.mirror_separation": "z-type: distance between the mirrors (default 2 x "
+                                "focal_length; bench length).",
+    "optics.source": "Slit (or LED die) at the source position {width, height}; height is "
+                     "across the cutoff. Default: the LED's emitting_size.",
+    "optics.source.width": "Slit width (along the cutoff's edge).",
+    "optics.source.height": "Slit height (across the cutoff's edge).",
+    "optics.source_separation": "double-pass: lateral distance between source and cutoff at "
+                                "the centre of curvature (0 with a beamsplitter).",
+    "optics.cutoff": "'knife' (bright field, linear) or 'rod' (a rod or wire stop: dark "
+                     "field, the wave appears at twice its spatial frequency).",
+    "optics.cut_fraction": "Knife: fraction of the source image blocked with no wave.",
+    "optics.cutoff_width": "Rod or wire diameter.",
+    "optics.mirror_reflectance": "Reflectance of each mirror (z-type: two reflections).",
+    "optics.beamsplitter": "double-pass: the beamsplitter's transmittance t (light passes "
+                           "t x (1 - t)).",
+    "optics.lens_transmission": "Transmission of the camera lens.",
+    "optics.test_distance": "Test region to mirror (double-pass double image).",
+    "optics.bench_length": "Room available along the bench (a warning when the layout needs "
+                           "more).",
+    "optics.min_snr": "SNR of the wave needed to call it visible (default 5, Rose "
+                      "criterion, common practice).",
 }
 
 

@@ -17,6 +17,7 @@ from .plan import Plan
 from .stages import air as air_stage
 from .stages import exposure as exposure_stage
 from .stages import flash as flash_stage
+from .stages import image as image_stage
 from .stages import link as link_stage
 from .stages import optics as optics_stage
 from .stages import power as power_stage
@@ -33,6 +34,8 @@ STAGES = (
     (exposure_stage.compute, "exposure"),
     (optics_stage.compute, "optics"),
     (power_stage.compute, None),
+    (image_stage.compute, "image"),  # after power: the LED's currents
+    (image_stage.compute_eye, "eye"),
 )
 
 # Sections a rig can lack, and what they need.
@@ -42,6 +45,10 @@ _NEEDS = {
     "supply": "needs [led] and [supply]",
     "stuck_on": "needs [led] and [supply]",
     "optics": "needs [emitter] with a datasheet SPL or emitter.spl_at_view",
+    "image": "needs the optical layout ([optics] layout, mirror, source, cutoff), the LED's "
+             "optical output ([led] optical_power) and the camera sensor ([camera] pixel_pitch, "
+             "quantum_efficiency, full_well)",
+    "eye": "needs the LED's optical output and the source size",
     "trigger_link": "needs camera.trigger_input",
     "gate_link": "needs [gate_driver]",
 }

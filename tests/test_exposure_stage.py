@@ -160,7 +160,8 @@ CASES = {
     "exposure.retention_low": ("levitator-40k", {"strobe.pulse_width": "9 us"}),
     "exposure.phosphor_dominates": ("rangefinder-58k", {"strobe.pulse_width": "150 ns"}),
     "exposure.blur_over_pixel": ("rangefinder-58k", {}),
-    "optics.not_visible": ("rangefinder-58k", {"emitter.drive_voltage": "2 V"}),
+    "optics.not_visible": ("rangefinder-58k", {"emitter.drive_voltage": "2 V",
+                                               "camera.full_well": None}),
     "optics.saturated": ("levitator-40k", {"optics.cutoff_opening": "20 um"}),
     "optics.near_field": ("rangefinder-58k", {"emitter.radius": "40 mm"}),
     "safety.ultrasound_exposure": ("unsafe-bench", {}),
@@ -196,10 +197,11 @@ def test_phosphor_note_not_raised_for_long_pulse():
 
 
 def test_saturation_threshold():
-    # Linear until |C| = 1 (references.md): the levitator's C = 0.074 at 0.5 mm opening
-    # scales as 1/a, so 0.5 mm x 0.074 / 1.2 (C = 1.2) saturates and / 0.8 does not.
-    c0 = plan_of("levitator-40k").optics.contrast
-    sat = plan_of("levitator-40k", {"optics.cutoff_opening": f"{0.5 * c0 / 1.2:.6g} mm"})
-    lin = plan_of("levitator-40k", {"optics.cutoff_opening": f"{0.5 * c0 / 0.8:.6g} mm"})
+    # Linear until |C| = 1 (references.md): the levitator's contrast C0 at its opening a0
+    # scales as 1/a, so a0 x C0 / 1.2 (C = 1.2) saturates and a0 x C0 / 0.8 does not.
+    base = plan_of("levitator-40k")
+    c0, a0 = base.optics.contrast, base.rig.optics.cutoff_opening * 1e3
+    sat = plan_of("levitator-40k", {"optics.cutoff_opening": f"{a0 * c0 / 1.2:.6g} mm"})
+    lin = plan_of("levitator-40k", {"optics.cutoff_opening": f"{a0 * c0 / 0.8:.6g} mm"})
     assert sat.optics.saturated and "optics.saturated" in codes(sat)
     assert not lin.optics.saturated and "optics.saturated" not in codes(lin)

@@ -483,3 +483,25 @@ def test_tradeoff_without_a_feasible_design(unsafe):
     assert not labelled(ax, "chosen")
     assert labelled(ax, "breaks a rating")
     assert "0 feasible" in ax.get_title()
+
+
+def test_image_plot_draws_the_cutoff_response(levitator):
+    # The top panel's curve is the cutoff's transmission: at zero deflection the level is
+    # the background share (0.3 x the open level for a 70 % knife cut, Settles 2001 sec.
+    # 3.2), and it rises with the deflection (knife: bright when the image moves off it).
+    fig = plots.plot_image(levitator)
+    top, bottom = fig.axes
+    line = next(ln for ln in top.lines if ln.get_label() == "knife cutoff")
+    x, y = (np.asarray(v, dtype=float) for v in line.get_data())
+    img = levitator.image
+    k = int(np.argmin(np.abs(x)))
+    assert y[k] == pytest.approx(min(img.electrons_per_frame / img.full_well, 1.0), rel=1e-2)
+    assert np.all(np.diff(y) >= -1e-12)
+    labels = [t.get_text() for t in bottom.get_yticklabels()]
+    assert "wave signal" in labels and "noise (total)" in labels
+    assert "SNR" in bottom.get_title()
+
+
+def test_image_plot_needs_a_layout():
+    with pytest.raises(RigError):
+        plots.plot(plain(), "image")

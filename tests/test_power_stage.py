@@ -137,7 +137,9 @@ CASES = {
 
 def test_every_power_code_has_a_case():
     load_all()
-    ours = {c for c in RULES if c.startswith(POWER_PREFIXES)}
+    # led.optical_* / led.output_* are image-chain rules (tests/test_finding_codes.py)
+    ours = {c for c in RULES if c.startswith(POWER_PREFIXES)
+            and c not in ("led.optical_exceeds_electrical", "led.output_extrapolated")}
     assert ours == set(CASES)
 
 

@@ -19,7 +19,8 @@ ULTRASOUND_SOURCE = ("Howard, Hansen & Zander 2004, J. Occup. Health Safety - Au
 
 
 @rule("optics.not_visible", "fault",
-      trigger="the schlieren contrast times the flash's retention is below optics.min_contrast "
+      trigger="without a camera sensor model (image.snr_low decides then): the schlieren "
+              "contrast times the flash's retention is below optics.min_contrast "
               "(default two grey levels at half scale, 2 / 2^(bits - 1), common practice)",
       fix="raise the SPL at the view (drive voltage), lengthen the sound path, use a longer "
           "cutoff_distance or a smaller cutoff_opening (cut more of the source image)")
@@ -27,6 +28,8 @@ def not_visible(plan):
     o = plan.optics
     if o is None or o.visible_contrast is None:
         return None
+    if plan.image is not None and plan.image.snr is not None:
+        return None  # the SNR of the modelled camera decides (image.snr_low)
 
     def hint():
         factor = o.min_contrast / o.visible_contrast if o.visible_contrast > 0 else math.inf

@@ -16,6 +16,7 @@ from __future__ import annotations
 import html
 import io
 import json
+import math
 import re
 from dataclasses import fields
 
@@ -23,7 +24,7 @@ from ..errors import RigError
 from .text import CAUTION, caution_lines, label_and_value, section_rows
 
 SVG_HASHSALT = "strobeplan"
-PLOT_ORDER = ("timing", "pulse", "thermal", "divider", "sweep", "tradeoff")
+PLOT_ORDER = ("timing", "pulse", "image", "thermal", "divider", "sweep", "tradeoff")
 PLOT_TITLES = {
     "timing": "Timing: one frame and one drive period",
     "pulse": "Optical pulse and contrast retention",
@@ -31,8 +32,12 @@ PLOT_TITLES = {
     "divider": "Camera trigger divider: worst-case levels",
     "sweep": "Phase sweep: achieved against target",
     "tradeoff": "Design space: light per frame against retention",
+    "image": "What the camera records: cutoff response and grey-level budget",
 }
 PLOT_HINTS = {
+    "image": "The wave's peak deflection should stay inside the linear part of the response, "
+             "the level between the too-dark line and the full well, and the wave's signal "
+             "well above the noise (SNR 5 or more).",
     "timing": "The flash should sit where the wave at the view has the requested phase, and "
               "every flash of the burst inside the exposure.",
     "pulse": "Each marked harmonic of the wave should keep at least the retention target.",
@@ -245,6 +250,22 @@ def _findings(plan) -> str:
             + "\n".join(rows) + "\n</tbody></table>\n")
 
 
+def _eye_figure(plan) -> str:
+    """The computed IEC 62471 estimate for the source image at the cutoff, as a sentence."""
+    from ..units import render
+
+    eye = plan.eye
+    if eye is None:
+        return ""
+    t = eye.time_to_limit_s
+    when = (f"reaches the {_e(eye.limited_by)} limit after "
+            f"{_e(_micro(render(t, 'time')))}" if t is not None and math.isfinite(t)
+            else "reaches no limit")
+    return (f" Here, looking into the source image at the cutoff {when} (time-averaged over "
+            f"the flash pattern; IEC 62471 risk group {eye.risk_group}); an estimate, not a "
+            "certification.")
+
+
 def _cautions(plan) -> str:
     from ..units import render
 
@@ -254,7 +275,7 @@ def _cautions(plan) -> str:
         "gives short flashes bright enough to injure eyes, and a schlieren system focuses "
         "the source to a point. Never look into the LED, the source image or the beam; "
         "enclose the light path and assess the source against the photobiological safety "
-        "standard that applies to you (e.g. IEC 62471).</li>",
+        "standard that applies to you (e.g. IEC 62471)." + _eye_figure(plan) + "</li>",
     ]
     charge = "<li><strong>Stored charge.</strong> Storage capacitors stay charged after the " \
              "supply is switched off."

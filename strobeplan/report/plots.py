@@ -25,7 +25,7 @@ from .. import timing
 from ..errors import MISSING, RigError
 from ..plan import ZERO_CELSIUS
 
-KINDS = ("timing", "pulse", "thermal", "tradeoff", "divider", "sweep")
+KINDS = ("timing", "pulse", "thermal", "tradeoff", "divider", "sweep", "image")
 
 # Greyscale-readable styles: distinct dashes and markers, dark-to-mid greys.
 INK = "black"
@@ -675,10 +675,88 @@ def figure_bytes(fig, fmt: str, dpi: float = 150) -> bytes:
     return buf.getvalue()
 
 
+def image_response(plan, n: int = 401):
+    """(deflection, level) of the cutoff response: the mean signal in electrons per pixel per
+    frame against a steady deflection, over twice the measuring range each way. [rad, e-]"""
+    from ..physics import cutoff as cut_model
+
+    img, opt = plan.image, plan.rig.optics
+    unit = img.electrons_open
+    span = 2.0 * max(img.measuring_range_rad, abs(img.deflection_rad or 0.0))
+    eps = np.linspace(-span, span, n)
+    blur = cut_model.diffraction_blur(opt.light_wavelength, opt.cutoff_distance,
+                                      opt.mirror_diameter)
+    t = cut_model.transmission(opt.cutoff_distance * eps, img.source_image_m,
+                               opt.cutoff == "rod", opt.cut_fraction, opt.cutoff_width or 0.0,
+                               blur)
+    return eps, unit * np.asarray(t)
+
+
+def plot_image(plan, ax=None):
+    """What the camera records: the cutoff's response and the grey-level budget.
+
+    Top: the mean level of a pixel (electrons per frame, as a share of the full well)
+    against a steady deflection, with the wave's peak deflection, the full well and the
+    too-dark line. A knife edge is linear, then clips; a rod stop is even (dark field, the
+    wave at twice its spatial frequency). Bottom: the budget of one pixel per frame (the
+    background, the wave's signal amplitude, the noise and its parts) on a log scale.
+    """
+    img = _need(plan, "image", "image", path="optics.layout")
+    if img.electrons_open is None or img.full_well is None:
+        raise RigError("led.optical_power", MISSING, "the image plot needs the light budget: "
+                       "led.optical_power, led.emitting_size and the camera's "
+                       "quantum_efficiency, full_well and read_noise")
+    from ..stages.image import TOO_DARK
+
+    cam = plan.rig.camera
+    fig, top, bottom = _two_axes(ax)
+    if top is not None:
+        eps, level = image_response(plan)
+        share = np.minimum(level, img.full_well) / img.full_well
+        top.plot(eps, share, color=INK, linestyle="-", label=f"{img.cutoff} cutoff")
+        top.axhline(1.0, color=GREY, linestyle="--", label="full well")
+        top.axhline(TOO_DARK, color=GREY, linestyle=":", label="too dark below")
+        if img.deflection_rad is not None:
+            for sign in (-1.0, 1.0):
+                top.axvline(sign * img.deflection_rad, color=GREY, linestyle="-.",
+                            label="wave's peak deflection" if sign > 0 else "_")
+        from matplotlib.ticker import MaxNLocator
+
+        _eng(top.xaxis, "rad")
+        top.xaxis.set_major_locator(MaxNLocator(5))
+        _percent(top.yaxis)
+        top.set_xlabel("deflection")
+        top.set_ylabel("level (share of full well)")
+        note = " (dark field: the wave at twice its frequency)" if img.response_order == 2 \
+            else ""
+        top.set_title(f"Cutoff response{note}")
+        top.legend(loc="best", fontsize="small")
+    q = cam.full_well / 2.0 ** cam.bit_depth / math.sqrt(12.0)
+    rows = [("background", img.electrons_per_frame),
+            ("wave signal", img.signal_electrons or 0.0),
+            ("noise (total)", img.noise_electrons),
+            ("shot noise", math.sqrt(max(img.electrons_per_frame, 0.0))),
+            ("read noise", cam.read_noise), ("quantisation", q),
+            ("full well", img.full_well)]
+    names = [r[0] for r in rows]
+    values = np.maximum([float(r[1]) for r in rows], 1e-3)
+    shades = [GREY if n in ("background", "full well") else INK if n == "wave signal"
+              else LIGHT for n in names]
+    bottom.barh(names, values, color=shades, edgecolor=INK, linewidth=0.5)
+    bottom.set_xscale("log")
+    _eng(bottom.xaxis, "e-")
+    bottom.invert_yaxis()
+    bottom.set_xlabel("electrons per pixel per frame")
+    snr = img.snr if img.snr is not None else float("nan")
+    bottom.set_title(f"Grey-level budget: SNR {snr:.3g} per pixel per frame")
+    return fig
+
+
 def plot(plan, kind: str, ax=None, tune_result=None):
     """The plot of one ``kind`` (see :data:`KINDS`); ``tune_result`` feeds "tradeoff"."""
     funcs = {"timing": plot_timing, "pulse": plot_pulse, "thermal": plot_thermal,
-             "tradeoff": plot_tradeoff, "divider": plot_divider, "sweep": plot_sweep}
+             "tradeoff": plot_tradeoff, "divider": plot_divider, "sweep": plot_sweep,
+             "image": plot_image}
     if kind not in funcs:
         raise RigError("--kind", kind, f"expected one of {', '.join(KINDS)}")
     if kind == "tradeoff":

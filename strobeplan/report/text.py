@@ -19,7 +19,8 @@ _SUFFIX = {"time": "_s", "frequency": "_hz", "voltage": "_v", "current": "_a", "
            "capacitance": "_f", "pressure": "_pa", "temperature": "_c",
            "temperature_difference": "_k", "deg": "_deg", "dB": "_db", "ppm": "_ppm",
            "ticks": "_ticks", "m/s": "_m_s", "kg/m3": "_kg_m3", "dB/m": "_db_m",
-           "deg/s": "_deg_per_s", "rad": "_rad", "A s": "_a_s"}
+           "deg/s": "_deg_per_s", "rad": "_rad", "A s": "_a_s", "/rad": "_per_rad",
+           "W/(m2 sr)": "_w_m2_sr"}
 
 
 CAUTION = ("Caution: strobeplan is a planning aid, not a safety certification. Overdriven LEDs "
@@ -92,7 +93,7 @@ def plan_text(plan) -> str:
 
 # One line per concern, shown by `check` when a finding concerns it (issue 8).
 _CONCERNS = (
-    ("eyes", lambda f: f.severity == "hazard" and f.subject == "led",
+    ("eyes", lambda f: f.severity == "hazard" and f.subject in ("led", "eye"),
      "caution (eyes): this LED is driven beyond its ratings; its flashes can injure eyes - "
      "never look into the source or its image, enclose the beam (IEC 62471)."),
     ("stored charge", lambda f: f.severity == "hazard" and f.subject in ("supply", "stuck_on",

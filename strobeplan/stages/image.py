@@ -1,0 +1,376 @@
+"""Image stage: what the camera records, and the eye hazard of the source image.
+
+Runs after the power stage (it needs the LED's currents in ``plan.led``, the last flash's
+current in ``plan.supply``, the flashes per frame in ``plan.timing``, the retention in
+``plan.exposure`` and the deflection in ``plan.optics``). Sections: ``image`` and ``eye``.
+
+* Layout (strobeplan.physics.imaging): magnification of the lens behind the cutoff focused
+  on the mirror, object pixel, field of view, the lens that fills the sensor, the source
+  image and the unobstructed height a, sensitivity f2/a and measuring range, the diffraction
+  limit, z-type astigmatism and coma, the double-pass double image, the bench length.
+* Cutoff (physics.cutoff): the transmission of a blurred source image shifted by f2 x the
+  wave's deflection amplitude; the image's mean, fundamental and second harmonic. A rod stop
+  has no fundamental: its signal is the second harmonic (the wave at twice its spatial
+  frequency).
+* Light budget (physics.camera): the LED's flux at each current from its datasheet rating
+  and relative-output curve, Simpson-averaged over the pulse (peak, mean, end current) and
+  over the burst (first, middle, last flash: capacitor droop), radiance over the emitting
+  area, the camera equation to photoelectrons per pixel, then noise, grey level and SNR.
+* Eye (physics.photobiology): the time-averaged radiance seen at the cutoff, weighted by
+  IEC 62471's B and R functions, against the standard's limits.
+
+Every figure that depends on the design (pulse width, every, series resistor, supply
+voltage) is computed with numpy on the earlier sections' fields, so the stage serves a
+scalar rig and a grid of designs alike (fields are then arrays).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..physics import camera as cam_model
+from ..physics import cutoff as cut_model
+from ..physics import imaging
+from ..physics import photobiology as eye_model
+from ..plan import Section, q
+
+TOO_DARK = 0.10  # background under 10 % of full scale: "too dark" (documented default)
+
+
+@dataclass
+class ImageSection(Section):
+    """``image``: layout, cutoff response, light budget, noise and visibility."""
+
+    layout: str = q()
+    cutoff: str = q()
+    magnification: float = q()
+    object_pixel_m: float = q("length")
+    object_pixel_given_m: float | None = q("length")
+    field_of_view_m: float | None = q("length")
+    field_of_view_height_m: float | None = q("length")
+    sensor_fill: float | None = q("ratio")
+    filling_focal_length_m: float | None = q("length")
+    source_image_m: float = q("length")
+    opening_m: float = q("length")
+    cutoff_distance_m: float = q("length")
+    sensitivity_per_rad: float = q("/rad")
+    measuring_range_rad: float = q("rad")
+    response_order: int = q()
+    image_frequency_factor: int = q()
+    resolution_m: float = q("length")
+    diffraction_limit_m: float = q("length")
+    sound_wavelength_m: float = q("length")
+    astigmatic_split_m: float | None = q("length")
+    astigmatic_blur_m: float | None = q("length")
+    coma_per_mirror_m: float | None = q("length")
+    double_image_m: float | None = q("length")
+    bench_needed_m: float = q("length")
+    bench_length_m: float | None = q("length")
+    lens_pass: float = q("ratio")
+    deflection_rad: float | None = q("rad")
+    shift_amplitude_m: float | None = q("length")
+    saturated: bool | None = q()
+    background_transmission: float = q("ratio")
+    fundamental: float | None = q()
+    second_harmonic: float | None = q()
+    light_wavelength_m: float | None = q("length", default=None)
+    flux_peak_w: float | None = q("power", default=None)
+    wall_plug_efficiency: float | None = q("ratio", default=None)
+    output_extrapolated: bool | None = q(default=None)
+    radiance_w_m2_sr: float | None = q("W/(m2 sr)", default=None)
+    electrons_per_flash: float | None = q(default=None)
+    electrons_per_frame: float | None = q(default=None)
+    electrons_open: float | None = q(default=None)
+    peak_electrons: float | None = q("e-", default=None)
+    full_well: float | None = q(default=None)
+    grey_level: float | None = q(default=None)
+    grey_fraction: float | None = q("ratio", default=None)
+    too_dark: bool | None = q(default=None)
+    sensor_saturated: bool | None = q(default=None)
+    signal_electrons: float | None = q("e-", default=None)
+    noise_electrons: float | None = q("e-", default=None)
+    snr: float | None = q(default=None)
+    snr_binned: float | None = q(default=None)
+    binning: int | None = q(default=None)
+    average_frames: int | None = q(default=None)
+    min_snr: float | None = q(default=None)
+    min_detectable_spl_db: float | None = q("dB", default=None)
+    visible: bool | None = q(default=None)
+
+
+@dataclass
+class EyeSection(Section):
+    """``eye``: IEC 62471 retinal hazards of the source image seen at the cutoff."""
+
+    radiance_average_w_m2_sr: float = q("W/(m2 sr)")
+    blue_radiance_w_m2_sr: float = q("W/(m2 sr)")
+    thermal_radiance_w_m2_sr: float = q("W/(m2 sr)")
+    angular_subtense_rad: float = q("rad")
+    blue_time_to_limit_s: float | None = q("time")
+    thermal_time_to_limit_s: float | None = q("time")
+    time_to_limit_s: float | None = q("time")
+    limited_by: str = q()
+    risk_group: int = q()
+    standard: str = q(default="IEC 62471:2006 (an estimate, not a certification)")
+
+
+def _val(x):
+    """A figure for the section: a plain float for 0-d values, the array otherwise."""
+    if x is None:
+        return None
+    return float(x) if np.ndim(x) == 0 else np.asarray(x)
+
+
+def _flag(x):
+    if x is None:
+        return None
+    return bool(x) if np.ndim(x) == 0 else np.asarray(x, dtype=bool)
+
+
+def _source(rig):
+    """(width, height) of the lit source: the slit within the LED die. [m]"""
+    opt, led = rig.optics, rig.led
+    die = led.emitting_size if led is not None else None
+    sizes = []
+    for key in ("width", "height"):
+        slit = getattr(opt.source, key) if opt.source is not None else None
+        given = [v for v in (slit, die) if v is not None]
+        sizes.append(min(given) if given else None)
+    return sizes
+
+
+def compute(rig, design, plan) -> ImageSection | None:
+    """The ``image`` section, or None without a layout, a lens and a pixel pitch."""
+    opt, cam = rig.optics, rig.camera
+    if opt is None or opt.layout is None or cam is None or cam.lens is None \
+            or cam.pixel_pitch is None or plan.timing is None:
+        return None
+    double = opt.layout == "double-pass"
+    f, d = opt.focal_length, opt.mirror_diameter
+    u = imaging.lens_object_distance(double, f)
+    m = imaging.magnification(cam.lens.focal_length, u)
+    pixel = imaging.object_pixel(cam.pixel_pitch, m)
+    given_pixel = cam.object_pixel if "object_pixel" in cam.model_fields_set else None
+    fov_w = imaging.field_of_view(cam.pixel_pitch, cam.width_px, m) if cam.width_px else None
+    fov_h = imaging.field_of_view(cam.pixel_pitch, cam.height_px, m) if cam.height_px else None
+    sensor_h = cam.pixel_pitch * cam.height_px if cam.height_px else None
+    fill = imaging.sensor_fill(d, m, sensor_h) if sensor_h else None
+    fill_f = imaging.filling_focal_length(d, sensor_h, u) if sensor_h else None
+
+    src_w, src_h = _source(rig)
+    f2 = opt.cutoff_distance
+    img_h = imaging.source_image_size(src_h, f2, f2) if src_h else opt.cutoff_opening / (
+        1.0 - opt.cut_fraction)
+    img_w = imaging.source_image_size(src_w, f2, f2) if src_w else img_h
+    rod = opt.cutoff == "rod"
+    width = opt.cutoff_width or 0.0
+    a = opt.cutoff_opening
+    lam = opt.light_wavelength
+    blur = cut_model.diffraction_blur(lam, f2, d)
+    speed = plan.air.speed_of_sound_m_s
+    sound_wl = speed / plan.timing.drive_frequency_hz
+    order = 2 if rod else 1
+    aperture = img_h if rod else a
+    diffraction = imaging.diffraction_resolution(lam, f2, aperture)
+    lens_airy = 2.44 * lam * cam.lens.f_number / m
+    resolution = max(float(diffraction), 2.0 * cam.binning * float(pixel), float(lens_airy))
+    split = blur_astig = coma = None
+    if not double:
+        split = 2.0 * imaging.astigmatic_split(f, opt.offset_angle)
+        blur_astig = imaging.astigmatic_blur(split, d, f)
+        coma = imaging.coma_length(d, f, opt.offset_angle)
+    dbl = None
+    if double and opt.test_distance is not None:
+        dbl = imaging.double_image_offset(opt.source_separation, 2.0 * f, opt.test_distance)
+    separation = opt.mirror_separation or 2.0 * f
+    bench = imaging.bench_length(double, f, d, cam.lens.focal_length, separation)
+    pupil = cam.lens.focal_length / cam.lens.f_number
+    lens_pass = cam_model.lens_pass(pupil, img_w, img_h)
+    t0 = cut_model.transmission(0.0, img_h, rod, opt.cut_fraction, width, blur)
+    rng = cut_model.linear_range(img_h, rod, opt.cut_fraction, width)
+
+    section = ImageSection(
+        layout=opt.layout, cutoff=opt.cutoff, magnification=float(m),
+        object_pixel_m=float(pixel), object_pixel_given_m=given_pixel,
+        field_of_view_m=_val(fov_w), field_of_view_height_m=_val(fov_h),
+        sensor_fill=_val(fill), filling_focal_length_m=_val(fill_f),
+        source_image_m=float(img_h), opening_m=float(a), cutoff_distance_m=float(f2),
+        sensitivity_per_rad=0.0 if rod else float(imaging.sensitivity(f2, a)),
+        measuring_range_rad=float(rng / f2), response_order=order,
+        image_frequency_factor=order, resolution_m=resolution,
+        diffraction_limit_m=float(diffraction), sound_wavelength_m=float(sound_wl),
+        astigmatic_split_m=_val(split), astigmatic_blur_m=_val(blur_astig),
+        coma_per_mirror_m=_val(coma), double_image_m=_val(dbl), bench_needed_m=float(bench),
+        bench_length_m=opt.bench_length, lens_pass=float(lens_pass), deflection_rad=None,
+        shift_amplitude_m=None, saturated=None, background_transmission=float(t0),
+        fundamental=None, second_harmonic=None,
+    )
+
+    optics = plan.optics
+    retention = plan.exposure.retention if plan.exposure is not None else 1.0
+    if optics is not None and optics.deflection_rad is not None:
+        eps = optics.deflection_rad
+        shift = f2 * np.asarray(eps)
+        mean, first, second = cut_model.harmonics(shift, img_h, rod, opt.cut_fraction, width,
+                                                  blur)
+        section.deflection_rad = _val(eps)
+        section.shift_amplitude_m = _val(shift)
+        section.saturated = _flag(shift > rng)
+        section.fundamental = _val(first)
+        section.second_harmonic = _val(second)
+    _light_budget(rig, design, plan, section, img_w, img_h, lens_pass, retention)
+    return section
+
+
+def _flux(led, current):
+    ref = led.optical_power
+    table = led.relative_output or []
+    return cam_model.radiant_flux(current, ref.current, ref.power,
+                                  [p.current for p in table], [p.ratio for p in table])
+
+
+def _emitted_per_frame(rig, design, plan):
+    """(optical energy of the flashes in one frame, of one mean flash, flashes, peak flux)."""
+    led = rig.led
+    lp = plan.led
+    pk = np.asarray(lp.peak_current_a, dtype=float)
+    mean = np.asarray(lp.mean_current_a, dtype=float)
+    end = np.asarray(lp.end_current_a, dtype=float)
+    last = plan.supply.last_flash_current_a if plan.supply is not None else lp.peak_current_a
+    safe = np.where(pk > 0, pk, 1.0)
+    s_last = np.where(pk > 0, np.asarray(last, dtype=float) / safe, 1.0)
+
+    def flash(scale):  # Simpson over the pulse: peak, mean and end current
+        return design.pulse_width * (_flux(led, scale * pk) + 4.0 * _flux(led, scale * mean)
+                                     + _flux(led, scale * end)) / 6.0
+
+    n = plan.timing.flashes_per_frame
+    n = np.asarray(n if n is not None else 1, dtype=float)
+    n = np.where(n > 0, n, 0.0)
+    one = (flash(1.0) + 4.0 * flash((1.0 + s_last) / 2.0) + flash(s_last)) / 6.0
+    return n * one, one, n, _flux(led, pk)
+
+
+def _light_budget(rig, design, plan, section, img_w, img_h, lens_pass, retention):
+    led, cam, opt = rig.led, rig.camera, rig.optics
+    needed = (led is not None and led.optical_power is not None and led.emitting_size
+              and cam.quantum_efficiency is not None and cam.full_well is not None
+              and cam.read_noise is not None and plan.led is not None)
+    if not needed:
+        return
+    double = opt.layout == "double-pass"
+    white = led.spectrum == "white"
+    peak = led.wavelength or 0.0
+    lam = eye_model.photon_wavelength(peak, white)
+    energy_frame, energy_flash, n, flux_pk = _emitted_per_frame(rig, design, plan)
+    area = led.emitting_size**2
+    src_w, src_h = _source(rig)
+    src_area = src_w * src_h
+    d_src = 2.0 * opt.focal_length if double else opt.focal_length
+    mirrors = opt.mirror_reflectance * (opt.beamsplitter * (1.0 - opt.beamsplitter)
+                                        if double else opt.mirror_reflectance)
+    tau = mirrors * opt.lens_transmission * lens_pass
+    pixel = section.object_pixel_m
+
+    def electrons(energy):  # whole source image passing the cutoff
+        radiance_energy = cam_model.lambertian_radiance(energy, area)
+        at_pixel = cam_model.pixel_power(radiance_energy, tau, pixel, src_area, d_src)
+        return cam_model.photoelectrons(at_pixel, lam, cam.quantum_efficiency)
+
+    unit = np.asarray(electrons(energy_frame))
+    t0 = section.background_transmission
+    dark = cam.dark_current * cam.exposure
+    background = unit * t0 + dark
+    mean_t = t0 if section.fundamental is None else _mean_transmission(rig, section, img_h)
+    mean_e = unit * mean_t + dark
+    order = section.response_order
+    if section.fundamental is not None:
+        harmonic = section.second_harmonic if order == 2 else section.fundamental
+        signal = unit * np.asarray(harmonic) * np.asarray(retention) ** order
+        peak_t = np.minimum(1.0, mean_t + np.asarray(section.fundamental)
+                            + np.asarray(section.second_harmonic))
+    else:
+        signal = None
+        peak_t = t0
+    noise = cam_model.noise(mean_e, cam.read_noise, cam.full_well, cam.bit_depth, dark)
+    v_pk = np.asarray(plan.led.forward_voltage_peak_v, dtype=float)
+    i_pk = np.asarray(plan.led.peak_current_a, dtype=float)
+    electrical = np.where(i_pk * v_pk > 0, i_pk * v_pk, np.nan)
+    table = led.relative_output or []
+    top = max([p.current for p in table] + [led.optical_power.current])
+
+    section.light_wavelength_m = float(lam)
+    section.flux_peak_w = _val(flux_pk)
+    section.wall_plug_efficiency = _val(flux_pk / electrical)
+    section.output_extrapolated = _flag(i_pk > top * 1.0001)
+    section.radiance_w_m2_sr = _val(cam_model.lambertian_radiance(flux_pk, area))
+    per_flash = np.where(n > 0, unit * t0 / np.where(n > 0, n, 1.0), 0.0)
+    section.electrons_per_flash = _val(per_flash)
+    section.electrons_per_frame = _val(background)
+    section.full_well = cam.full_well
+    section.grey_level = _val(cam_model.grey_level(background, cam.full_well, cam.bit_depth))
+    section.grey_fraction = _val(background / cam.full_well)
+    peak_level = unit * peak_t + dark
+    section.electrons_open = _val(unit)
+    section.peak_electrons = _val(peak_level)
+    # dark field (rod): the background is dark by design; judge the wave's brightest level
+    section.too_dark = _flag((peak_level if order == 2 else background)
+                             < TOO_DARK * cam.full_well)
+    section.sensor_saturated = _flag(peak_level >= cam.full_well)
+    section.noise_electrons = _val(noise)
+    section.binning = cam.binning
+    section.average_frames = cam.average_frames
+    section.min_snr = opt.min_snr
+    if signal is not None:
+        snr = cam_model.snr(signal, noise)
+        binned = cam_model.snr(signal, noise, cam.binning, cam.average_frames)
+        section.signal_electrons = _val(signal)
+        section.snr = _val(snr)
+        section.snr_binned = _val(binned)
+        section.min_detectable_spl_db = _val(cam_model.min_detectable_spl(
+            plan.optics.spl_at_view_db, binned, opt.min_snr, order))
+        section.visible = _flag(binned >= opt.min_snr)
+
+
+def _mean_transmission(rig, section, img_h):
+    opt = rig.optics
+    blur = cut_model.diffraction_blur(opt.light_wavelength, opt.cutoff_distance,
+                                      opt.mirror_diameter)
+    mean, _, _ = cut_model.harmonics(np.asarray(section.shift_amplitude_m), img_h,
+                                     opt.cutoff == "rod", opt.cut_fraction,
+                                     opt.cutoff_width or 0.0, blur)
+    return np.asarray(mean)
+
+
+def compute_eye(rig, design, plan) -> EyeSection | None:
+    """The ``eye`` section: needs the LED's optics and the power stage's flash pattern."""
+    led, opt, img = rig.led, rig.optics, plan.image
+    if img is None or img.flux_peak_w is None or plan.supply is None:
+        return None
+    double = opt.layout == "double-pass"
+    _, energy_flash, _, _ = _emitted_per_frame(rig, design, plan)
+    rate = np.asarray(plan.supply.flash_rate_average_hz, dtype=float)
+    mirrors = opt.mirror_reflectance * ((1.0 - opt.beamsplitter) * opt.beamsplitter
+                                        if double else opt.mirror_reflectance)
+    average = mirrors * cam_model.lambertian_radiance(energy_flash * rate,
+                                                      led.emitting_size**2)
+    white = led.spectrum == "white"
+    peak = led.wavelength or 0.0
+    lb = average * eye_model.weighted_fraction(peak, white, eye_model.blue_light_weight)
+    lr = average * eye_model.weighted_fraction(peak, white, eye_model.thermal_weight)
+    alpha = opt.mirror_diameter / opt.cutoff_distance
+    tb = eye_model.blue_time_to_limit(lb)
+    tt = eye_model.thermal_time_to_limit(lr, alpha)
+    t = np.minimum(tb, tt)
+    group = eye_model.risk_group(tb, tt)
+    limited = np.where(tt < tb, "retinal thermal", "blue light")
+    return EyeSection(
+        radiance_average_w_m2_sr=_val(average), blue_radiance_w_m2_sr=_val(lb),
+        thermal_radiance_w_m2_sr=_val(lr), angular_subtense_rad=float(alpha),
+        blue_time_to_limit_s=_val(tb), thermal_time_to_limit_s=_val(tt),
+        time_to_limit_s=_val(t),
+        limited_by=str(limited) if np.ndim(limited) == 0 else limited,
+        risk_group=int(group) if np.ndim(group) == 0 else group,
+    )

@@ -1,0 +1,64 @@
+"""Tests for strobeplan.physics.photobiology: IEC 62471 weightings, limits and risk groups."""
+
+import numpy as np
+import pytest
+
+from strobeplan.physics import photobiology as pb
+
+
+@pytest.mark.parametrize("nm, b", [
+    # IEC 62471:2006 Table 4.2 (tabulated values, from memory: see the module's references)
+    (400, 0.10), (420, 0.90), (435, 1.0), (440, 1.0), (450, 0.94), (460, 0.80),
+    (470, 0.62), (480, 0.45), (490, 0.22),
+    # formula 10^((450 - lambda)/50) for 500-600 nm: 550 nm -> 0.01; 0.001 at 600-700 nm
+    (550, 0.01), (650, 0.001),
+])
+def test_blue_light_weight(nm, b):
+    assert pb.blue_light_weight(nm * 1e-9) == pytest.approx(b, rel=1e-9)
+
+
+@pytest.mark.parametrize("nm, r", [
+    # IEC 62471:2006 Table 4.2: R = 10 B for 380-495 nm, 1 for 500-700 nm,
+    # 10^((700 - lambda)/500) for 700-1050 nm (800 nm -> 0.631), 0.2 for 1050-1150 nm
+    (440, 10.0), (470, 6.2), (600, 1.0), (800, 10 ** (-0.2)), (1100, 0.2), (1300, 0.02),
+])
+def test_thermal_weight(nm, r):
+    assert pb.thermal_weight(nm * 1e-9) == pytest.approx(r, rel=1e-9)
+
+
+def test_blue_limit_and_risk_group_boundaries():
+    # IEC 62471 sec. 4.3.3: 1e6 J/m^2/sr -> L_B = 1e4 reaches it in 100 s (RG1/RG2 boundary);
+    # L_B = 4e6 in 0.25 s (RG2/RG3); under 100 W/m^2/sr never (exempt).
+    assert pb.blue_time_to_limit(1e4) == pytest.approx(100.0)
+    assert pb.blue_time_to_limit(4e6) == pytest.approx(0.25)
+    assert np.isinf(pb.blue_time_to_limit(99.0))
+    inf = np.inf
+    assert pb.risk_group(pb.blue_time_to_limit(99.0), inf) == 0
+    assert pb.risk_group(pb.blue_time_to_limit(5e3), inf) == 1
+    assert pb.risk_group(pb.blue_time_to_limit(2e4), inf) == 2
+    assert pb.risk_group(pb.blue_time_to_limit(5e6), inf) == 3
+
+
+def test_thermal_limit_boundaries():
+    # IEC 62471 sec. 4.3.4 / Table 6.1: the RG2/RG3 boundary 71000/alpha is the limit at
+    # 0.25 s (50000 / 0.25^0.25 = 70711); 28000/alpha the 10 s value (50000 / 10^0.25 =
+    # 28117).
+    alpha = 0.05
+    assert pb.thermal_time_to_limit(70711.0 / alpha, alpha) == pytest.approx(0.25, rel=1e-4)
+    assert np.isinf(pb.thermal_time_to_limit(28000.0 / alpha, alpha))
+    assert pb.risk_group(np.inf, pb.thermal_time_to_limit(80000.0 / alpha, alpha)) == 3
+    # alpha is clipped to 0.1 rad
+    assert pb.thermal_time_to_limit(1e6, 0.5) == pytest.approx(pb.thermal_time_to_limit(1e6,
+                                                                                        0.1))
+
+
+def test_spectra():
+    # a colour LED's weighted fraction is close to the weight at its peak (20 nm FWHM)
+    assert pb.weighted_fraction(450e-9, False, pb.blue_light_weight) == pytest.approx(0.93,
+                                                                                   abs=0.03)
+    # red LEDs carry almost no blue-light hazard; white ones a quarter-ish
+    assert pb.weighted_fraction(630e-9, False, pb.blue_light_weight) < 2e-3
+    assert 0.2 < pb.weighted_fraction(0.0, True, pb.blue_light_weight) < 0.35
+    assert pb.photon_wavelength(625e-9, False) == pytest.approx(625e-9, rel=1e-3)
+    out = pb.weighted_fraction(np.array([450e-9, 625e-9]), False, pb.thermal_weight)
+    assert out.shape == (2,)
