@@ -81,6 +81,7 @@ class Candidate:
     every: int
     supply_voltage_v: float
     light_per_frame: float  # [A s]
+    score: float  # the objective's value (image SNR, else light per frame)
     retention: float
     thermal_margin_k: float
     junction_peak_c: float
@@ -125,6 +126,7 @@ class TuneResult:
     min_retention: float
     min_margin: float | None
     cloud: Cloud
+    objective: str = "light per frame [A s]"
     refined_from: float | None = None  # [s] the grid's best width before the refinement
     rejected_by_check: list[dict] = field(default_factory=list)
     plan: Any = None  # the solved Plan of the best rig
@@ -139,6 +141,7 @@ class TuneResult:
             "runner_ups": [d.to_json() for d in self.runner_ups],
             "frontier": [d.to_json() for d in self.frontier],
             "candidates": self.candidates, "feasible": self.feasible, "seconds": self.seconds,
+            "objective": self.objective,
             "light_unit": "A s (LED current integrated over the optical pulse, per frame)",
             "limits": {"min_retention": self.min_retention, "min_margin_k": self.min_margin},
             "avoided_warnings": list(AVOID),

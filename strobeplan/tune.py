@@ -18,9 +18,11 @@ extrapolated pulse rating, a capacitor that does not recharge between bursts, a 
 wave). ``--min-retention`` and ``--min-margin`` set the rig's own ``strobe.min_retention``
 and ``led.min_margin`` for the search (and for the written rig), so they are one limit too.
 
-Objective: light per frame (``led.light_per_frame_a_s``: the LED's mean current over the
-gate times the optical area of the pulse times the flashes per frame, ampere-seconds of LED
-current); ties go to the larger thermal margin. After the grid, every whole tick between
+Objective (:func:`objective`): the wave's signal-to-noise ratio per pixel per frame
+(``image.snr``) when the rig models the camera, else the light per frame
+(``led.light_per_frame_a_s``: the LED's mean current over the gate times the optical area of
+the pulse times the flashes per frame, ampere-seconds of LED current); ties go to the larger
+thermal margin. After the grid, every whole tick between
 the best width and the next grid width is tried at the winner's resistor, ``every`` and
 supply (the grid is not left a step short of the limit); the best is verified through the
 scalar ``solve`` and its checks.
@@ -72,6 +74,7 @@ class Evaluation:
     light: np.ndarray
     margin: np.ndarray
     retention: np.ndarray
+    score: np.ndarray  # what the search maximises (see :func:`objective`)
 
     def constraint_masks(self) -> dict[str, np.ndarray]:
         """The masks that exclude candidates: hazards, faults and the avoided warnings."""
@@ -105,10 +108,20 @@ def evaluate(rig, design: Design) -> Evaluation:
     def full(x):
         return np.broadcast_to(np.asarray(x, dtype=float), shape)
 
+    name, score = objective(plan)
     return Evaluation(plan=plan, masks=fired, verdict=verdict, feasible=~fail & ~avoid,
                       light=full(plan.led.light_per_frame_a_s),
                       margin=full(plan.led.thermal_margin_k),
-                      retention=full(plan.exposure.retention))
+                      retention=full(plan.exposure.retention),
+                      score=np.nan_to_num(full(score), nan=-np.inf))
+
+
+def objective(plan) -> tuple[str, Any]:
+    """(name, value) the search maximises: the wave's signal-to-noise ratio per pixel per
+    frame when the rig models the camera (``image.snr``), else the light per frame."""
+    if plan.image is not None and plan.image.snr is not None:
+        return "image SNR per pixel per frame", plan.image.snr
+    return "light per frame [A s]", plan.led.light_per_frame_a_s
 
 
 def _candidate(ev: Evaluation, index, design: Design) -> Candidate:
@@ -121,7 +134,8 @@ def _candidate(ev: Evaluation, index, design: Design) -> Candidate:
     return Candidate(
         pulse_width_s=pick(design.pulse_width), series_resistor_ohm=pick(design.series_resistor),
         every=int(pick(design.every)), supply_voltage_v=pick(design.supply_voltage),
-        light_per_frame=float(ev.light[index]), retention=float(ev.retention[index]),
+        light_per_frame=float(ev.light[index]), score=float(ev.score[index]),
+        retention=float(ev.retention[index]),
         thermal_margin_k=float(ev.margin[index]),
         junction_peak_c=pick(p.led.junction_peak_k) - ZERO_CELSIUS,
         peak_current_a=pick(p.led.peak_current_a),
@@ -181,9 +195,11 @@ def tune(rig, limits: Limits | None = None, grid: Grid | None = None, *,
                   any_light=np.full((nw, ne), -np.inf),
                   safe_flat=np.full((nw, ne), -1, dtype=np.int64))
     feasible = 0
+    goal = None
     for start in range(0, nw, rows):
         sl = slice(start, min(nw, start + rows))
         ev = evaluate(rig, grid.design(sl))
+        goal = goal or objective(ev.plan)[0]
         cons = ev.constraint_masks()
         n_bad = sum((m.astype(np.int64) for m in cons.values()), np.zeros(ev.light.shape, int))
         for code, m in cons.items():
@@ -196,7 +212,7 @@ def tune(rig, limits: Limits | None = None, grid: Grid | None = None, *,
         base = start * nr * ne * nv
         if ok.any():
             idx = np.flatnonzero(ok)
-            li, ma = ev.light.ravel()[idx], ev.margin.ravel()[idx]
+            li, ma = ev.score.ravel()[idx], ev.margin.ravel()[idx]
             best_k = np.lexsort((-ma, -li))[:keep]
             top += [(float(li[k]), float(ma[k]), base + int(idx[k])) for k in best_k]
             top = sorted(top, key=lambda t: (-t[0], -t[1]))[:keep]
@@ -205,7 +221,7 @@ def tune(rig, limits: Limits | None = None, grid: Grid | None = None, *,
             if code not in TRADED:
                 traded |= m
         cloud.retention[sl] = np.nanmax(ev.retention, axis=(1, 3))
-        safe = np.where(~traded, ev.light, -np.inf).transpose(0, 2, 1, 3)
+        safe = np.where(~traded, ev.score, -np.inf).transpose(0, 2, 1, 3)
         k = safe.shape[0]
         flat_rv = np.argmax(safe.reshape(k, ne, nr * nv), axis=2)
         cloud.safe_light[sl] = np.take_along_axis(safe.reshape(k, ne, nr * nv),
@@ -214,7 +230,7 @@ def tune(rig, limits: Limits | None = None, grid: Grid | None = None, *,
         iw = np.arange(start, start + k)[:, None]
         cloud.safe_flat[sl] = np.ravel_multi_index((np.broadcast_to(iw, ir.shape), ir,
                                                     np.arange(ne)[None, :], iv), grid.shape)
-        cloud.any_light[sl] = np.max(ev.light, axis=(1, 3))
+        cloud.any_light[sl] = np.max(ev.score, axis=(1, 3))
         if progress is not None:
             progress(min(nw, start + rows) * nr * ne * nv, grid.size)
 
@@ -226,7 +242,7 @@ def tune(rig, limits: Limits | None = None, grid: Grid | None = None, *,
         if better is not None:
             refined_from = best.pulse_width_s
             best = better
-            cands = [best] + [c for c in cands if c.light_per_frame < best.light_per_frame]
+            cands = [best] + [c for c in cands if c.score < best.score]
     rejected: list[dict] = []
     best_plan = None
     if best is not None:
@@ -244,7 +260,7 @@ def tune(rig, limits: Limits | None = None, grid: Grid | None = None, *,
         candidates=grid.size, feasible=feasible, seconds=time.perf_counter() - t0,
         excluded=excluded, only_excluded=only, best_reached=reached, explanation=explanation,
         grid=grid, min_retention=rig.strobe.min_retention, min_margin=rig.led.min_margin,
-        cloud=cloud, refined_from=refined_from, rejected_by_check=rejected, plan=best_plan)
+        cloud=cloud, objective=goal or "light per frame [A s]", refined_from=refined_from, rejected_by_check=rejected, plan=best_plan)
 
 
 def _pick(rig, grid: Grid, flat: int) -> Candidate:
@@ -268,10 +284,10 @@ def _refine(rig, grid: Grid, best: Candidate) -> Candidate | None:
     design = _design_of([(t / clock, best.series_resistor_ohm, best.every,
                           best.supply_voltage_v) for t in ticks])
     ev = evaluate(rig, design)
-    ok = np.flatnonzero(ev.feasible & (ev.light > best.light_per_frame))
+    ok = np.flatnonzero(ev.feasible & (ev.score > best.score))
     if ok.size == 0:
         return None
-    k = int(ok[np.argmax(ev.light[ok])])
+    k = int(ok[np.argmax(ev.score[ok])])
     return _candidate(ev, k, design)
 
 
@@ -299,7 +315,7 @@ def _limited_by(rig, grid: Grid, best: Candidate) -> str:
         design = _design_of(neighbours)
         ev = evaluate(rig, design)
         for code, m in ev.constraint_masks().items():
-            n = int((m & (ev.light > best.light_per_frame)).sum())
+            n = int((m & (ev.score > best.score)).sum())
             if n:
                 counts[code] = n
     if counts:

@@ -478,6 +478,13 @@ def plot_thermal(plan, ax=None):
 # --- tradeoff -----------------------------------------------------------------------------
 
 
+def result_objective(plan, result):
+    """The search objective's value for the rig as given (read from its sections)."""
+    if result.objective.startswith("image SNR") and plan.image is not None:
+        return plan.image.snr
+    return plan.led.light_per_frame_a_s
+
+
 def plot_tradeoff(plan, ax=None, result=None):
     """Light per frame against retention over the tune space (``strobeplan tune``).
 
@@ -504,7 +511,7 @@ def plot_tradeoff(plan, ax=None, result=None):
     fig, ax = _one_axes(ax)
     front = sorted(result.frontier, key=lambda d: d.retention)
     fr = np.array([d.retention for d in front])
-    fl = np.array([d.light_per_frame for d in front])
+    fl = np.array([d.score for d in front])
     floor = best[shown] if shown.any() else any_best[np.isfinite(any_best) & (any_best > 0)]
     y_lo = 0.5 * float(np.min(floor)) if floor.size else 1e-9
     if fr.size:
@@ -523,14 +530,14 @@ def plot_tradeoff(plan, ax=None, result=None):
             color=GREY, label="feasible (meets every constraint)")
     ax.axvline(target, color=INK, linestyle="--", label=f"retention target {target:.0%}")
     if plan.exposure is not None:
-        here = plan.led.light_per_frame_a_s
+        here = float(np.nan_to_num(result_objective(plan, result), nan=0.0))
         if here > 0:
             ax.plot([plan.exposure.retention], [here], linestyle="none", marker="D",
                     markerfacecolor="white", color=INK, markeredgecolor=INK, markersize=7,
                     label="the rig as given")
     if result.best is not None:
         b = result.best
-        ax.plot([b.retention], [b.light_per_frame], linestyle="none", marker="*",
+        ax.plot([b.retention], [b.score], linestyle="none", marker="*",
                 markersize=14, color=INK,
                 label=f"chosen: {_si(b.pulse_width_s, 'time')}, "
                       f"{_si(b.series_resistor_ohm, 'resistance')}, every {b.every}"
@@ -540,7 +547,7 @@ def plot_tradeoff(plan, ax=None, result=None):
     ax.set_yscale("log")
     ax.set_ylim(bottom=y_lo)
     ax.set_xlabel("contrast retention at the wave frequency")
-    ax.set_ylabel("light per frame (LED charge)")
+    ax.set_ylabel(result.objective)
     _percent(ax.xaxis)
     _eng(ax.yaxis, "A\N{MIDDLE DOT}s")
     ax.set_title(f"Design space: {result.candidates} candidates, {result.feasible} feasible",

@@ -7,13 +7,14 @@ import math
 
 from ..units import render
 
-_COLUMNS = ["pulse width", "resistor", "every", "supply", "light/frame [A s]", "retention",
-            "margin [K]", "peak current", "flashes/frame", "verdict"]
+_COLUMNS = ["pulse width", "resistor", "every", "supply", "objective", "light/frame [A s]",
+            "retention", "margin [K]", "peak current", "flashes/frame", "verdict"]
 
 
 def _row(d) -> list[str]:
     return [render(d.pulse_width_s, "time"), render(d.series_resistor_ohm, "resistance"),
-            str(d.every), render(d.supply_voltage_v, "voltage"), f"{d.light_per_frame:.4g}",
+            str(d.every), render(d.supply_voltage_v, "voltage"), f"{d.score:.4g}",
+            f"{d.light_per_frame:.4g}",
             f"{d.retention:.4f}", f"{d.thermal_margin_k:.1f}", render(d.peak_current_a, "current"),
             str(d.flashes_per_frame), d.verdict]
 
@@ -38,11 +39,12 @@ def result_text(result, frontier_rows: int = 12) -> str:
         if result.explanation:
             lines.append("  " + result.explanation)
     else:
-        lines += ["best (light per frame, ties to the larger margin):",
+        lines += [f"best ({result.objective}, ties to the larger margin):",
                   f"  strobe.pulse_width     {render(b.pulse_width_s, 'time')}",
                   f"  supply.series_resistor {render(b.series_resistor_ohm, 'resistance')}",
                   f"  strobe.every           {b.every}",
                   f"  supply.voltage         {render(b.supply_voltage_v, 'voltage')}",
+                  f"  objective              {b.score:.4g} ({result.objective})",
                   f"  light per frame        {b.light_per_frame:.4g} A s",
                   f"  limited by             {b.limited_by}",
                   f"  retention {b.retention:.4f}, junction peak {b.junction_peak_c:.1f} degC "
@@ -68,7 +70,7 @@ def result_text(result, frontier_rows: int = 12) -> str:
         shown = front[::step]
         if shown[-1] is not front[-1]:
             shown.append(front[-1])
-        lines += ["", f"frontier, light against retention ({len(front)} points over the "
+        lines += ["", f"frontier, objective against retention ({len(front)} points over the "
                       "designs that meet every other constraint):",
                   *_table([_row(d) for d in shown])]
     lines += ["", "candidates excluded by each finding (alone):"]
