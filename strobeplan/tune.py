@@ -260,7 +260,8 @@ def tune(rig, limits: Limits | None = None, grid: Grid | None = None, *,
         candidates=grid.size, feasible=feasible, seconds=time.perf_counter() - t0,
         excluded=excluded, only_excluded=only, best_reached=reached, explanation=explanation,
         grid=grid, min_retention=rig.strobe.min_retention, min_margin=rig.led.min_margin,
-        cloud=cloud, objective=goal or "light per frame [A s]", refined_from=refined_from, rejected_by_check=rejected, plan=best_plan)
+        cloud=cloud, objective=goal or "light per frame [A s]", refined_from=refined_from,
+        rejected_by_check=rejected, plan=best_plan)
 
 
 def _pick(rig, grid: Grid, flat: int) -> Candidate:
