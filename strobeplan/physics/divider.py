@@ -5,14 +5,16 @@ A controller output (the *source* family) drives a camera or gate-driver input (
 ``bottom`` from the node to ground. Everything is SI: volts, amperes, ohms, farads, seconds;
 tolerances are fractions (1 % -> 0.01).
 
-The worst case is taken corner by corner (the divider ratio is monotone in each resistor, the
-levels are monotone in each supply), so the bounds below are exact for the model:
+The worst case is exact over the whole box of the source's supply range and both resistors'
+tolerances, each point with the source's guarantee at that point's own current:
 
-- lowest high level: source at its lowest supply, its guaranteed VOH *at the divider's
-  largest current* (nothing is guaranteed above the family's rated output current), top at
-  +tol, bottom at -tol, input leakage drawn out through the largest Thevenin resistance;
+- lowest high level: the least node voltage over the box, the output at its guaranteed VOH
+  for the current it delivers there (nothing is guaranteed above the family's rated output
+  current), input leakage drawn out through the top resistor (:func:`_lowest_high_level`);
+  with stepped guarantees this is either the corner (lowest supply, top at +tol, bottom at
+  -tol) or a point where the current just passes a test current;
 - highest high level: source at its highest supply with no output drop, top at -tol, bottom
-  at +tol, leakage pushed in;
+  at +tol, leakage pushed in (that corner's own Thevenin resistance);
 - the destination's VIH at its highest supply, its VIL and input maximum at its lowest.
 
 References
@@ -107,6 +109,45 @@ def _scalar(x):
     return x if np.ndim(x) else x.item() if isinstance(x, np.ndarray | np.generic) else x
 
 
+def _lowest_high_level(source: Family, rt_lo, rt_hi, rb_lo, rb_hi, ro, leak):
+    """Lowest guaranteed node voltage over every supply in the source's range and every
+    resistor within tolerance, each point with the guarantee at its own current. [V]
+
+    With the output pin at ``V`` the node is ``f = (V - leak rt) rb/(rt + rb)``, which falls
+    with ``rt`` and (for ``V > leak rt``) rises with ``rb``; the source current
+    ``I = (vdd + leak rb)/(rt + rb + ro)`` rises with ``vdd`` and falls with both resistors.
+    Guarantee ``g`` (levels ``L_g(vdd)`` falling as the test current rises) holds at least
+    wherever ``I`` exceeds the previous test current ``I_(g-1)``, so the lowest level is the
+    least over ``g`` of ``f`` with ``V = L_g(vdd)`` minimised over that set: the first
+    guarantee at the corner (lowest supply, top at +tol, bottom at -tol); each later one on
+    ``I = I_(g-1)`` with the bottom at -tol, where ``f`` is monotone along the curve
+    ``vdd = I_(g-1) (rt + rb + ro) - leak rb``, so at its ends inside the box (top at either
+    tolerance, or the supply at either end of its range). Exact for the model whenever the
+    output level exceeds the leakage drop across the top resistor.
+    """
+    steps = sorted(source.voh, key=lambda g: g.current)
+    vmin, vmax = source.vdd_min, source.vdd_max
+
+    def node(level, vdd, rt, rb):
+        return (level.at(vdd) - leak * rt) * rb / (rt + rb)
+
+    first = steps[0].level
+    low = np.fmin(node(first, vmin, rt_hi, rb_lo), node(first, vmin, rt_hi, rb_hi))
+    rb = rb_lo
+    for prev, g in zip(steps, steps[1:], strict=False):
+        i_b = prev.current
+        on_curve = []
+        for rt in (rt_lo, rt_hi):  # the curve's supply at either top resistor
+            vdd = i_b * (rt + rb + ro) - leak * rb
+            on_curve.append((np.maximum(vdd, vmin), rt, vdd <= vmax))
+        for vdd in (vmin, vmax):  # the top resistor where the curve meets either supply end
+            rt = (vdd + leak * rb) / i_b - rb - ro
+            on_curve.append((vdd, np.clip(rt, rt_lo, rt_hi), (rt >= rt_lo) & (rt <= rt_hi)))
+        for vdd, rt, inside in on_curve:
+            low = np.where(inside, np.fmin(low, node(g.level, vdd, rt, rb)), low)
+    return low
+
+
 def evaluate_divider(
     top,
     bottom,
@@ -171,26 +212,23 @@ def evaluate_divider(
     rt_lo, rt_hi = rt * (1 - tol), rt * (1 + tol)
     rb_lo, rb_hi = rb * (1 - tol), rb * (1 + tol)
     ratio_nom = rb / (rt + rb)
-    ratio_min = rb_lo / (rt_hi + rb_lo)
-    ratio_max = rb_hi / (rt_lo + rb_hi)
     thevenin = (rt + ro) * rb / (rt + ro + rb)
     thevenin_max = (rt_hi + ro) * rb_hi / (rt_hi + ro + rb_hi)
 
-    # largest current from the source: highest supply, both resistors at -tol
-    current = source.vdd_max / (rt_lo + rb_lo + ro)
+    # largest current from the source: highest supply, both resistors at -tol, the input's
+    # leakage drawn out of the node
+    current = (source.vdd_max + leak_hi * rb_lo) / (rt_lo + rb_lo + ro)
     rated = source.rated_current
     overloaded = current > rated * (1 + 1e-12)
 
-    voh_guaranteed = source.voh_min(current, source.vdd_min)
-    if ro > 0:
-        voh_model = source.vdd_min - current * ro
-        voh_low = np.where(np.isnan(voh_guaranteed), voh_model, np.fmin(voh_guaranteed,
-                                                                         voh_model))
-    else:
-        voh_low = voh_guaranteed
-    v_high_min = voh_low * ratio_min - leak_hi * thevenin_max
-    v_high_max = source.vdd_max * ratio_max + leak_hi * thevenin_max
-    v_low_max = source.vol_max(0.0, source.vdd_max) * ratio_max + leak_lo * thevenin_max
+    v_high_min = np.where(overloaded, np.nan,
+                          _lowest_high_level(source, rt_lo, rt_hi, rb_lo, rb_hi, ro, leak_hi))
+    if ro > 0:  # the output as its lowest supply behind ro: a plain divider with top + ro
+        model = (source.vdd_min - leak_hi * (rt_hi + ro)) * rb_lo / (rt_hi + ro + rb_lo)
+        v_high_min = np.fmin(v_high_min, model)
+    # highest levels: rb (V + leak rt)/(rt + rb) rises with rb and falls with rt (ro = 0)
+    v_high_max = rb_hi * (source.vdd_max + leak_hi * rt_lo) / (rt_lo + rb_hi)
+    v_low_max = rb_hi * (source.vol_max(0.0, source.vdd_max) + leak_lo * rt_lo) / (rt_lo + rb_hi)
     v_nominal = source.vdd_nominal * ratio_nom
 
     vih = destination.vih_worst

@@ -15,7 +15,7 @@ import subprocess
 import eseries
 import numpy as np
 import pytest
-from hypothesis import given, settings
+from hypothesis import assume, given, settings
 from hypothesis import strategies as st
 from numpy.testing import assert_allclose
 
@@ -180,12 +180,103 @@ def test_overloaded_source_guarantees_nothing_unless_resistance_given():
     # 100/100 ohm from 3.6 V draws 18 mA > 2 mA rated (JESD8C test current): no guarantee
     c = D.evaluate_divider(100.0, 100.0, SRC, DST, 0.01, 10e-12)
     assert c.overloaded and np.isnan(c.v_high_min) and not c.feasible
-    # with a 25 ohm output resistance (a user-given model): 3.0 V - I * 25 ohm through k_min
+    # with a 25 ohm output resistance (a user-given model): the lowest supply, 3.0 V, behind
+    # 25 ohm into the top at +1 % and the bottom at -1 % (one corner, its own current)
+    # [calc]: 3.0 * 99 / (101 + 25 + 99) = 1.32 V
     r = D.evaluate_divider(100.0, 100.0, SRC, DST, 0.01, 10e-12, source_resistance=25.0,
                            leakage=0.0)
-    i = 3.6 / (99 + 99 + 25)
-    assert_allclose(r.v_high_min, (3.0 - i * 25) * 99 / (101 + 99), rtol=1e-12)
+    assert_allclose(r.v_high_min, 3.0 * 99 / (101 + 25 + 99), rtol=1e-12)
     assert r.overloaded  # still above the rated current
+
+
+CMOS5, LVCMOS18 = F.family("cmos5"), F.family("lvcmos18")
+
+
+def test_cmos5_to_lvcmos18_180k_82k_exact_worst_case():
+    # 74HC output (JESD7A levels, from memory, as in the family table): VOH >= VDD - 0.1 V up
+    # to 20 uA, VDD - 0.66 V up to 4 mA, VDD 4.5-5.5 V; lvcmos18 input (JESD8-7A):
+    # VIH = 0.65 * 1.95 V = 1.2675 V; input leakage 1 uA (common practice); 1 % resistors.
+    leak, vih = 1e-6, 0.65 * 1.95
+    rt, rb = 180e3 * 1.01, 82e3 * 0.99  # 181.8 k, 81.18 k: the lowest ratio
+    # corner: 4.5 V supply draws (4.5 + 1 uA * 81.18 k)/(181.8 k + 81.18 k) = 17.42 uA
+    # < 20 uA, so VOH >= 4.4 V; the node: (4.4 - 1 uA * 181.8 k) * 81.18/262.98 = 1.30213 V
+    i_corner = (4.5 + leak * rb) / (rt + rb)
+    assert i_corner < 20e-6
+    corner = (4.5 - 0.1 - leak * rt) * rb / (rt + rb)
+    # past 20 uA (supply above 20 uA * 262.98 k - 1 uA * 81.18 k = 5.178 V) only VDD - 0.66 V
+    # is guaranteed: (5.178 - 0.66 - 0.1818) * 0.30869 = 1.3387 V, higher than the corner
+    vdd_b = 20e-6 * (rt + rb) - leak * rb
+    past = (vdd_b - 0.66 - leak * rt) * rb / (rt + rb)
+    assert past > corner
+    assert corner - vih == pytest.approx(0.03463, abs=5e-5)  # +34.6 mV
+    c = D.evaluate_divider(180e3, 82e3, CMOS5, LVCMOS18, 0.01, 10e-12)
+    assert_allclose(c.v_high_min, min(corner, past), rtol=1e-12)
+    assert_allclose(c.margin_high, corner - vih, rtol=1e-9)
+    assert c.feasible
+    # the old figure, -139 mV, applied the 4 mA guarantee (VDD - 0.66 V at 4.5 V = 3.84 V)
+    # to the low corner because the largest current of any corner (5.5 V, both at -1 %:
+    # 21.2 uA) passes 20 uA: (3.84 * 0.30869 - 1 uA * 56.9 k) - 1.2675 = -0.139 V
+    old = 3.84 * rb / (rt + rb) - leak * (rt * 82.82e3 / (rt + 82.82e3)) - vih
+    assert old == pytest.approx(-0.139, abs=1e-3)
+    # 220 k / 100 k stays below 20 uA everywhere (5.5 V into 217.8 k + 99 k: 17.7 uA), so its
+    # corner rules: (4.4 - 0.2222) * 99/321.2 - 1.2675 = +20.2 mV, below 180 k / 82 k
+    rt2, rb2 = 220e3 * 1.01, 100e3 * 0.99
+    m2 = (4.4 - leak * rt2) * rb2 / (rt2 + rb2) - vih
+    c2 = D.evaluate_divider(220e3, 100e3, CMOS5, LVCMOS18, 0.01, 10e-12)
+    assert_allclose(c2.margin_high, m2, rtol=1e-9)
+    assert m2 == pytest.approx(0.0202, abs=1e-4)
+    # the search shares the model: 180 k / 82 k now ranks first, 220 k / 100 k after it
+    found = D.search_dividers(CMOS5, LVCMOS18, "E12", 0.01, 10e-12)
+    ranked = [(b.top, b.bottom) for b in found.best]
+    assert ranked[0] == (180e3, 82e3)
+    assert ranked.index((220e3, 100e3)) > 0
+
+
+def _brute_lowest_high(s, top, bottom, tol, leak, n=41):
+    """Least node voltage on a grid over supply x top x bottom, each point with the
+    guarantee at its own current (Family.voh_min), straight from the circuit."""
+    vdd = np.linspace(s.vdd_min, s.vdd_max, n)[:, None, None]
+    rt = top * np.linspace(1 - tol, 1 + tol, n)[None, :, None]
+    rb = bottom * np.linspace(1 - tol, 1 + tol, n)[None, None, :]
+    i = (vdd + leak * rb) / (rt + rb)
+    v = (s.voh_min(i, vdd) - leak * rt) * rb / (rt + rb)
+    return np.nanmin(v), np.isnan(v).any()
+
+
+def test_lowest_high_level_between_corners():
+    # cmos5 -> lvcmos18, 150 k / 82 k at 5 %: the current passes 20 uA inside the supply
+    # range, and just past it only VDD - 0.66 V is guaranteed, so the least level lies between
+    # the corners (about 51 mV below the least corner); a fine grid over the box agrees
+    c = D.evaluate_divider(150e3, 82e3, CMOS5, LVCMOS18, 0.05, 10e-12)
+    corners = []
+    for ft, fb, vdd in itertools.product((0.95, 1.05), (0.95, 1.05), (4.5, 5.5)):
+        rt, rb = 150e3 * ft, 82e3 * fb
+        i = (vdd + 1e-6 * rb) / (rt + rb)
+        corners.append((CMOS5.voh_min(i, vdd) - 1e-6 * rt) * rb / (rt + rb))
+    assert c.v_high_min < min(corners) - 0.04
+    fine, _ = _brute_lowest_high(CMOS5, 150e3, 82e3, 0.05, 1e-6, n=201)
+    assert c.v_high_min <= fine <= c.v_high_min + 1e-3
+
+
+@settings(max_examples=150, deadline=None)
+@given(st.sampled_from(sorted(F.FAMILIES)), st.floats(1e3, 1e6), st.floats(1e3, 1e6),
+       st.sampled_from([0.001, 0.01, 0.05, 0.1]), st.sampled_from([0.0, 1e-6, 40e-6]))
+def test_lowest_high_level_is_the_exact_minimum_over_the_box(src, top, bottom, tol, leak):
+    s = F.family(src)
+    # the model's own condition: the output level exceeds the leakage drop across the top
+    # resistor (otherwise the node is negative and no pair works anyway)
+    assume(min(g.level.at(s.vdd_min) for g in s.voh) > leak * top * (1 + tol))
+    c = D.evaluate_divider(top, bottom, s, DST, tol, 10e-12, leakage=leak)
+    brute, unguaranteed = _brute_lowest_high(s, top, bottom, tol, leak)
+    if c.overloaded:
+        assert np.isnan(c.v_high_min)
+        return
+    assert not unguaranteed
+    # never above any grid point, and no lower than the grid's least value by more than the
+    # grid's spacing can hide (the minimum may sit between grid points)
+    assert c.v_high_min <= brute + 1e-12
+    step = max(abs(brute), 1.0) * (2 * tol / 40) * 4 + (s.vdd_max - s.vdd_min) / 40
+    assert c.v_high_min >= brute - step
 
 
 def test_vectorised_equals_scalar():
