@@ -267,10 +267,10 @@ def test_lowest_high_level_is_the_exact_minimum_over_the_box(src, top, bottom, t
     # resistor (otherwise the node is negative and no pair works anyway)
     assume(min(g.level.at(s.vdd_min) for g in s.voh) > leak * top * (1 + tol))
     c = D.evaluate_divider(top, bottom, s, DST, tol, 10e-12, leakage=leak)
-    brute, unguaranteed = _brute_lowest_high(s, top, bottom, tol, leak)
     if c.overloaded:
         assert np.isnan(c.v_high_min)
         return
+    brute, unguaranteed = _brute_lowest_high(s, top, bottom, tol, leak)
     assert not unguaranteed
     # never above any grid point, and no lower than the grid's least value by more than the
     # grid's spacing can hide (the minimum may sit between grid points)
