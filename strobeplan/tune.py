@@ -6,7 +6,7 @@ A vectorised search over the design space of one rig:
   (the current's rise plus fall time, at least two ticks) up to (not including) one wave
   period;
 * the series resistor, every value of an IEC 60063 E-series in a range
-  (:func:`strobeplan.physics.eseries.series_values`);
+  (:func:`strobeplan.physics.logic.series_values`);
 * ``every`` (flash on every N-th wave cycle), 1..N;
 * optionally the supply (boost) voltage, on a linear grid within a range.
 
@@ -51,7 +51,7 @@ from typing import Any
 import numpy as np
 
 from .errors import RigError
-from .physics import eseries as eseries_model
+from .physics import eseries as logic_model  # IEC 60063 series_values
 from .physics import exposure as exposure_model
 from .physics import led as led_model
 from .physics import schlieren as schlieren_model
@@ -557,7 +557,7 @@ def default_grid(rig, plan, *, widths: int = 160, series: str = "E24",
     ticks = np.unique(np.round(np.geomspace(lo, period, widths) * clock).astype(np.int64))
     ticks = ticks[(ticks >= math.ceil(lo * clock - 1e-9)) & (ticks < period * clock - 1e-9)]
     w = ticks / clock
-    r = eseries_model.series_values(series, *resistor_range)
+    r = logic_model.series_values(series, *resistor_range)
     if r.size == 0:
         raise RigError("", None, f"no {series} value between {resistor_range[0]:g} and "
                                  f"{resistor_range[1]:g} ohm")
