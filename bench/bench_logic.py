@@ -16,19 +16,19 @@ import subprocess
 import sys
 import time
 
-from strobeplan.physics import logic
+from strobeplan.physics import divider, logic_families
 
 SEARCH_TARGET_S = 0.2
 CLI_TARGET_S = 1.0
 
 
 def bench_search(repeats: int = 7) -> float:
-    src, dst = logic.family("lvcmos33"), logic.family("lvcmos18")
+    src, dst = logic_families.family("lvcmos33"), logic_families.family("lvcmos18")
     times = []
     for edge_limit in (float("inf"), 1e-9):  # feasible case, and the infeasible explanation
         for _ in range(repeats):
             t0 = time.perf_counter()
-            result = logic.search_dividers(src, dst, "E192", 0.005, 10e-12,
+            result = divider.search_dividers(src, dst, "E192", 0.005, 10e-12,
                                            edge_limit=edge_limit)
             times.append(time.perf_counter() - t0)
         print(f"  E192 search (edge limit {edge_limit:g} s): {result.pairs_evaluated} pairs, "

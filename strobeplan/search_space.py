@@ -176,7 +176,7 @@ def default_grid(rig, plan, *, widths: int = 160, series: str = "E24",
                  supply_range: tuple[float, float] | None = None,
                  supply_steps: int = 13) -> Grid:
     """The search grid of a rig (see the module docstring); ``plan`` is ``solve(rig)``."""
-    from .physics.logic import series_values
+    from .physics.eseries import series_values
 
     require(rig)
     clock = rig.controller.clock

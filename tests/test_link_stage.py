@@ -61,7 +61,7 @@ def test_levitator_proposes_a_pair_and_json_has_contract_keys():
     assert LINK_KEYS <= set(link)
     assert link["mode"] == "proposed" and link["top_ohm"] > 0 and link["bottom_ohm"] > 0
     # the proposal is an E24 value pair (IEC 60063)
-    from strobeplan.physics.logic import series_values
+    from strobeplan.physics.eseries import series_values
     e24 = set(series_values("E24"))
     assert link["top_ohm"] in e24 and link["bottom_ohm"] in e24
 

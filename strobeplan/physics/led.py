@@ -417,10 +417,18 @@ def pulse_operating_point(supply_voltage, capacitance, esr, series_resistor, on_
             supply_voltage, capacitance, esr, series_resistor, on_resistance,
             recharge_current, width, n_vt, saturation_current, led_series_resistance)])
     r_tot = rs + esr_ + rser + ron
+    # The start currents do not depend on the width: solve them once per circuit, not once
+    # per width when an array of widths is broadcast against the circuits.
+    circuit = np.broadcast_arrays(*[np.asarray(x, dtype=float) for x in (
+        supply_voltage, esr, series_resistor, on_resistance, recharge_current, n_vt,
+        saturation_current, led_series_resistance)])
+    vs_c, esr_c, rser_c, ron_c, ib_c, a_c, is_c, rs_c = circuit
     # Start current if the capacitor supplies the difference I - Ib through its ESR.
-    i0_cap = current_at_voltage(vs + esr_ * ib, a, i_s, r_tot)
+    i0_cap = np.broadcast_to(current_at_voltage(vs_c + esr_c * ib_c, a_c, is_c,
+                                                rs_c + esr_c + rser_c + ron_c), vs.shape)
     # Start current if the boost carries the whole string (no capacitor current, no ESR drop).
-    i_hold = current_at_voltage(vs, a, i_s, rs + rser + ron)
+    i_hold = np.broadcast_to(current_at_voltage(vs_c, a_c, is_c, rs_c + rser_c + ron_c),
+                             vs.shape)
     droops = np.asarray(i0_cap > ib)
     i0 = np.where(droops, i0_cap, i_hold)
 

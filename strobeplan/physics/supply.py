@@ -1,9 +1,11 @@
-"""Boost converter and storage-capacitor budget, and the stuck-on gate steady state.
+"""Boost converter and storage-capacitor budget, and the stuck-on gate (dump and steady state).
 
 This module extends the layout of design section 2 (which lists led, thermal and
 switching for the power stage) with the supply side: what the boost must deliver on
 average, how fast it refills the storage capacitor, how the capacitor sags across a
-burst of flashes, and what flows when the gate is stuck on.
+burst of flashes, and what flows when the gate is stuck on: first the charged capacitor
+dumping into the LED (:func:`stuck_on_transient`), then the boost's steady state
+(:func:`stuck_on_state`).
 
 Model of the boost: an ideal source that holds its set voltage until the load asks for
 more than its current limit, then delivers exactly the current limit (constant-current
@@ -15,15 +17,19 @@ References
    (2020), ch. 2 (steady-state converter analysis: charge and energy balance).
    doi:10.1007/978-3-030-43881-4
 2. Capacitor charge balance ``C dV = I dt`` and stored energy ``C V^2 / 2``.
+3. Infineon AN2008-03, "Thermal equivalent circuit models" (2008): Foster network driven
+   by a time-varying heat.
 """
 
 from __future__ import annotations
 
+import math
 from typing import NamedTuple
 
 import numpy as np
 
 from strobeplan.physics.led import current_at_voltage, forward_voltage, pulse_operating_point
+from strobeplan.physics.thermal import foster_advance
 
 
 def _f(x):
@@ -348,3 +354,227 @@ def stuck_on_state(supply_voltage, current_limit, series_resistor, on_resistance
     v_led = forward_voltage(i, n_vt, saturation_current, led_series_resistance)
     return StuckOn(i, v_led, i * v_led, i**2 * series_resistor, i**2 * _f(on_resistance),
                    np.asarray(limit < i_string))
+
+
+class StuckOnTransient(NamedTuple):
+    """Gate stuck on from a charged capacitor (:func:`stuck_on_transient`).
+
+    time_to_limit [s] (inf if the junction never reaches its limit), peak_temperature [K]
+    and peak_time [s] of the junction, start_current [A] (capacitor full) and
+    steady_current [A] (capacitor emptied, :func:`stuck_on_state`), resistor_peak_power
+    [W] (at the start), resistor_pulse_energy [J] (the capacitor dump's energy in the
+    series resistor above the steady dissipation).
+    """
+
+    time_to_limit: np.ndarray
+    peak_temperature: np.ndarray
+    peak_time: np.ndarray
+    start_current: np.ndarray
+    steady_current: np.ndarray
+    resistor_peak_power: np.ndarray
+    resistor_pulse_energy: np.ndarray
+
+
+DISCHARGE_END = 40.0  # [1] time constants after which a decaying term is taken as settled
+TAIL_FACTOR = 1e6  # [1] diode-tail horizon (no boost) in initial discharge time constants
+
+
+def stuck_on_transient(supply_voltage, capacitance, esr, series_resistor, on_resistance,
+                       current_limit, n_vt, saturation_current, led_series_resistance,
+                       efficiency, resistances, time_constants, ambient, start_temperature,
+                       junction_max, points_per_decade=64):
+    """Gate stuck on with the storage capacitor charged: the dump, then the boost limit.
+
+    Circuit (the one :func:`strobeplan.physics.led.pulse_operating_point` solves): the
+    storage capacitor, charged to ``supply_voltage``, discharges through its ESR, the series
+    resistor, the LED and the switch's on-resistance while the boost feeds its current
+    limit; the current falls from ``start_current`` to the boost limit (or, when the boost
+    alone carries the string, stays at the string current). The LED energy delivered up to
+    any time ``t`` is that function's exact ``led_energy`` for a gate time ``t``, so the
+    discharge is not time-stepped and not written twice.
+
+    Junction: the Foster network starts at ``start_temperature`` (each term at its share
+    ``R_i/Rth`` of the rise, the steady state of a constant heat) and is driven by the heat
+    ``(1 - efficiency) x LED power``. Time grid: ``t_0 = 0`` and ``t_k`` log-spaced with
+    ``points_per_decade`` points per decade from ``1e-3 min(tau_min, C R)`` (``C R`` the
+    initial discharge time constant) to ``40 tau_max``; on each interval the heat is held at
+    its exact interval mean (LED energy difference over the interval), and the Foster terms
+    are advanced exactly for that constant heat (:func:`strobeplan.physics.thermal.
+    foster_advance`). The only error is the heat's variation inside an interval: a term
+    much faster than the interval sees the interval's mean heat instead of the current one,
+    so the error is first order in the interval and, on a falling heat, over-estimates the
+    temperature (conservative). At the default 64 points per decade (each interval 3.7 % of
+    its time) the levitator example with 10 mF peaks 0.13 K above an adaptive ODE solution
+    of the same circuit and network (0.29 K at 32, 0.05 K at 128 points per decade) and
+    reaches the limit within 0.01 % of its time; random circuits stay within 0.2 K + 0.2 %
+    of the rise (tests/physics/test_stuck_on_transient.py). The peak and the first crossing
+    are taken at the grid points, and the crossing is refined inside its interval by bisection
+    on the exact in-interval response. After ``40 tau_max`` every term has followed the
+    (non-increasing) heat, so the junction only cools towards its steady state: a limit
+    not reached by then is never reached.
+
+    Resistor pulse energy: ``R (integral of I^2 - I_ss^2 dt)`` over the dump, from the
+    exact ``integral I^2 dt`` at a time when the capacitor has settled (40 of its slowest
+    time constants ``C (R_tot + n_vt/I_b)``, at most ``1e6`` initial ones, which bounds the
+    diode's hyperbolic tail when there is no boost); 0 when the boost carries the string.
+
+    Every argument broadcasts over candidates (e.g. grids of supply voltage and series
+    resistor); the Foster terms lie along the trailing axis of ``resistances`` and
+    ``time_constants`` (one network, or one per candidate).
+
+    Parameters
+    ----------
+    supply_voltage : float or ndarray
+        Boost set voltage, the capacitor's voltage when the gate sticks. [V]
+    capacitance : float or ndarray
+        Storage capacitance. [F]
+    esr : float or ndarray
+        Capacitor ESR. [ohm]
+    series_resistor : float or ndarray
+        Series resistor. [ohm]
+    on_resistance : float or ndarray
+        Switch on-resistance. [ohm]
+    current_limit : float or ndarray
+        Boost current limit. [A]
+    n_vt : float or ndarray
+        LED ideality times thermal voltage. [V]
+    saturation_current : float or ndarray
+        LED saturation current. [A]
+    led_series_resistance : float or ndarray
+        LED series resistance. [ohm]
+    efficiency : float or ndarray
+        LED wall-plug efficiency (fraction of the electrical power leaving as light). [1]
+    resistances, time_constants : array_like
+        Foster network, terms along the last axis. [K/W], [s]
+    ambient : float or ndarray
+        Ambient temperature. [K]
+    start_temperature : float or ndarray
+        Junction temperature when the gate sticks (e.g. the mean of normal operation). [K]
+    junction_max : float or ndarray
+        Junction temperature limit. [K]
+    points_per_decade : int
+        Density of the log-spaced time grid.
+
+    Returns
+    -------
+    StuckOnTransient
+        Time to the junction limit [s] (0 if already at it, inf if never), peak junction
+        temperature [K] and its time [s], start and steady current [A], resistor peak power
+        [W] and pulse energy [J].
+
+    References
+    ----------
+    1. Erickson & Maksimovic (2020): current-limited source into a resistive-diode load.
+    2. Infineon AN2008-03: Foster network, superposition of power steps.
+    """
+    # The circuit (everything but the temperatures) sets the heat; the starting temperature
+    # only adds the free decay of the network's initial state (the network is linear). So
+    # the heat and the zero-state response are computed over the circuit's shape, and the
+    # start enters per candidate as rise0 x sum_i (R_i/Rth) exp(-t/tau_i).
+    vs, c, esr_, rser, ron, ib, a, i_s, rs, eff = np.broadcast_arrays(
+        *[np.asarray(x, dtype=float) for x in (
+            supply_voltage, capacitance, esr, series_resistor, on_resistance, current_limit,
+            n_vt, saturation_current, led_series_resistance, efficiency)])
+    r = np.asarray(resistances, dtype=float)
+    tau = np.asarray(time_constants, dtype=float)
+    cshape = np.broadcast_shapes(vs.shape, r.shape[:-1], tau.shape[:-1])
+    vs, c, esr_, rser, ron, ib, a, i_s, rs, eff = (
+        np.broadcast_to(x, cshape) for x in (vs, c, esr_, rser, ron, ib, a, i_s, rs, eff))
+    r, tau = (np.broadcast_to(x, cshape + x.shape[-1:]) for x in np.broadcast_arrays(r, tau))
+    t_amb, t_start, t_max = (np.asarray(x, dtype=float) for x in (ambient, start_temperature,
+                                                                   junction_max))
+    shape = np.broadcast_shapes(cshape, t_amb.shape, t_start.shape, t_max.shape)
+
+    def discharge(t):
+        return pulse_operating_point(vs, c, esr_, rser, ron, ib, t, a, i_s, rs)
+
+    steady = stuck_on_state(vs, ib, rser, ron, a, i_s, rs)
+    i_ss = np.asarray(steady.current, dtype=float)
+    i0 = np.asarray(discharge(1.0).peak_current, dtype=float)
+    r_tot = rs + esr_ + rser + ron
+    t_rc = c * (r_tot + a / (i0 + i_s))  # shortest local discharge time constant
+    with np.errstate(divide="ignore"):
+        t_slow = c * (r_tot + a / (ib + i_s))  # longest, near the boost limit
+    droops = i0 > ib
+    # Resistor: the dump's energy above the steady dissipation.
+    t_end = np.minimum(DISCHARGE_END * t_slow, TAIL_FACTOR * t_rc)
+    i2t = np.asarray(discharge(t_end).i2t, dtype=float)
+    pulse_energy = np.where(droops, rser * np.maximum(i2t - i_ss**2 * t_end, 0.0), 0.0)
+    # Junction: exact Foster steps under the interval-mean heat on a log-spaced grid.
+    rth = np.sum(r, axis=-1)
+    share = r / rth[..., None]
+    t_lo = 1e-3 * np.minimum(np.min(tau, axis=-1), t_rc)
+    t_hi = DISCHARGE_END * np.max(tau, axis=-1)
+    decades = np.log10(t_hi / t_lo)
+    n_steps = max(int(np.ceil(points_per_decade * np.max(decades, initial=1.0))), 1)
+    step = decades / n_steps  # per candidate, at most 1/points_per_decade decades
+    grid = t_lo[..., None] * 10.0 ** (step[..., None] * np.arange(n_steps + 1))
+    # LED energy up to each grid time, the grid axis in chunks of about 2**20 elements.
+    energy = np.empty(grid.shape)
+    per = max(1, (1 << 20) // max(1, math.prod(cshape)))
+    cols = [x[..., None] for x in (vs, c, esr_, rser, ron, ib, a, i_s, rs)]
+    for j in range(0, n_steps + 1, per):
+        energy[..., j:j + per] = pulse_operating_point(
+            *cols[:6], grid[..., j:j + per], *cols[6:]).led_energy
+    dt = np.diff(grid, axis=-1, prepend=0.0)
+    heat = (1.0 - eff)[..., None] * np.diff(energy, axis=-1, prepend=0.0) / dt
+    # Zero-state response of each term after each step (circuit shape, steps, terms).
+    zero = np.empty(grid.shape + r.shape[-1:])
+    state = np.zeros(r.shape)
+    for k in range(n_steps + 1):
+        state = foster_advance(state, heat[..., k], dt[..., k], r, tau)
+        zero[..., k, :] = state
+    free = np.exp(-grid[..., None] / tau[..., None, :])  # free decay of a unit initial state
+    rise0 = np.broadcast_to(t_start - t_amb, shape)
+    allowed = np.broadcast_to(t_max - t_amb, shape)
+    rise_zero = np.sum(zero, axis=-1)  # (circuit, steps)
+    decay = np.sum(share[..., None, :] * free, axis=-1)  # (circuit, steps)
+    peak, peak_t = rise0.copy(), np.zeros(shape)
+    crossed = rise0 >= allowed
+    b_k = np.full(shape, -1)
+    block = max(1, (1 << 22) // max(1, math.prod(shape)))
+    for j in range(0, n_steps + 1, block):
+        rise = rise0[..., None] * decay[..., j:j + block] + rise_zero[..., j:j + block]
+        above = rise >= allowed[..., None]
+        first = ~crossed & above.any(axis=-1)
+        b_k = np.where(first, j + np.argmax(above, axis=-1), b_k)
+        crossed = crossed | first
+        kk = np.argmax(rise, axis=-1)
+        top = np.take_along_axis(rise, kk[..., None], axis=-1)[..., 0]
+        higher = top > peak
+        t_top = np.take_along_axis(np.broadcast_to(grid[..., j:j + block], rise.shape),
+                                   kk[..., None], axis=-1)[..., 0]
+        peak, peak_t = np.where(higher, top, peak), np.where(higher, t_top, peak_t)
+    # First crossing inside its interval: bisection on the exact in-interval response from
+    # the state at the interval's start.
+    k = np.maximum(b_k, 0)
+    b_p = np.take_along_axis(np.broadcast_to(heat, shape + heat.shape[-1:]), k[..., None],
+                             axis=-1)[..., 0]
+    b_dt = np.take_along_axis(np.broadcast_to(dt, shape + dt.shape[-1:]), k[..., None],
+                              axis=-1)[..., 0]
+    b_t = np.take_along_axis(np.broadcast_to(grid, shape + grid.shape[-1:]), k[..., None],
+                             axis=-1)[..., 0] - b_dt
+    prev = np.maximum(k - 1, 0)[..., None, None]
+    zero_b = np.broadcast_to(zero, shape + zero.shape[-2:])
+    free_b = np.broadcast_to(free, shape + free.shape[-2:])
+    start_state = np.where((k > 0)[..., None],
+                           np.take_along_axis(zero_b, prev, axis=-2)[..., 0, :]
+                           + rise0[..., None] * np.broadcast_to(share, shape + share.shape[-1:])
+                           * np.take_along_axis(free_b, prev, axis=-2)[..., 0, :],
+                           rise0[..., None] * np.broadcast_to(share, shape + share.shape[-1:]))
+    r_b = np.broadcast_to(r, shape + r.shape[-1:])
+    tau_b = np.broadcast_to(tau, shape + tau.shape[-1:])
+    lo, hi = np.zeros(shape), b_dt.copy()
+    for _ in range(60):
+        mid = 0.5 * (lo + hi)
+        above = np.sum(foster_advance(start_state, b_p, mid, r_b, tau_b), axis=-1) >= allowed
+        hi, lo = np.where(above, mid, hi), np.where(above, lo, mid)
+    t_cross = np.where(rise0 >= allowed, 0.0, np.where(crossed, b_t + hi, np.inf))
+    t_amb = np.broadcast_to(t_amb, shape)
+    i0, i_ss, rser, pulse_energy = (np.broadcast_to(x, shape) for x in (i0, i_ss, rser,
+                                                                          pulse_energy))
+    out = StuckOnTransient(t_cross, t_amb + peak, peak_t, i0, i_ss, rser * i0**2,
+                           pulse_energy)
+    if np.ndim(out.time_to_limit) == 0:
+        return StuckOnTransient(*(float(x) for x in out))
+    return out

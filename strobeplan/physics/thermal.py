@@ -334,3 +334,37 @@ def burst_trace(time, power, width, starts, frame_period, resistances, time_cons
     centroid = float(starts.mean() + width / 2)
     age_old = t + m * frame_period - centroid - frame_period / 2
     return rise + mean_power * (r.sum() - zth(age_old, r, tau))
+
+
+def foster_advance(state, power, dt, resistances, time_constants):
+    """Foster term rises after holding a constant heat for a time (exact).
+
+    Each term obeys ``tau_i dT_i/dt = P R_i - T_i``; over an interval of constant ``P``
+    it relaxes exactly, ``T_i(t + dt) = P R_i + (T_i(t) - P R_i) exp(-dt/tau_i)``. Chained
+    over the intervals of a piecewise-constant heat this integrates the network with no
+    step-size error of its own (the only error is the piecewise-constant heat).
+
+    Parameters
+    ----------
+    state : ndarray
+        Rise of each Foster term at the start, terms along the last axis. [K]
+    power : float or ndarray
+        Heat held over the interval. [W]
+    dt : float or ndarray
+        Interval length (>= 0; inf gives the steady state). [s]
+    resistances, time_constants : array_like
+        Foster network, terms along the last axis. [K/W], [s]
+
+    Returns
+    -------
+    ndarray
+        Rise of each term at the end of the interval (sum along the last axis for the
+        junction). [K]
+
+    References
+    ----------
+    1. Infineon AN2008-03, Foster network: each RC term is a first-order lag.
+    """
+    r, tau = _terms(resistances, time_constants)
+    target = _front(power) * r
+    return target + (np.asarray(state, dtype=float) - target) * np.exp(-_front(dt) / tau)

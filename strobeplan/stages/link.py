@@ -2,7 +2,7 @@
 
 ``trigger_link``: between ``controller.output`` and ``camera.trigger_input``. With
 ``[trigger_link] top/bottom`` the given pair is checked; without, a pair is proposed by the
-worst-case E-series search (physics/logic.py). The edge limit is 1 % of the shorter of the
+worst-case E-series search (physics/divider.py). The edge limit is 1 % of the shorter of the
 flash pulse width and the camera's trigger latency (common practice: a trigger edge that is a
 small fraction of the timing it serves adds no visible jitter); the proposal first looks for
 pairs within it, and falls back to the best pair without it (the edge finding then says so).
@@ -19,7 +19,8 @@ from types import SimpleNamespace
 import numpy as np
 
 from ..errors import RigError
-from ..physics import logic
+from ..physics import divider, eseries
+from ..physics import logic_families as families
 from ..plan import Plan, Section, q, scalar
 from ..units import render
 
@@ -93,16 +94,16 @@ class GateLinkSection(Section):
     margin_low_v: float = q("voltage")
 
 
-def resolve_family(name: str, path: str, custom=None) -> logic.Family:
+def resolve_family(name: str, path: str, custom=None) -> families.Family:
     """A family by name: custom ones from ``[trigger_link.families]`` first, then the table."""
     if custom and name in custom:
         c = custom[name]
-        return logic.Family.custom(name, c.vdd, c.vih, c.vil, c.voh, c.vol, c.output_current,
+        return families.Family.custom(name, c.vdd, c.vih, c.vil, c.voh, c.vol, c.output_current,
                                    c.vdd_min, c.vdd_max, c.input_leakage)
     try:
-        return logic.family(name)
+        return families.family(name)
     except KeyError:
-        known = ", ".join(list(logic.FAMILIES) + sorted(custom or {}))
+        known = ", ".join(list(families.FAMILIES) + sorted(custom or {}))
         raise RigError(path, name, f"unknown logic family (known: {known}; or define it "
                                    "in [trigger_link.families])") from None
 
@@ -120,14 +121,14 @@ def edge_limit_for(pulse_width, trigger_latency: float | None):
     return scalar(EDGE_FRACTION * np.maximum(width, trigger_latency or 0.0))
 
 
-def link_section(source: logic.Family, destination: logic.Family, *, series: str = "E24",
+def link_section(source: families.Family, destination: families.Family, *, series: str = "E24",
                  tolerance: float | None = None, capacitance: float = 10e-12,
                  tolerant: bool = False, top: float | None = None,
                  bottom: float | None = None, edge_limit: float | None = None,
                  source_resistance: float | None = None, count: int = 5
                  ) -> TriggerLinkSection:
     """Check the given pair, or propose one, and return the ``trigger_link`` section."""
-    tol = logic.series_tolerance(series) if tolerance is None else tolerance
+    tol = eseries.series_tolerance(series) if tolerance is None else tolerance
     limit = float("inf") if edge_limit is None else edge_limit
     kw = dict(tolerant=tolerant, source_resistance=source_resistance or 0.0)
     n_eval = n_feas = None
@@ -135,28 +136,28 @@ def link_section(source: logic.Family, destination: logic.Family, *, series: str
     reason = recommendation = None
     if top is not None and bottom is not None:
         mode = "checked"
-        chk = logic.evaluate_divider(top, bottom, source, destination, tol, capacitance,
+        chk = divider.evaluate_divider(top, bottom, source, destination, tol, capacitance,
                                      edge_limit=limit, **kw)
         if not chk.feasible:
-            found = logic.search_dividers(source, destination, series, tol, capacitance,
+            found = divider.search_dividers(source, destination, series, tol, capacitance,
                                           edge_limit=limit, count=count, **kw)
             if not found.best:  # nothing meets the edge limit: the best without it
-                found = logic.search_dividers(source, destination, series, tol, capacitance,
+                found = divider.search_dividers(source, destination, series, tol, capacitance,
                                               count=count, **kw)
             n_eval, n_feas = found.pairs_evaluated, found.pairs_feasible
             alternatives = [_alt(b) for b in found.best]
             reason, recommendation = found.reason, found.recommendation
     else:
-        found = logic.search_dividers(source, destination, series, tol, capacitance,
+        found = divider.search_dividers(source, destination, series, tol, capacitance,
                                       edge_limit=limit, count=count, **kw)
         if not found.best and edge_limit is not None:
-            found = logic.search_dividers(source, destination, series, tol, capacitance,
+            found = divider.search_dividers(source, destination, series, tol, capacitance,
                                           count=count, **kw)
         n_eval, n_feas = found.pairs_evaluated, found.pairs_feasible
         reason, recommendation = found.reason, found.recommendation
         if found.best:
             mode = "proposed"
-            chk = logic.evaluate_divider(found.best[0].top, found.best[0].bottom, source,
+            chk = divider.evaluate_divider(found.best[0].top, found.best[0].bottom, source,
                                          destination, tol, capacitance, edge_limit=limit, **kw)
             alternatives = [_alt(b) for b in found.best[1:]]
         else:
@@ -183,7 +184,7 @@ def link_section(source: logic.Family, destination: logic.Family, *, series: str
     )
 
 
-def _alt(c: logic.DividerCheck) -> LinkAlternative:
+def _alt(c: divider.DividerCheck) -> LinkAlternative:
     return LinkAlternative(c.top, c.bottom, c.margin, c.current, c.edge_time)
 
 
@@ -216,7 +217,7 @@ def compute(rig, design, plan) -> dict:
     if gd is not None:
         src = resolve_family(ctrl.output, "controller.output", custom)
         dst = resolve_family(gd.input, "gate_driver.input", custom)
-        d = logic.direct_link(src, dst, tolerant=True, tolerant_max=gd.supply + 0.3)
+        d = families.direct_link(src, dst, tolerant=True, tolerant_max=gd.supply + 0.3)
         out["gate_link"] = GateLinkSection(
             source_family=src.name, destination_family=dst.name, v_high_min_v=d.v_high_min,
             v_high_max_v=d.v_high_max, v_low_max_v=d.v_low_max, vih_v=d.vih, vil_v=d.vil,

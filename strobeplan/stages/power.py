@@ -15,11 +15,13 @@ Models (strobeplan.physics.led / thermal / switching / supply):
   Foster network from ``led.ambient``.
 * Pulse rating: ``led.pulse_ratings`` interpolated log-log (conservative between duties);
   the duty is the in-burst duty (the pulses' own spacing), the stricter of the two.
-* Stuck-on: after the capacitor has emptied, the boost holds the lower of its current limit
-  and what its voltage drives through the string. The time to junction_max is the Foster
-  step response from the mean junction temperature of normal operation (0 when that is
-  already above the limit). The capacitor's initial dump is not added: it lasts about
-  C x R_string and its energy is reported as ``capacitor_energy_j``.
+* Stuck-on: the fault starts with the storage capacitor charged. It dumps into the LED (the
+  exact discharge of the flash operating point, with the boost feeding its limit), then the
+  boost holds the lower of its current limit and what its voltage drives through the string.
+  The junction follows the Foster network driven by that heat from the mean junction
+  temperature of normal operation (:func:`strobeplan.physics.supply.stuck_on_transient`):
+  time to junction_max, the peak and when it happens; the series resistor's peak power and
+  the dump's energy in it.
 """
 
 from __future__ import annotations
@@ -113,14 +115,19 @@ class SupplySection(Section):
 
 @dataclass
 class StuckOnSection(Section):
-    """Design §4 ``stuck_on``: the gate held on indefinitely."""
+    """``stuck_on``: the gate held on indefinitely, from a charged storage capacitor."""
 
     time_to_limit_s: float | None = q("time")
+    peak_junction_k: float = q("temperature", json="peak_junction_c")
+    peak_time_s: float = q("time")
+    start_current_a: float = q("current")
     dc_current_a: float = q("current")
     limited_by: str = q()
     led_power_w: float = q("power")
     heat_w: float = q("power")
     resistor_power_w: float = q("power")
+    resistor_peak_power_w: float = q("power")
+    resistor_pulse_energy_j: float = q("energy")
     switch_power_w: float = q("power")
     start_k: float = q("temperature", json="start_c")
     capacitor_energy_j: float = q("energy")
@@ -191,6 +198,10 @@ def gate_edges(rig):
         source = "measured (gate_driver.rise_time/fall_time)"
     return d_on, d_off, rise, fall, source
 
+
+# Time grid of the stuck-on transient (points per decade; its error is stated in
+# physics.supply.stuck_on_transient: about 0.3 K high on the peak at 32).
+STUCK_ON_POINTS_PER_DECADE = 32
 
 # The two datasheet pulse limits disagree when they differ by more than this fraction.
 RATING_DISAGREEMENT = 0.20
@@ -327,20 +338,30 @@ def compute(rig, design, plan) -> dict:
         stored_energy_j=scalar(stored), flash_rate_average_hz=scalar(pat.rate),
     )
 
-    # Stuck-on gate
+    # Stuck-on gate: the charged capacitor dumps into the LED, then the boost holds the
+    # string at its current limit (or what its voltage drives), from the mean junction
+    # temperature of normal operation.
     st = supply_model.stuck_on_state(v_sup, sup.max_current, r_ser, ron, fit.n_vt,
                                      fit.saturation_current, fit.series_resistance)
     heat_dc = (1.0 - led.efficiency) * np.asarray(st.led_power)
     t_start = led.ambient + mean
-    t_lim = thermal_model.step_time_to_rise(heat_dc, led.junction_max - t_start, r, tau)
-    t_lim = np.asarray(t_lim, dtype=float)
+    dump = supply_model.stuck_on_transient(
+        v_sup, sup.storage_capacitance, sup.esr, r_ser, ron, sup.max_current, fit.n_vt,
+        fit.saturation_current, fit.series_resistance, led.efficiency, r, tau, led.ambient,
+        t_start, led.junction_max, points_per_decade=STUCK_ON_POINTS_PER_DECADE)
     out["stuck_on"] = StuckOnSection(
-        time_to_limit_s=_finite_or_none(t_lim),
+        time_to_limit_s=_finite_or_none(np.asarray(dump.time_to_limit, dtype=float)),
+        peak_junction_k=scalar(dump.peak_temperature),
+        peak_time_s=scalar(dump.peak_time),
+        start_current_a=scalar(dump.start_current),
         dc_current_a=scalar(st.current),
         limited_by=scalar(np.where(st.boost_limited, "boost current limit",
                                    "string resistance")),
         led_power_w=scalar(st.led_power), heat_w=scalar(heat_dc),
-        resistor_power_w=scalar(st.resistor_power), switch_power_w=scalar(st.switch_power),
+        resistor_power_w=scalar(st.resistor_power),
+        resistor_peak_power_w=scalar(dump.resistor_peak_power),
+        resistor_pulse_energy_j=scalar(dump.resistor_pulse_energy),
+        switch_power_w=scalar(st.switch_power),
         start_k=scalar(t_start), capacitor_energy_j=scalar(stored),
     )
     return out

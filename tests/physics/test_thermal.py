@@ -111,6 +111,23 @@ def test_step_response_against_solve_ivp():
     assert_allclose(th.step_rise(5.0, t, R, TAU), sol.sol(t).sum(axis=0), rtol=1e-6)
 
 
+def test_foster_advance_chained_against_solve_ivp():
+    # a staircase of heat (5 W, 1 W, 8 W, 0 W) from a warm start, chained interval by
+    # interval, against the network's ODE integrated by solve_ivp
+    steps = [(5.0, 30e-6), (1.0, 400e-6), (8.0, 2e-3), (0.0, 15e-3)]
+    state = np.array([0.3, 0.1, 0.0, 0.2])
+    y, t0 = state.copy(), 0.0
+    for power, dt in steps:
+        state = th.foster_advance(state, power, dt, R, TAU)
+        sol = solve_ivp(lambda _t, z, p=power: (p * R - z) / TAU, (t0, t0 + dt), y,
+                        method="Radau", rtol=1e-11, atol=1e-14)
+        y, t0 = sol.y[:, -1], t0 + dt
+        assert_allclose(state, y, rtol=1e-7, atol=1e-11)
+    # broadcasting: candidates in front of the Foster axis; dt = inf is the steady state
+    many = th.foster_advance(np.zeros((3, 4)), np.array([1.0, 2.0, 3.0]), np.inf, R, TAU)
+    assert_allclose(many.sum(axis=-1), np.array([1.0, 2.0, 3.0]) * R.sum(), rtol=1e-15)
+
+
 def test_step_time_to_rise_against_solve_ivp_event():
     power, target = 5.0, 3.0  # final rise 5 K; 3 K is reached
     ev = lambda _t, y: y.sum() - target  # noqa: E731

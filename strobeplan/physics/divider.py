@@ -1,18 +1,20 @@
-"""Trigger link: logic families, IEC 60063 resistor series, worst-case dividers, divider search.
+"""Resistive divider between two logic families: worst case and search over an E-series.
 
 A controller output (the *source* family) drives a camera or gate-driver input (the
 *destination* family) through a resistive divider: ``top`` from the output to the input node,
 ``bottom`` from the node to ground. Everything is SI: volts, amperes, ohms, farads, seconds;
 tolerances are fractions (1 % -> 0.01).
 
-The worst case is taken corner by corner (the divider ratio is monotone in each resistor, the
-levels are monotone in each supply), so the bounds below are exact for the model:
+The worst case is exact over the whole box of the source's supply range and both resistors'
+tolerances, each point with the source's guarantee at that point's own current:
 
-- lowest high level: source at its lowest supply, its guaranteed VOH *at the divider's
-  largest current* (nothing is guaranteed above the family's rated output current), top at
-  +tol, bottom at -tol, input leakage drawn out through the largest Thevenin resistance;
+- lowest high level: the least node voltage over the box, the output at its guaranteed VOH
+  for the current it delivers there (nothing is guaranteed above the family's rated output
+  current), input leakage drawn out through the top resistor (:func:`_lowest_high_level`);
+  with stepped guarantees this is either the corner (lowest supply, top at +tol, bottom at
+  -tol) or a point where the current just passes a test current;
 - highest high level: source at its highest supply with no output drop, top at -tol, bottom
-  at +tol, leakage pushed in;
+  at +tol, leakage pushed in (that corner's own Thevenin resistance);
 - the destination's VIH at its highest supply, its VIL and input maximum at its lowest.
 
 References
@@ -32,367 +34,17 @@ References
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 
 import numpy as np
 
+from strobeplan.physics.eseries import series_tolerance, series_values
+from strobeplan.physics.logic_families import TOLERANT_INPUT_MAX, Family
+
 LN9 = float(np.log(9.0))  # 10-90 % rise of a first-order step = ln 9 * tau [1]
-INPUT_MAX_ABOVE_VDD = 0.3  # [V] input maximum = VDD + 0.3 V (common practice, datasheets)
-TOLERANT_INPUT_MAX = 5.5  # [V] "5 V tolerant" inputs (common practice; the datasheet rules)
-DEFAULT_LEAKAGE = 1e-6  # [A] CMOS input leakage, +/- 1 uA (common practice, from memory)
 RANK_QUANTUM = 1e-3  # [V] margins are compared to 1 mV when ranking, then current decides
 
-# ---------------------------------------------------------------------------------------------
-# Logic families
-# ---------------------------------------------------------------------------------------------
 
-
-@dataclass(frozen=True)
-class Level:
-    """A threshold or guaranteed level: ``offset + fraction * VDD``. [V]"""
-
-    offset: float = 0.0  # [V]
-    fraction: float = 0.0  # [1] of the family's own supply
-
-    def at(self, vdd):
-        """The level at supply ``vdd`` [V] (float or ndarray). [V]"""
-        return self.offset + self.fraction * np.asarray(vdd, dtype=float)
-
-
-@dataclass(frozen=True)
-class OutputGuarantee:
-    """A guaranteed output level at a test current (VOH min or VOL max)."""
-
-    current: float  # [A] magnitude of the test current
-    level: Level  # [V]
-    source: str = ""
-
-
-@dataclass(frozen=True)
-class Family:
-    """A logic family: supply range, input thresholds, guaranteed output levels.
-
-    ``voh``/``vol`` list the guarantees in ascending test current; a load between two test
-    currents gets the guarantee of the heavier one, a load above the last (the *rated
-    current*) gets none.
-    """
-
-    name: str
-    vdd_nominal: float  # [V]
-    vdd_min: float  # [V]
-    vdd_max: float  # [V]
-    vih: Level  # VIH min [V]
-    vil: Level  # VIL max [V]
-    voh: tuple[OutputGuarantee, ...]  # VOH min at each current
-    vol: tuple[OutputGuarantee, ...]  # VOL max at each current
-    input_leakage_high: float = DEFAULT_LEAKAGE  # [A] |input current| while high
-    input_leakage_low: float = DEFAULT_LEAKAGE  # [A] |input current| while low
-    input_max_above_vdd: float = INPUT_MAX_ABOVE_VDD  # [V]
-    source: str = ""
-    notes: tuple[str, ...] = field(default_factory=tuple)
-
-    @property
-    def rated_current(self) -> float:
-        """Largest output current with a guaranteed high level. [A]"""
-        return max(g.current for g in self.voh)
-
-    @property
-    def vih_worst(self) -> float:
-        """VIH at the highest supply (the level an input may need). [V]"""
-        return float(self.vih.at(self.vdd_max))
-
-    @property
-    def vil_worst(self) -> float:
-        """VIL at the lowest supply (the level an input may already read as high). [V]"""
-        return float(self.vil.at(self.vdd_min))
-
-    def input_max(self, tolerant: bool = False, tolerant_max: float = TOLERANT_INPUT_MAX):
-        """Input maximum: VDD + 0.3 V at the lowest supply, or ``tolerant_max`` if tolerant. [V]"""
-        if tolerant:
-            return float(tolerant_max)
-        return float(self.vdd_min + self.input_max_above_vdd)
-
-    def voh_min(self, current, vdd=None):
-        """Guaranteed lowest high output level at a load current (NaN: not guaranteed).
-
-        Parameters
-        ----------
-        current : float or ndarray
-            Magnitude of the current drawn from the output. [A]
-        vdd : float or ndarray, optional
-            The family's supply; default its lowest. [V]
-
-        Returns
-        -------
-        float or ndarray
-            VOH min, NaN where the current exceeds the rated current. [V]
-
-        References
-        ----------
-        1. JESD8C.01, JESD8-5A.01, JESD8-7A, JESD8-12A.01 DC output tables.
-        """
-        return _guarantee(self.voh, current, self.vdd_min if vdd is None else vdd)
-
-    def vol_max(self, current, vdd=None):
-        """Guaranteed highest low output level at a sink current (NaN: not guaranteed).
-
-        Parameters
-        ----------
-        current : float or ndarray
-            Magnitude of the current sunk by the output. [A]
-        vdd : float or ndarray, optional
-            The family's supply; default its highest. [V]
-
-        Returns
-        -------
-        float or ndarray
-            VOL max, NaN where the current exceeds the largest test current. [V]
-
-        References
-        ----------
-        1. JESD8C.01, JESD8-5A.01, JESD8-7A, JESD8-12A.01 DC output tables.
-        """
-        return _guarantee(self.vol, current, self.vdd_max if vdd is None else vdd)
-
-    @classmethod
-    def custom(
-        cls,
-        name: str,
-        vdd: float,
-        vih: float,
-        vil: float,
-        voh: float,
-        vol: float,
-        output_current: float,
-        vdd_min: float | None = None,
-        vdd_max: float | None = None,
-        input_leakage: float = DEFAULT_LEAKAGE,
-    ) -> Family:
-        """A family from absolute thresholds (a part's datasheet).
-
-        Parameters
-        ----------
-        name : str
-            Label.
-        vdd : float
-            Nominal supply. [V]
-        vih, vil : float
-            Input thresholds VIH min and VIL max. [V]
-        voh, vol : float
-            Guaranteed VOH min and VOL max at ``output_current``. [V]
-        output_current : float
-            Test (rated) output current of ``voh`` and ``vol``. [A]
-        vdd_min, vdd_max : float, optional
-            Supply range; default +/- 10 % of ``vdd`` (common practice). [V]
-        input_leakage : float, optional
-            Input leakage magnitude, both levels. [A]
-        """
-        lo = 0.9 * vdd if vdd_min is None else vdd_min
-        hi = 1.1 * vdd if vdd_max is None else vdd_max
-        src = f"custom family {name!r} (the part's datasheet)"
-        return cls(
-            name=name, vdd_nominal=vdd, vdd_min=lo, vdd_max=hi,
-            vih=Level(vih), vil=Level(vil),
-            voh=(OutputGuarantee(output_current, Level(voh), src),),
-            vol=(OutputGuarantee(output_current, Level(vol), src),),
-            input_leakage_high=input_leakage, input_leakage_low=input_leakage, source=src,
-        )
-
-
-def _guarantee(points, current, vdd):
-    i = np.asarray(current, dtype=float)
-    v = np.asarray(vdd, dtype=float)
-    out = np.full(np.broadcast_shapes(i.shape, v.shape), np.nan)
-    # loop over the family's few guarantee points (not over elements): the lightest test
-    # current that still covers the load wins
-    for g in sorted(points, key=lambda g: g.current, reverse=True):
-        out = np.where(i <= g.current, g.level.at(v), out)
-    return out if out.ndim else float(out)
-
-
-def _vdd_minus(x):
-    return Level(offset=-x, fraction=1.0)
-
-
-_J8C = "JEDEC JESD8C.01 (3.3 V), table values as quoted in references.md [src2]"
-_MEM = "from memory, not confirmed in the standard's text"
-
-FAMILIES: dict[str, Family] = {
-    "lvttl33": Family(
-        name="lvttl33", vdd_nominal=3.3, vdd_min=3.0, vdd_max=3.6,
-        vih=Level(2.0), vil=Level(0.8),
-        voh=(OutputGuarantee(2e-3, Level(2.4), _J8C),),
-        vol=(OutputGuarantee(2e-3, Level(0.4), _J8C),),
-        source=_J8C + "; supply 3.0-3.6 V " + _MEM,
-    ),
-    "lvcmos33": Family(
-        name="lvcmos33", vdd_nominal=3.3, vdd_min=3.0, vdd_max=3.6,
-        vih=Level(2.0), vil=Level(0.8),
-        voh=(
-            OutputGuarantee(100e-6, _vdd_minus(0.2), _J8C),
-            OutputGuarantee(2e-3, Level(2.4), "JESD8C LVTTL level at 2 mA, " + _MEM),
-        ),
-        vol=(
-            OutputGuarantee(100e-6, Level(0.2), _J8C),
-            OutputGuarantee(2e-3, Level(0.4), "JESD8C LVTTL level at 2 mA, " + _MEM),
-        ),
-        source=_J8C + "; supply 3.0-3.6 V " + _MEM,
-        notes=("VDD - 0.2 V holds only up to 100 uA; above, the LVTTL 2.4 V at 2 mA level "
-               "(most LVCMOS outputs meet it) is used; the part's datasheet rules",),
-    ),
-    "lvcmos25": Family(
-        name="lvcmos25", vdd_nominal=2.5, vdd_min=2.3, vdd_max=2.7,
-        vih=Level(1.7), vil=Level(0.7),
-        voh=(
-            OutputGuarantee(100e-6, Level(2.1), "JESD8-5, " + _MEM),
-            OutputGuarantee(1e-3, Level(2.0), "JESD8-5 [src2]"),
-            OutputGuarantee(2e-3, Level(1.7), "JESD8-5, " + _MEM),
-        ),
-        vol=(
-            OutputGuarantee(100e-6, Level(0.2), "JESD8-5, " + _MEM),
-            OutputGuarantee(1e-3, Level(0.4), "JESD8-5 [src2]"),
-            OutputGuarantee(2e-3, Level(0.7), "JESD8-5, " + _MEM),
-        ),
-        source="JEDEC JESD8-5A.01 [src2]; supply 2.3-2.7 V " + _MEM,
-    ),
-    "lvcmos18": Family(
-        name="lvcmos18", vdd_nominal=1.8, vdd_min=1.65, vdd_max=1.95,
-        vih=Level(fraction=0.65), vil=Level(fraction=0.35),
-        voh=(
-            OutputGuarantee(100e-6, _vdd_minus(0.2), "JESD8-7A, " + _MEM),
-            OutputGuarantee(2e-3, _vdd_minus(0.45), "JESD8-7A [src2]"),
-        ),
-        vol=(
-            OutputGuarantee(100e-6, Level(0.2), "JESD8-7A, " + _MEM),
-            OutputGuarantee(2e-3, Level(0.45), "JESD8-7A [src2]"),
-        ),
-        source="JEDEC JESD8-7A [src2]; supply 1.65-1.95 V " + _MEM,
-    ),
-    "lvcmos12": Family(
-        name="lvcmos12", vdd_nominal=1.2, vdd_min=1.1, vdd_max=1.3,
-        vih=Level(fraction=0.65), vil=Level(fraction=0.35),
-        voh=(
-            OutputGuarantee(100e-6, _vdd_minus(0.1), "JESD8-12A, " + _MEM),
-            OutputGuarantee(1e-3, Level(fraction=0.75), "JESD8-12A [src2]"),
-        ),
-        vol=(
-            OutputGuarantee(100e-6, Level(0.1), "JESD8-12A, " + _MEM),
-            OutputGuarantee(1e-3, Level(fraction=0.25), "JESD8-12A [src2]"),
-        ),
-        source="JEDEC JESD8-12A.01 [src2]; supply 1.1-1.3 V " + _MEM,
-    ),
-    "ttl5": Family(
-        name="ttl5", vdd_nominal=5.0, vdd_min=4.75, vdd_max=5.25,
-        vih=Level(2.0), vil=Level(0.8),
-        voh=(OutputGuarantee(400e-6, Level(2.4), "SN74 standard TTL, " + _MEM),),
-        vol=(OutputGuarantee(16e-3, Level(0.4), "SN74 standard TTL, " + _MEM),),
-        # a standard TTL input sources 1.6 mA when low and takes 40 uA when high
-        input_leakage_high=40e-6, input_leakage_low=1.6e-3,
-        source="standard (74xx) TTL data-book levels, " + _MEM,
-    ),
-    "cmos5": Family(
-        name="cmos5", vdd_nominal=5.0, vdd_min=4.5, vdd_max=5.5,
-        vih=Level(fraction=0.7), vil=Level(fraction=0.3),
-        voh=(
-            OutputGuarantee(20e-6, _vdd_minus(0.1), "JESD7A (74HC), " + _MEM),
-            OutputGuarantee(4e-3, _vdd_minus(0.66), "JESD7A (74HC, 3.84 V at 4.5 V), " + _MEM),
-        ),
-        vol=(
-            OutputGuarantee(20e-6, Level(0.1), "JESD7A (74HC), " + _MEM),
-            OutputGuarantee(4e-3, Level(0.33), "JESD7A (74HC), " + _MEM),
-        ),
-        source="JEDEC JESD7A 74HC levels (0.7/0.3 VDD), " + _MEM,
-    ),
-}
-
-
-def family(name: str) -> Family:
-    """The named family from :data:`FAMILIES` (case-insensitive); KeyError lists the names."""
-    key = name.strip().lower()
-    if key not in FAMILIES:
-        raise KeyError(f"unknown logic family {name!r}; known: {', '.join(FAMILIES)}")
-    return FAMILIES[key]
-
-
-# ---------------------------------------------------------------------------------------------
-# IEC 60063 preferred numbers
-# ---------------------------------------------------------------------------------------------
-
-# IEC 60063 E24 (two significant figures), including its historical values that differ from
-# round(10**(i/24)): 27 30 33 36 39 43 47 82.
-_E24 = (10, 11, 12, 13, 15, 16, 18, 20, 22, 24, 27, 30, 33, 36, 39, 43, 47, 51, 56, 62, 68,
-        75, 82, 91)
-# E192's one irregular value (IEC 60063): 920 where round(10**(185/192)*100) gives 919.
-_E192_IRREGULAR = {185: 920}
-
-SERIES_TOLERANCE: dict[str, float] = {
-    # IEC 60063: E6 20 %, E12 10 %, E24 5 %, E48 2 %, E96 1 %, E192 0.5 % (and finer).
-    # E3 is for tolerances above 20 %; 40 % is the customary figure (common practice).
-    "E3": 0.40, "E6": 0.20, "E12": 0.10, "E24": 0.05, "E48": 0.02, "E96": 0.01, "E192": 0.005,
-}
-
-
-def _series_key(name: str) -> str:
-    key = name.strip().upper()
-    if key not in SERIES_TOLERANCE:
-        raise KeyError(f"unknown E-series {name!r}; known: {', '.join(SERIES_TOLERANCE)}")
-    return key
-
-
-def series_mantissas(name: str) -> tuple[int, ...]:
-    """One decade of an IEC 60063 series as integers (E3-E24: 10..91, E48-E192: 100..988).
-
-    References
-    ----------
-    1. IEC 60063:2015, tables 1-3.
-    """
-    key = _series_key(name)
-    n = int(key[1:])
-    if n <= 24:
-        return _E24[:: 24 // n]
-    return tuple(_E192_IRREGULAR.get(i * (192 // n), round(10 ** (i / n) * 100))
-                 for i in range(n))
-
-
-def series_tolerance(name: str) -> float:
-    """The tolerance customarily paired with a series (E24 -> 0.05). [1]"""
-    return SERIES_TOLERANCE[_series_key(name)]
-
-
-def series_values(name: str, r_min: float = 10.0, r_max: float = 1e6) -> np.ndarray:
-    """All values of a series between ``r_min`` and ``r_max`` inclusive, ascending. [ohm]
-
-    Parameters
-    ----------
-    name : str
-        "E3" ... "E192".
-    r_min, r_max : float
-        Range, default 10 ohm to 1 Mohm. [ohm]
-
-    Returns
-    -------
-    ndarray
-        Resistances. [ohm]
-
-    References
-    ----------
-    1. IEC 60063:2015.
-    """
-    mant = series_mantissas(name)
-    digits = len(str(mant[0]))  # 2 for E3-E24, 3 for E48-E192
-    values = []
-    for exp in range(-digits - 2, 12):
-        scale = 10**exp
-        for m in mant:
-            v = m * scale if exp >= 0 else m / 10**-exp  # exact decimal, no 10**-k drift
-            if r_min * (1 - 1e-12) <= v <= r_max * (1 + 1e-12):
-                values.append(float(v))
-    return np.array(sorted(values))
-
-
-# ---------------------------------------------------------------------------------------------
-# Worst-case divider
-# ---------------------------------------------------------------------------------------------
 
 
 @dataclass(frozen=True)
@@ -455,6 +107,45 @@ class DividerCheck:
 
 def _scalar(x):
     return x if np.ndim(x) else x.item() if isinstance(x, np.ndarray | np.generic) else x
+
+
+def _lowest_high_level(source: Family, rt_lo, rt_hi, rb_lo, rb_hi, ro, leak):
+    """Lowest guaranteed node voltage over every supply in the source's range and every
+    resistor within tolerance, each point with the guarantee at its own current. [V]
+
+    With the output pin at ``V`` the node is ``f = (V - leak rt) rb/(rt + rb)``, which falls
+    with ``rt`` and (for ``V > leak rt``) rises with ``rb``; the source current
+    ``I = (vdd + leak rb)/(rt + rb + ro)`` rises with ``vdd`` and falls with both resistors.
+    Guarantee ``g`` (levels ``L_g(vdd)`` falling as the test current rises) holds at least
+    wherever ``I`` exceeds the previous test current ``I_(g-1)``, so the lowest level is the
+    least over ``g`` of ``f`` with ``V = L_g(vdd)`` minimised over that set: the first
+    guarantee at the corner (lowest supply, top at +tol, bottom at -tol); each later one on
+    ``I = I_(g-1)`` with the bottom at -tol, where ``f`` is monotone along the curve
+    ``vdd = I_(g-1) (rt + rb + ro) - leak rb``, so at its ends inside the box (top at either
+    tolerance, or the supply at either end of its range). Exact for the model whenever the
+    output level exceeds the leakage drop across the top resistor.
+    """
+    steps = sorted(source.voh, key=lambda g: g.current)
+    vmin, vmax = source.vdd_min, source.vdd_max
+
+    def node(level, vdd, rt, rb):
+        return (level.at(vdd) - leak * rt) * rb / (rt + rb)
+
+    first = steps[0].level
+    low = np.fmin(node(first, vmin, rt_hi, rb_lo), node(first, vmin, rt_hi, rb_hi))
+    rb = rb_lo
+    for prev, g in zip(steps, steps[1:], strict=False):
+        i_b = prev.current
+        on_curve = []
+        for rt in (rt_lo, rt_hi):  # the curve's supply at either top resistor
+            vdd = i_b * (rt + rb + ro) - leak * rb
+            on_curve.append((np.maximum(vdd, vmin), rt, vdd <= vmax))
+        for vdd in (vmin, vmax):  # the top resistor where the curve meets either supply end
+            rt = (vdd + leak * rb) / i_b - rb - ro
+            on_curve.append((vdd, np.clip(rt, rt_lo, rt_hi), (rt >= rt_lo) & (rt <= rt_hi)))
+        for vdd, rt, inside in on_curve:
+            low = np.where(inside, np.fmin(low, node(g.level, vdd, rt, rb)), low)
+    return low
 
 
 def evaluate_divider(
@@ -521,26 +212,23 @@ def evaluate_divider(
     rt_lo, rt_hi = rt * (1 - tol), rt * (1 + tol)
     rb_lo, rb_hi = rb * (1 - tol), rb * (1 + tol)
     ratio_nom = rb / (rt + rb)
-    ratio_min = rb_lo / (rt_hi + rb_lo)
-    ratio_max = rb_hi / (rt_lo + rb_hi)
     thevenin = (rt + ro) * rb / (rt + ro + rb)
     thevenin_max = (rt_hi + ro) * rb_hi / (rt_hi + ro + rb_hi)
 
-    # largest current from the source: highest supply, both resistors at -tol
-    current = source.vdd_max / (rt_lo + rb_lo + ro)
+    # largest current from the source: highest supply, both resistors at -tol, the input's
+    # leakage drawn out of the node
+    current = (source.vdd_max + leak_hi * rb_lo) / (rt_lo + rb_lo + ro)
     rated = source.rated_current
     overloaded = current > rated * (1 + 1e-12)
 
-    voh_guaranteed = source.voh_min(current, source.vdd_min)
-    if ro > 0:
-        voh_model = source.vdd_min - current * ro
-        voh_low = np.where(np.isnan(voh_guaranteed), voh_model, np.fmin(voh_guaranteed,
-                                                                         voh_model))
-    else:
-        voh_low = voh_guaranteed
-    v_high_min = voh_low * ratio_min - leak_hi * thevenin_max
-    v_high_max = source.vdd_max * ratio_max + leak_hi * thevenin_max
-    v_low_max = source.vol_max(0.0, source.vdd_max) * ratio_max + leak_lo * thevenin_max
+    v_high_min = np.where(overloaded, np.nan,
+                          _lowest_high_level(source, rt_lo, rt_hi, rb_lo, rb_hi, ro, leak_hi))
+    if ro > 0:  # the output as its lowest supply behind ro: a plain divider with top + ro
+        model = (source.vdd_min - leak_hi * (rt_hi + ro)) * rb_lo / (rt_hi + ro + rb_lo)
+        v_high_min = np.fmin(v_high_min, model)
+    # highest levels: rb (V + leak rt)/(rt + rb) rises with rb and falls with rt (ro = 0)
+    v_high_max = rb_hi * (source.vdd_max + leak_hi * rt_lo) / (rt_lo + rb_hi)
+    v_low_max = rb_hi * (source.vol_max(0.0, source.vdd_max) + leak_lo * rt_lo) / (rt_lo + rb_hi)
     v_nominal = source.vdd_nominal * ratio_nom
 
     vih = destination.vih_worst
@@ -672,7 +360,7 @@ def search_dividers(
     # no lower than the highest supply through the highest ratio. With x = top/bottom this
     # bounds top to [x_min, x_max] * bottom: a contiguous run of the sorted values per bottom.
     vih = destination.vih_worst
-    voh_light = float(_guarantee(source.voh, 0.0, source.vdd_min))
+    voh_light = float(source.voh_min(0.0, source.vdd_min))
     k_low = vih / voh_light if voh_light > 0 else np.inf
     k_high = destination.input_max(tolerant, tolerant_max) / source.vdd_max
     slack = 1e-9
@@ -738,7 +426,7 @@ def search_dividers(
 
 def _why_none(source, destination, tol, closest, failures, n, tolerant, tolerant_max):
     vih = destination.vih_worst
-    voh_light = float(_guarantee(source.voh, 0.0, source.vdd_min))
+    voh_light = float(source.voh_min(0.0, source.vdd_min))
     if voh_light <= vih:
         return (f"the source guarantees at most {voh_light:.3f} V high, not above the "
                 f"destination's VIH {vih:.3f} V: a divider can only lower a level")
@@ -766,58 +454,3 @@ def _why_none(source, destination, tol, closest, failures, n, tolerant, tolerant
             f"current, {f.low_above_vil} low level above VIL, {f.edge_too_slow} edge too "
             f"slow); closest {closest.top:g}/"
             f"{closest.bottom:g} ohm: {why}")
-
-
-# ---------------------------------------------------------------------------------------------
-# Direct connection (no divider), e.g. controller -> gate-driver logic input
-# ---------------------------------------------------------------------------------------------
-
-
-@dataclass(frozen=True)
-class DirectLink:
-    """Worst-case levels of an output wired straight to an input. [V]"""
-
-    v_high_min: float  # source VOH min at its lowest supply, carrying the input leakage
-    v_high_max: float  # source highest supply
-    v_low_max: float  # source VOL max at its highest supply
-    vih: float  # destination VIH at its highest supply
-    vil: float  # destination VIL at its lowest supply
-    input_max: float  # destination input maximum
-    margin_high: float  # v_high_min - vih
-    margin_max: float  # input_max - v_high_max
-    margin_low: float  # vil - v_low_max
-
-
-def direct_link(source: Family, destination: Family, *, tolerant: bool = False,
-                tolerant_max: float = TOLERANT_INPUT_MAX,
-                leakage: float | None = None) -> DirectLink:
-    """Worst-case levels of a direct output-to-input connection.
-
-    Parameters
-    ----------
-    source, destination : Family
-        Driving and receiving families.
-    tolerant : bool, optional
-        The input is over-voltage tolerant up to ``tolerant_max``.
-    tolerant_max : float, optional
-        Input maximum of a tolerant input (e.g. a gate driver's own supply). [V]
-    leakage : float, optional
-        Input current magnitude drawn from the output; default the destination's. [A]
-
-    Returns
-    -------
-    DirectLink
-
-    References
-    ----------
-    1. JESD8C.01 / JESD8-5A.01 / JESD8-7A / JESD8-12A.01 DC tables.
-    """
-    i_hi = destination.input_leakage_high if leakage is None else float(leakage)
-    i_lo = destination.input_leakage_low if leakage is None else float(leakage)
-    v_hi_min = float(source.voh_min(i_hi, source.vdd_min))
-    v_hi_max = float(source.vdd_max)
-    v_lo_max = float(source.vol_max(i_lo, source.vdd_max))
-    vih, vil = destination.vih_worst, destination.vil_worst
-    vin_max = destination.input_max(tolerant, tolerant_max)
-    return DirectLink(v_hi_min, v_hi_max, v_lo_max, vih, vil, vin_max, v_hi_min - vih,
-                      vin_max - v_hi_max, vil - v_lo_max)
