@@ -14,8 +14,8 @@ SEVERITIES = ("hazard", "fault", "warning", "note")
 SEVERITY_RANK = {s: i for i, s in enumerate(SEVERITIES)}
 
 # Order of the sections in outputs; every stage stores its section under one of these.
-SECTION_ORDER = ("timing", "drive", "air", "flash", "exposure", "optics", "led", "switch",
-                 "supply", "stuck_on", "trigger_link", "gate_link")
+SECTION_ORDER = ("timing", "drive", "timer", "air", "flash", "exposure", "banding", "optics",
+                 "led", "switch", "supply", "stuck_on", "trigger_link", "gate_link")
 
 
 def jsonable(value: Any) -> Any:
@@ -102,6 +102,8 @@ class Plan:
     stuck_on: Any = None
     trigger_link: Any = None
     gate_link: Any = None
+    timer: Any = None
+    banding: Any = None
     findings: list[Finding] = field(default_factory=list)
     lock: Any = field(default=None, repr=False)  # timing.Lock: integers for the schedule
 

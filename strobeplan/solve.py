@@ -6,13 +6,16 @@ import numpy as np
 
 from . import timing
 from .checks import run_checks
+from .design import Design
 from .plan import Plan
 from .stages import air as air_stage
+from .stages import banding as banding_stage
 from .stages import exposure as exposure_stage
 from .stages import flash as flash_stage
 from .stages import link as link_stage
 from .stages import optics as optics_stage
 from .stages import power as power_stage
+from .stages import timer as timer_stage
 
 
 def solve(rig) -> Plan:
@@ -34,7 +37,10 @@ def _solve(rig) -> Plan:
     flash_stage.build(rig, plan)
     link_stage.build(rig, plan)  # before timing: the trigger edge delays the exposure
     plan.lock = timing.build(rig, plan)
+    design = Design.of(rig)
+    plan.timer = timer_stage.compute(rig, design, plan)
     exposure_stage.build(rig, plan)
+    plan.banding = banding_stage.compute(rig, design, plan)
     optics_stage.build(rig, plan)
     power_stage.build(rig, plan)
     plan.findings = run_checks(plan)

@@ -138,7 +138,7 @@ def flash_starts(plan) -> tuple[np.ndarray, np.ndarray]:
     """
     t, fl, rig = plan.timing, plan.flash, plan.rig
     period = t.flash_period_ticks * t.tick_s
-    cam = rig.camera
+    cam = rig.camera if t.window_start_s is not None else None  # None: no triggered window
     burst = cam is not None and not rig.strobe.continuous and t.mode != "slow_motion"
     if burst:
         n = int(t.flashes_per_frame or 0)
@@ -183,7 +183,7 @@ def _frame_panel(plan, ax):
     """Lanes over one frame: flashes (stems), camera exposure, all-rows window (bars)."""
     t, rig = plan.timing, plan.rig
     starts, inside = flash_starts(plan)
-    cam = rig.camera
+    cam = rig.camera if t.window_start_s is not None else None  # None: no triggered window
     lanes = {"flashes": 0.5}
     if cam is not None:
         lanes["exposure"] = 1.45

@@ -23,7 +23,7 @@ _SUFFIX_KINDS = [
 ]
 # Dimensionless fields read better as percentages.
 _PERCENT = ("duty_in_burst", "duty_average", "relative_humidity", "brightness_change",
-            "tolerance", "rating_duty", "min_retention")
+            "tolerance", "rating_duty", "min_retention", "banding")
 
 
 def _label(name: str, suffix: str, keep: int | None) -> str:

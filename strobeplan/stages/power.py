@@ -32,6 +32,7 @@ from ..physics import supply as supply_model
 from ..physics import switching as sw_model
 from ..physics import thermal as thermal_model
 from ..plan import Section
+from ..timing import continuous_train
 
 ZERO_C = 273.15  # [K]
 
@@ -137,7 +138,7 @@ def flash_pattern(rig, timing) -> Pattern:
     """Burst of flashes_per_frame every frame, or a continuous train."""
     spacing = timing.flash_period_ticks * timing.tick_s
     n = timing.flashes_per_frame
-    if rig.strobe.continuous or rig.camera is None or not n or timing.frame_rate_hz is None:
+    if continuous_train(rig) or not n or timing.frame_rate_hz is None:
         return Pattern("continuous", spacing, 1, None, 1.0 / spacing)
     frame = 1.0 / timing.frame_rate_hz
     return Pattern("burst", spacing, int(n), frame, n / frame)
