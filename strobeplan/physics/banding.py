@@ -11,13 +11,14 @@ which is periodic in u with period P. Writing X = qP + r (0 <= r < P), the least
 most light over all offsets are
 
     B_min = qL + max(0, r - (P - L))
-    B_max = qL + min(r, L + max(0, r - (P - L)))
+    B_max = qL + min(r, L)
 
-(the window's remainder r either fits in a dark gap of P - L or cannot avoid part of a
-pulse; it holds at most one pulse's worth beyond the q whole periods). dB/du is the
-difference of two pulse indicators, so it is +1, 0 or -1 and B rises from B_min to B_max
-along one contiguous ramp of length B_max - B_min: rows whose start times span the readout
-R see at worst a step of min(B_max - B_min, R) between the darkest and the brightest row.
+(the window's remainder r either fits in a dark gap of P - L or cannot avoid r - (P - L)
+of a pulse; at best it holds one whole pulse, or r of one). dB/du is the difference of two
+pulse indicators, so it is +1, 0 or -1 and B rises from B_min to B_max along one
+contiguous ramp of length B_max - B_min: rows whose start times span the readout R see at
+worst a swing s = min(B_max - B_min, R), between B_min and B_min + s, a relative step of
+s / (B_min + s).
 A window that is a whole number of flash periods (r = 0) collects the same light at any
 offset: no banding.
 
@@ -56,9 +57,8 @@ def window_light_range(window, period, light):
     L = np.minimum(np.asarray(light, dtype=float), p)  # noqa: N806 - the equation's name
     q = np.floor(x / p + 1e-12)
     r = np.maximum(x - q * p, 0.0)
-    spill = np.maximum(0.0, r - (p - L))
-    lo = q * L + spill
-    hi = q * L + np.minimum(r, L + spill)
+    lo = q * L + np.maximum(0.0, r - (p - L))
+    hi = q * L + np.minimum(r, L)
     return lo, hi
 
 
@@ -103,13 +103,14 @@ def banding(window, period, light, readout):
     Returns
     -------
     ndarray
-        (B_max - B_min over the rows) / B_max, worst case over the camera's offset
-        against the train; 1 when some row gets no light at all. [1]
+        (brightest - darkest) / brightest over the rows, worst case over the camera's
+        offset against the train; 1 when some row gets no light at all. [1]
     """
     lo, hi = window_light_range(window, period, light)
     swing = np.minimum(hi - lo, np.asarray(readout, dtype=float))
+    top = lo + swing
     with np.errstate(divide="ignore", invalid="ignore"):
-        return np.where(hi > 0, swing / np.where(hi > 0, hi, 1.0), 1.0)
+        return np.where(top > 0, swing / np.where(top > 0, top, 1.0), 1.0)
 
 
 def banding_free_exposure(window, period):
