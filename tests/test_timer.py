@@ -118,5 +118,5 @@ def test_custom_timer_keys_override_the_profile():
 
 
 def test_no_timer_section_no_timer_findings():
-    plan = plan_of("levitator-40k")
+    plan = plan_of("levitator-40k", {"controller.timer": None})
     assert plan.timer is None and not _codes(plan)

@@ -148,8 +148,8 @@ def flash_starts(plan) -> tuple[np.ndarray, np.ndarray]:
     end = (t.window_start_s + t.window_s) if cam is not None else 4 * period
     n = min(20_000, int(max(1, math.ceil(end * 1.05 / period) + 1)))
     starts = t.flash_edge_s + fl.delay_s + period * np.arange(n)
-    if cam is None:
-        return starts, np.zeros(n, dtype=bool)
+    if cam is None:  # no camera: none inside; free-running: every flash reaches some rows
+        return starts, np.full(n, rig.camera is not None, dtype=bool)
     w0, w1 = t.window_start_s, t.window_start_s + t.window_s
     inside = (starts >= w0 - 1e-12) & (starts + fl.light_length_s <= w1 + 1e-12)
     return starts, inside

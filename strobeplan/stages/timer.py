@@ -24,6 +24,7 @@ from dataclasses import dataclass, field
 
 from ..plan import Section
 from ..timers import DEFAULT_PROFILE, PROFILES, Fit, fit_counter, wrap_time
+from ..timing import edge_ticks_for_phase, wrap_phase
 
 ABSOLUTE_BITS = 32
 
@@ -69,8 +70,16 @@ def counter_needs(rig, plan, pulse_width: float | None = None) -> list[Need]:
         nd = t.drive_period_ticks
         out.append(Need("drive", nd, (nd // 2,), 1, False, "drive period; half-period compare"))
     p = t.flash_period_ticks
-    out.append(Need("flash", p, (t.flash_edge_ticks % p, (t.flash_edge_ticks + w) % p), 2,
-                    False, "flash period; flash edge and gate end compares"))
+    edges = {t.flash_edge_ticks}
+    lock = getattr(plan, "lock", None)
+    if t.mode == "sweep" and lock is not None:  # every frame's edge of the sweep table
+        step = math.radians(t.sweep_step_deg)
+        edges |= {edge_ticks_for_phase(wrap_phase(rig.strobe.phase + k * step), lock.frequency,
+                                       lock.clock, lock.period_ticks, lock.chain_delay,
+                                       lock.flash_delay) for k in range(rig.sweep.steps)}
+    compares = sorted({e % p for e in edges} | {(e + w) % p for e in edges})
+    out.append(Need("flash", p, tuple(compares), 2, False,
+                    "flash period; flash edge and gate end compares"))
     if t.frame_period_ticks is not None:
         fp = t.frame_period_ticks
         first = t.first_flash_ticks if t.first_flash_ticks is not None else 0
