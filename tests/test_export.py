@@ -22,6 +22,7 @@ from hypothesis import strategies as st
 
 from strobeplan.rig import rig_from_dict
 from tests.conftest import EXAMPLES, example, run_cli
+from tests.test_fuzz import _rig_file, mutated_rig, wild_magnitudes
 
 SIM = Path(__file__).parent / "sim" / "timers_sim.c"
 CFLAGS = ["-std=c99", "-Wall", "-Wextra", "-Werror", "-O2"]
@@ -257,3 +258,47 @@ def test_generated_rigs_reproduce_schedule(raw, tmp_path_factory):
     data = json.loads(run_cli("export", path, "--format", "json").stdout)
     assert data["exact"]  # these profiles fit directly or by chaining: no rounding
     check_against_schedule(path, d, frames=2)
+
+
+# --- robustness ---------------------------------------------------------------------------
+
+@settings(max_examples=25, deadline=None,
+          suppress_health_check=[HealthCheck.too_slow, HealthCheck.function_scoped_fixture])
+@given(data=st.data(), fmt=st.sampled_from(["c", "json"]))
+def test_mutated_and_wild_rigs_export_or_say_why(data, fmt, tmp_path_factory):
+    raw = data.draw(st.one_of(mutated_rig(), wild_magnitudes()))
+    made = _rig_file(raw, tmp_path_factory)
+    if made is None:
+        return
+    d, rig, _text = made
+    r = run_cli("export", rig, "--format", fmt, "-o", d / f"out.{fmt}")
+    assert r.exit_code in (0, 2), r.output
+    assert "Traceback" not in r.output
+    if r.exit_code == 0:
+        text = (d / f"out.{fmt}").read_text()
+        if fmt == "json":
+            out = json.loads(text)
+            assert out["format"] == "strobeplan.export" and out["frames"]
+        else:
+            assert text.count("{") == text.count("}") and "#endif" in text
+
+
+def test_prescaled_frame_counter_moves_the_trigger_by_less_than_one_count(tmp_path):
+    """A 16-bit counter without chaining holds the 533,232-tick frame only with a prescaler
+    of 9 (533,232 / 65,536 = 8.1; 9 x 59,248 = 533,232): the frame stays exact, the trigger
+    compare rounds down to a multiple of 9 ticks (never later), and the flashes, on the
+    unprescaled flash counter, stay exact."""
+    from tests.conftest import patched
+
+    rig = tmp_path / "rig.toml"
+    rig.write_text(_toml(patched("rangefinder-58k", {"controller.timer": {
+        "profile": "counter16-prescale16", "chainable": False}})))
+    data = json.loads(run_cli("export", rig, "--format", "json").stdout)
+    assert data["counters"]["frame"]["prescaler"] == 9 and not data["exact"]
+    want, _sched = expected(rig, 2)
+    got = simulate(rig, tmp_path, 2)
+    for k in range(2):
+        (t_want,), (t_got,) = want["trigger"][k], got["trigger"][k]
+        assert 0 <= t_want - t_got < 9 and t_got % 9 == 0
+        assert got["edge"][k] == want["edge"][k]
+        assert got["gate_end"][k] == want["gate_end"][k]
