@@ -68,6 +68,8 @@ CASES: dict[str, tuple[str, dict]] = {
     # 20 us fits between two flashes 25 us apart
     "banding.dark_rows": ("levitator-40k", {"camera.trigger": "none",
                                             "camera.exposure": "20 us"}),
+    "banding.sweep_unsynchronised": ("rangefinder-58k", {"camera.trigger": "none",
+                                                         "camera.exposure": "8.28 ms"}),
     # 533,232-tick frame > 256 counts x 1024 prescaler = 262,144 ticks
     "timer.count_overflow": ("rangefinder-58k", {
         "controller.timer": {"profile": "counter8-prescale-pow2"}}),

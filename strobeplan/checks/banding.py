@@ -58,3 +58,17 @@ def dark_rows(plan):
                        f"some {'rows' if b.shutter == 'rolling' else 'frames'} stay dark",
                value=plan.rig.camera.exposure, limit=b.flash_period_s, unit="s",
                when=b.light_per_row_min_s <= 0)
+
+
+@rule("banding.sweep_unsynchronised", "warning",
+      trigger="a free-running camera (camera.trigger = \"none\") with a [sweep] of phase "
+              "steps: nothing tells the controller when a frame starts, so the steps do not "
+              "follow the frames and one frame can mix two phases",
+      fix="use sweep.slow_motion instead (the phase advances smoothly and every frame "
+          "samples it), or a camera with a trigger input")
+def sweep_unsynchronised(plan):
+    b, t = plan.banding, plan.timing
+    if b is None or not b.free_running or t.mode != "sweep":
+        return None
+    return Hit(f"{plan.rig.sweep.steps} phase steps cannot be tied to the frames of a "
+               f"free-running camera", value=plan.rig.sweep.steps, unit="1")
