@@ -3,6 +3,8 @@ free-running camera with camera.trigger = "none")."""
 
 from __future__ import annotations
 
+import numpy as np
+
 from ..units import render
 from .registry import Hit, rule
 
@@ -27,7 +29,7 @@ def _where(b) -> str:
           "matters less")
 def banding_visible(plan):
     b = plan.banding
-    if b is None or b.light_per_row_min_s <= 0:
+    if b is None:
         return None
 
     def message():
@@ -39,8 +41,10 @@ def banding_visible(plan):
         return (f"set camera.exposure to {render(b.band_free_exposure_s, 'time')} (a whole "
                 f"number of flash periods), or lengthen it")
 
-    return Hit(message, value=b.banding, limit=BANDING_LIMIT, unit="1", hint=hint,
-               when=b.banding > BANDING_LIMIT)
+    # vectorised condition (tune evaluates it over a grid of designs); dark rows are
+    # banding.dark_rows
+    when = (np.asarray(b.banding) > BANDING_LIMIT) & (np.asarray(b.light_per_row_min_s) > 0)
+    return Hit(message, value=b.banding, limit=BANDING_LIMIT, unit="1", hint=hint, when=when)
 
 
 @rule("banding.dark_rows", "fault",
@@ -57,7 +61,7 @@ def dark_rows(plan):
                        f"between two flashes {render(b.flash_period_s, 'time')} apart: "
                        f"some {'rows' if b.shutter == 'rolling' else 'frames'} stay dark",
                value=plan.rig.camera.exposure, limit=b.flash_period_s, unit="s",
-               when=b.light_per_row_min_s <= 0)
+               when=np.asarray(b.light_per_row_min_s) <= 0)
 
 
 @rule("banding.sweep_unsynchronised", "warning",

@@ -12,6 +12,8 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
+import numpy as np
+
 from ..physics import banding as banding_model
 from ..plan import Section
 from ..timing import continuous_train
@@ -33,8 +35,16 @@ class BandingSection(Section):
     band_free_exposure_s: float
 
 
+def _plain(x, kind=float):
+    """A 0-d result as a plain number; an array (a grid of designs) stays an array."""
+    return kind(x) if np.ndim(x) == 0 else np.asarray(x)
+
+
 def compute(rig, design, plan) -> BandingSection | None:
-    """The banding section, or None unless a camera watches a continuous train."""
+    """The banding section, or None unless a camera watches a continuous train.
+
+    Broadcasts: with a timing section over a grid of designs (arrays of flash periods and
+    light lengths) every figure is an array of that shape."""
     cam = rig.camera
     if cam is None or not continuous_train(rig):
         return None
@@ -51,13 +61,13 @@ def compute(rig, design, plan) -> BandingSection | None:
     return BandingSection(
         shutter=cam.shutter,
         free_running=free,
-        flash_period_s=period,
-        flashes_per_row_min=int(n_lo),
-        flashes_per_row_max=int(n_hi),
-        light_per_row_min_s=float(lo),
-        light_per_row_max_s=float(hi),
-        banding=float(banding_model.banding(cam.exposure, period, light, spread)),
-        bands_per_frame=float(banding_model.bands_per_frame(cam.readout, period))
+        flash_period_s=_plain(period),
+        flashes_per_row_min=_plain(n_lo, int),
+        flashes_per_row_max=_plain(n_hi, int),
+        light_per_row_min_s=_plain(lo),
+        light_per_row_max_s=_plain(hi),
+        banding=_plain(banding_model.banding(cam.exposure, period, light, spread)),
+        bands_per_frame=_plain(banding_model.bands_per_frame(cam.readout, period))
         if rolling else None,
-        band_free_exposure_s=float(banding_model.banding_free_exposure(cam.exposure, period)),
+        band_free_exposure_s=_plain(banding_model.banding_free_exposure(cam.exposure, period)),
     )
