@@ -117,6 +117,9 @@ def export(rig, fmt, output):
     with user_errors():
         exp = build_export(plan)
     _write_or_echo(export_c(exp) if fmt == "c" else export_json(exp), output, rig)
+    if plan.verdict == "fail":
+        click.echo("warning: the plan fails its checks; see `strobeplan check` before you "
+                   "load these values", err=True)
 
 
 @cli.command()
