@@ -120,3 +120,14 @@ def test_custom_timer_keys_override_the_profile():
 def test_no_timer_section_no_timer_findings():
     plan = plan_of("levitator-40k", {"controller.timer": None})
     assert plan.timer is None and not _codes(plan)
+
+
+def test_sine_duty_table_by_hand():
+    from strobeplan.stages.timer import sine_duty_table
+
+    # 125-tick carrier, 20 per cycle (the levitator): sin(2 pi 5/20) = 1 -> 125 (full duty),
+    # sin(2 pi 15/20) = -1 -> 0, and opposite samples add to the period (half-up rounding
+    # of 62.5 + x and 62.5 - x gives a sum of 125 or 126)
+    table = sine_duty_table(125, 20)
+    assert table[0] == 63 and table[5] == 125 and table[15] == 0
+    assert all(table[i] + table[i + 10] in (125, 126) for i in range(10))

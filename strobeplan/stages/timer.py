@@ -51,7 +51,8 @@ def sine_duty_table(carrier_ticks: int, carriers_per_cycle: int) -> tuple[int, .
     start of carrier period i (index 0 at the drive period's start, the rising zero
     crossing), offset to half duty. [ticks]"""
     m, nc = carriers_per_cycle, carrier_ticks
-    return tuple(int(round(nc * (1.0 + math.sin(2.0 * math.pi * i / m)) / 2.0))
+    # half-up rounding (round() would send 62.5 down and 62.500...01 up)
+    return tuple(int(math.floor(nc * (1.0 + math.sin(2.0 * math.pi * i / m)) / 2.0 + 0.5))
                  for i in range(m))
 
 
