@@ -241,7 +241,7 @@ def small_rigs(draw):
     return rig
 
 
-@settings(max_examples=10, deadline=None, phases=(Phase.explicit, Phase.reuse, Phase.generate),
+@settings(max_examples=15, deadline=None, phases=(Phase.explicit, Phase.reuse, Phase.generate),
           suppress_health_check=[
     HealthCheck.function_scoped_fixture, HealthCheck.too_slow])
 @given(raw=small_rigs())
