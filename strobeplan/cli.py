@@ -103,6 +103,27 @@ def check(rig, as_json):
 
 @cli.command()
 @click.argument("rig", type=click.Path(allow_dash=True))
+@click.option("--format", "fmt", type=click.Choice(["c", "json"]), required=True,
+              help="c: a C99 header of constants; json: the same content as JSON.")
+@click.option("-o", "--output", type=click.Path(allow_dash=True), default=None,
+              help="Write to FILE (atomically) instead of standard output.")
+def export(rig, fmt, output):
+    """Timer constants: per counter its prescaler, period and compare values, and the
+    per-frame compare table, each commented with its unit and realised value."""
+    from .export import build_export
+    from .report.export import export_c, export_json
+
+    plan = _solve(rig)
+    with user_errors():
+        exp = build_export(plan)
+    _write_or_echo(export_c(exp) if fmt == "c" else export_json(exp), output, rig)
+    if plan.verdict == "fail":
+        click.echo("warning: the plan fails its checks; see `strobeplan check` before you "
+                   "load these values", err=True)
+
+
+@cli.command()
+@click.argument("rig", type=click.Path(allow_dash=True))
 @click.option("-o", "--output", type=click.Path(allow_dash=True), default=None,
               help="Write to FILE (atomically) instead of standard output.")
 @click.option("--format", "fmt", type=click.Choice(["csv", "json"]), default="csv",

@@ -19,12 +19,14 @@ import numpy as np
 if TYPE_CHECKING:
     from .design import Design
     from .stages.air import AirSection
+    from .stages.banding import BandingSection
     from .stages.exposure import ExposureSection
     from .stages.flash import FlashSection
     from .stages.image import EyeSection, ImageSection
     from .stages.link import GateLinkSection, TriggerLinkSection
     from .stages.optics import OpticsSection
     from .stages.power import LedSection, StuckOnSection, SupplySection, SwitchSection
+    from .stages.timer import TimerSection
     from .timing import DriveSection, TimingSection
 
 from .physics.air import ZERO_CELSIUS  # [K] 0 degC, written once (physics/air.py)
@@ -92,8 +94,9 @@ SEVERITIES = ("hazard", "fault", "warning", "note")
 SEVERITY_RANK = {s: i for i, s in enumerate(SEVERITIES)}
 
 # Order of the sections in outputs; every stage stores its section under one of these.
-SECTION_ORDER = ("timing", "drive", "air", "flash", "exposure", "optics", "image", "eye", "led",
-                 "switch", "supply", "stuck_on", "trigger_link", "gate_link")
+SECTION_ORDER = ("timing", "drive", "timer", "air", "flash", "exposure", "banding", "optics",
+                 "image", "eye", "led", "switch", "supply", "stuck_on", "trigger_link",
+                 "gate_link")
 
 
 def jsonable(value: Any) -> Any:
@@ -188,6 +191,8 @@ class Plan:
     stuck_on: StuckOnSection | None = None
     image: ImageSection | None = None
     eye: EyeSection | None = None
+    timer: TimerSection | None = None
+    banding: BandingSection | None = None
     findings: list[Finding] = field(default_factory=list)
     skipped: dict[str, str] = field(default_factory=dict)
 

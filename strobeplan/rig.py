@@ -121,6 +121,34 @@ class Emitter(_Model):
     synthesis: Synthesis | None = None
 
 
+class Timer(_Model):
+    """The controller's general-purpose counters (a bundled profile and/or its properties)."""
+
+    profile: str | None = None
+    bits: Count(ge=4, le=64) | None = None
+    prescaler_max: Count(ge=1, le=1 << 32) | None = None
+    prescaler_power_of_two: bool | None = None
+    channels: Count(ge=1, le=64) | None = None
+    reload_per_period: bool | None = None
+    chainable: bool | None = None
+
+    def resolved(self):
+        """The resolved :class:`strobeplan.timers.TimerModel` (profile, then the keys given)."""
+        from .timers import PROFILES, TimerModel
+
+        base = PROFILES.get(self.profile) if self.profile else None
+        given = {k: v for k, v in self.__dict__.items() if k != "profile" and v is not None}
+        if base is None:
+            return TimerModel(name="custom", bits=given["bits"],
+                              prescaler_max=given.get("prescaler_max", 1),
+                              prescaler_power_of_two=given.get("prescaler_power_of_two", False),
+                              channels=given.get("channels", 2),
+                              reload_per_period=given.get("reload_per_period", False),
+                              chainable=given.get("chainable", False))
+        name = base.name + (" (modified)" if given else "")
+        return TimerModel(**{**base.__dict__, **given, "name": name})
+
+
 class Controller(_Model):
     clock: Q("frequency", gt=0, le=10e9)
     jitter_rms: Q("time", ge=0) = 0.0
@@ -128,6 +156,7 @@ class Controller(_Model):
     output_resistance: Q("resistance", ge=0) | None = None
     shared_clock: bool = True
     clock_tolerance: Q("ppm", gt=0, le=0.01) | None = None
+    timer: Timer | None = None
 
 
 class Strobe(_Model):
@@ -244,6 +273,7 @@ class Camera(_Model):
     readout: Q("time", ge=0) | None = None
     trigger_latency: Q("time", ge=0) = 0.0
     trigger_input: TriggerInput | None = None
+    trigger: Literal["input", "none"] = "input"
     object_pixel: Q("length", gt=0) | None = None
     bit_depth: Count(ge=1, le=24) = 8
     pixel_pitch: Q("length", gt=0, lt=1e-3) | None = None
@@ -663,6 +693,21 @@ def cross_check(rig: Rig, raw: dict | None = None) -> None:
             _fail(raw, "switch.gate_charge",
                   "expected at least gate_source_charge + gate_drain_charge")
     _cross_check_image(rig, raw)
+    tm = rig.controller.timer
+    if tm is not None:
+        from .timers import PROFILES
+
+        if tm.profile is not None and tm.profile not in PROFILES:
+            close = difflib.get_close_matches(tm.profile, PROFILES, n=1)
+            hint = f" (did you mean {close[0]!r}?)" if close else ""
+            _fail(raw, "controller.timer.profile",
+                  f"expected one of {', '.join(PROFILES)}{hint}")
+        if tm.profile is None and tm.bits is None:
+            _fail(raw, "controller.timer", "expected 'profile' (a bundled name) or 'bits'")
+        if tm.resolved().prescaler_power_of_two and tm.prescaler_max is not None and \
+                tm.prescaler_max & (tm.prescaler_max - 1):
+            _fail(raw, "controller.timer.prescaler_max",
+                  "expected a power of two (prescaler_power_of_two = true)")
     tl = rig.trigger_link
     if tl is not None and (tl.top is None) != (tl.bottom is None):
         _fail(raw, "trigger_link.top" if tl.top is None else "trigger_link.bottom",

@@ -65,6 +65,22 @@ MEANINGS = {
     "controller.output_resistance": "Output resistance of the controller pins.",
     "controller.shared_clock": "Emitter drive and flash timer share one clock (locked).",
     "controller.clock_tolerance": "Relative tolerance between the two clocks when not shared.",
+    "controller.timer": "The controller's general-purpose counters: a bundled `profile` and/or "
+                        "its properties (keys given override the profile's). Absent: no "
+                        "feasibility check; `strobeplan export` assumes `counter32`.",
+    "controller.timer.profile": "A bundled counter profile (table below).",
+    "controller.timer.bits": "Counter width: a period of at most 2^bits counts.",
+    "controller.timer.prescaler_max": "Largest clock divider in front of the counter "
+                                      "(1: none).",
+    "controller.timer.prescaler_power_of_two": "The divider can only be 1, 2, 4 ... "
+                                               "prescaler_max.",
+    "controller.timer.channels": "Compare channels per counter (the flash and frame counters "
+                                 "need two each).",
+    "controller.timer.reload_per_period": "A compare value can be replaced at every period "
+                                          "boundary (shadow register or DMA); a sine-weighted "
+                                          "PWM drive needs it.",
+    "controller.timer.chainable": "One counter can count another's overflows, so two act as "
+                                  "one of twice the bits.",
     "strobe": "The flash.",
     "strobe.pulse_width": "Gate-on time of one flash.",
     "strobe.phase": "Wave phase at the view at which the light's centroid should fall: 0 "
@@ -73,7 +89,9 @@ MEANINGS = {
     "strobe.every": "Flash on every N-th drive cycle.",
     "strobe.calibration_offset": "Measured extra delay of the wave (added to the chain).",
     "strobe.min_retention": "Contrast retention target at the wave frequency.",
-    "strobe.continuous": "Flash on every slot, not only inside the camera exposure.",
+    "strobe.continuous": "Flash on every slot, not only inside the camera exposure: the "
+                         "thermal load is the continuous train, and a camera's rows (or "
+                         "frames) are judged by how evenly they collect it (banding.*).",
     "sweep": "Phase sweep (steps, span) or slow motion (apparent frequency).",
     "sweep.steps": "Frames in the phase sweep.",
     "sweep.span": "Phase covered by the sweep, from strobe.phase.",
@@ -164,6 +182,9 @@ MEANINGS = {
     "camera.lens.f_number": "Lens f-number (its pupil must pass the source image).",
     "camera.binning": "Side of the square of pixels summed for the stated SNR (default 1).",
     "camera.average_frames": "Frames averaged for the stated SNR (default 1).",
+    "camera.trigger": "'input': the controller triggers each frame; 'none': free-running "
+                      "(a phone or webcam): the LED flashes continuously and the banding of "
+                      "rows (rolling) or frames (global) is checked instead of the window.",
     "trigger_link": "Resistor divider from the controller output to the camera trigger.",
     "trigger_link.series": "IEC 60063 series for the search.",
     "trigger_link.tolerance": "Resistor tolerance (default: the series' own).",
@@ -293,8 +314,14 @@ def _walk(model: type[BaseModel], prefix: str, out: list[str]) -> None:
 
 
 def rig_markdown() -> str:
+    from .timers import profile_table
+
     out = [_HEADER]
     _walk(Rig, "", out)
+    out += ["## Timer profiles (`controller.timer.profile`)", "",
+            "Named by their properties; each stands for a common class of general-purpose "
+            "microcontroller timers. Keys given beside `profile` override its values.", "",
+            profile_table(), ""]
     return "\n".join(out).rstrip() + "\n"
 
 

@@ -15,12 +15,14 @@ from .checks import run_checks
 from .design import Design
 from .plan import Plan
 from .stages import air as air_stage
+from .stages import banding as banding_stage
 from .stages import exposure as exposure_stage
 from .stages import flash as flash_stage
 from .stages import image as image_stage
 from .stages import link as link_stage
 from .stages import optics as optics_stage
 from .stages import power as power_stage
+from .stages import timer as timer_stage
 
 # (stage function, the slot it fills, or None when it returns a dict of slots). Order
 # matters: air and flash and the trigger link (its edge's delay to the camera's VIH) feed
@@ -31,7 +33,9 @@ STAGES = (
     (link_stage.compute, None),
     (timing.drive_section, "drive"),
     (timing.compute, "timing"),
+    (timer_stage.compute, "timer"),
     (exposure_stage.compute, "exposure"),
+    (banding_stage.compute, "banding"),
     (optics_stage.compute, "optics"),
     (power_stage.compute, None),
     (image_stage.compute, "image"),  # after power: the LED's currents

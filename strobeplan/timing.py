@@ -215,6 +215,33 @@ def align_camera(edge_ticks: int, spacing_ticks: int, clock: float, light_delay:
     return scalar(trigger), scalar(n), scalar(edge_ticks + j * spacing_ticks)
 
 
+def continuous_train(rig) -> bool:
+    """True when the LED flashes in every slot, not only inside a triggered exposure.
+
+    That is ``strobe.continuous = true``, no camera, or a free-running camera
+    (``camera.trigger = "none"``: nothing tells the controller when it exposes).
+    """
+    cam = rig.camera
+    return bool(rig.strobe.continuous) or cam is None or cam.trigger == "none"
+
+
+def free_running_frame(exposure: float, frame_rate: float, flash_ticks: int,
+                       clock: float) -> tuple[float, float, int]:
+    """Frame rate, window and flashes per exposure of a free-running camera.
+
+    The camera runs on its own clock, so no frame period is locked to the flashes; each
+    exposure (each row, for a rolling shutter) collects the continuous train for its whole
+    length: at least floor(exposure / flash period) flash starts.
+
+    Returns
+    -------
+    (float, float, int)
+        Frame rate [Hz], exposure window [s], fewest flash starts in one exposure [1].
+    """
+    period = np.asarray(flash_ticks) / clock
+    return frame_rate, exposure, scalar(np.floor(exposure / period + 1e-9).astype(np.int64))
+
+
 # --- sections -----------------------------------------------------------------------------
 
 
@@ -432,8 +459,13 @@ def compute(rig, design, plan) -> TimingSection:
         window = cam.exposure - readout
         trigger, n_frame, first = (np.asarray(x) for x in align_camera(
             edge, flash_ticks, clock, light_delay, light_length, lead, window))
+        if cam.trigger == "none":  # free-running: no trigger, no frame lock
+            frame_ticks = lead = trigger = first = None
+            frame_rate, window, n_frame = free_running_frame(cam.exposure, cam.frame_rate,
+                                                             flash_ticks, clock)
+            n_frame = np.asarray(n_frame)
     duty_burst = width / (flash_ticks / clock)
-    if cam is not None and not strobe.continuous:
+    if not continuous_train(rig):
         duty_avg = n_frame * width * frame_rate
     else:
         duty_avg = duty_burst
@@ -481,7 +513,7 @@ def compute(rig, design, plan) -> TimingSection:
         frame_period_ticks=scalar(frame_ticks),
         frame_rate_hz=scalar(frame_rate),
         camera_trigger_offset_ticks=scalar(trigger),
-        window_start_s=scalar(trigger / clock + lead) if cam is not None else None,
+        window_start_s=scalar(trigger / clock + lead) if lead is not None else None,
         window_s=window,
         flashes_per_frame=scalar(n_frame),
         first_flash_ticks=scalar(first),
@@ -552,7 +584,6 @@ def schedule(rig, plan, lock: Lock, steps: int | None = None) -> Schedule:
     frame_ticks = lock.frame_ticks or lock.flash_ticks
     rows: list[ScheduleRow] = []
     base = rig.strobe.phase
-    cam = rig.camera
 
     def frame_row(k: int, target, edge_in_frame: int, spacing: int) -> ScheduleRow:
         """Row for frame k whose first flash slot is ``edge_in_frame`` ticks after its start.
@@ -561,7 +592,7 @@ def schedule(rig, plan, lock: Lock, steps: int | None = None) -> Schedule:
         tick of the flash actually seen first in the window.
         """
         start = k * frame_ticks
-        if cam is not None:
+        if lock.lead is not None:
             trig, n, first = align_camera(edge_in_frame, spacing, clock, lock.light_delay,
                                           lock.light_length, lock.lead, lock.window)
         else:

@@ -245,15 +245,25 @@ def tune(rig, limits: Limits | None = None, grid: Grid | None = None, *,
             cands = [best] + [c for c in cands if c.score < best.score]
     rejected: list[dict] = []
     best_plan = None
+    # Verify through check, in order: a disagreement can only come from the rules that are
+    # not evaluated over a grid (the timer counters' discrete fits); such a candidate is
+    # listed and the next one tried.
+    for cand in cands:
+        plan = solve(candidate_rig(rig, cand))
+        if plan.verdict == cand.verdict:
+            best, best_plan = cand, plan
+            break
+        rejected.append({"pulse_width_s": cand.pulse_width_s, "every": cand.every,
+                         "series_resistor_ohm": cand.series_resistor_ohm,
+                         "supply_voltage_v": cand.supply_voltage_v,
+                         "search_verdict": cand.verdict, "check_verdict": plan.verdict,
+                         "codes": sorted(f.code for f in plan.findings
+                                         if f.severity in ("hazard", "fault"))})
+    else:
+        best = None
     if best is not None:
-        best_plan = solve(candidate_rig(rig, best))
-        if best_plan.verdict != best.verdict:  # the one engine should make this impossible
-            rejected.append({"pulse_width_s": best.pulse_width_s, "every": best.every,
-                             "series_resistor_ohm": best.series_resistor_ohm,
-                             "supply_voltage_v": best.supply_voltage_v,
-                             "search_verdict": best.verdict,
-                             "check_verdict": best_plan.verdict})
         best.limited_by = _limited_by(rig, grid, best)
+        cands = [best] + [c for c in cands if c is not best and c.score <= best.score]
     explanation = None if best is not None else _explain(excluded, only, reached, rig, grid)
     return TuneResult(
         best=best, runner_ups=cands[1:keep], frontier=_frontier(rig, grid, cloud),

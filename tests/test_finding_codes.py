@@ -80,6 +80,33 @@ CASES: dict[str, tuple[str, dict]] = {
     "gate_link.over_input_max": ("levitator-40k", {
         "controller.output": "cmos5", "gate_driver.supply": "4 V",
         "camera.trigger_input": {"family": "lvcmos33"}}),
+    # free-running camera: 1.01 ms holds 40.4 flash periods of 25 us, so frames collect 40
+    # or 41 flashes: about 1/41 = 2.4 % flicker, over the 2 % limit
+    "banding.visible": ("levitator-40k", {"camera.trigger": "none",
+                                          "camera.exposure": "1.01 ms"}),
+    # 20 us fits between two flashes 25 us apart
+    "banding.dark_rows": ("levitator-40k", {"camera.trigger": "none",
+                                            "camera.exposure": "20 us"}),
+    "banding.sweep_unsynchronised": ("rangefinder-58k", {"camera.trigger": "none",
+                                                         "camera.exposure": "8.28 ms"}),
+    # 533,232-tick frame > 256 counts x 1024 prescaler = 262,144 ticks
+    "timer.count_overflow": ("rangefinder-58k", {
+        "controller.timer": {"profile": "counter8-prescale-pow2"}}),
+    # 20 Hz: 1,449 flash periods of 552 ticks = 799,848 ticks = 8 x 99,981 (odd): a 16-bit
+    # counter needs a prescaler >= 799,848 / 65,536 = 12.2, and of 16, 32 ... 1024 none
+    # divides it
+    "timer.prescaler_breaks_lock": ("rangefinder-58k", {
+        "camera.frame_rate": "20 Hz", "controller.timer": {
+            "bits": 16, "prescaler_max": 1024, "prescaler_power_of_two": True}}),
+    # 2,000,000-tick frame: prescaler >= 31 for 16 bits; 32 divides 2,000,000 = 2^7 x 5^6
+    "timer.prescaler_needed": ("levitator-40k", {
+        "controller.timer": {"profile": "counter16-prescale16", "chainable": False}}),
+    "timer.counter_chained": ("rangefinder-58k", {"controller.timer": {"profile": "counter16"}}),
+    "timer.too_few_channels": ("levitator-40k", {
+        "controller.timer": {"profile": "counter32", "channels": 1}}),
+    "timer.no_compare_reload": ("levitator-40k", {
+        "controller.timer": {"profile": "counter32", "reload_per_period": False}}),
+    "timer.absolute_ticks_wrap": ("levitator-40k", {"controller.timer": {"profile": "counter32"}}),
     **POWER_CASES,  # the power stage's own table (one case per led./switch./supply./stuck_on.)
 }
 

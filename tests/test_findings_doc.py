@@ -23,7 +23,8 @@ def test_doc_and_registry_list_the_same_codes():
         assert r.trigger and r.fix  # every code says what triggers it and how to fix it
         assert r.code.split(".")[0] in {
             "timing", "drive", "air", "exposure", "optics", "led", "switch", "supply",
-            "stuck_on", "trigger_link", "gate_link", "safety", "plan", "image", "eye"}
+            "stuck_on", "trigger_link", "gate_link", "safety", "plan", "image", "eye",
+            "timer", "banding"}
 
 
 def test_rig_format_doc_is_current():

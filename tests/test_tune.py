@@ -162,10 +162,16 @@ def test_tune_verdict_equals_check(case):
     ev = tuner.evaluate(rig, design)
     for k, values in enumerate(designs):
         plan = solve(tuner.candidate_rig(rig, _candidate(values)))
-        assert ("pass", "warn", "fail")[int(ev.verdict[k])] == plan.verdict, (values, sorted(
-            f.code for f in plan.findings), sorted(c for c, m in ev.masks.items() if m[k]))
+        # The timer counters' discrete fits are the one domain the grid does not evaluate
+        # (tune verifies its choice through check instead): compare everything else.
+        found = [f for f in plan.findings if not f.code.startswith("timer.")]
+        severities = {f.severity for f in found}
+        verdict = ("fail" if severities & {"hazard", "fault"} else
+                   "warn" if "warning" in severities else "pass")
         fired = {c for c, m in ev.masks.items() if m[k]}
-        assert fired == {f.code for f in plan.findings}
+        assert ("pass", "warn", "fail")[int(ev.verdict[k])] == verdict, (
+            values, sorted(f.code for f in found), sorted(fired))
+        assert fired == {f.code for f in found}
 
 
 def test_issue_reproductions_agree(levitator):

@@ -22,6 +22,8 @@ def no_flash_in_exposure(plan):
     t, cam = plan.timing, plan.rig.camera
     if cam is None or cam.shutter == "rolling":
         return None
+    if plan.banding is not None and plan.banding.free_running:  # banding.* judge it
+        return None
     return Hit(lambda: f"the {render(t.window_s, 'time')} exposure is shorter than one light "
                f"pulse ({render(plan.flash.light_length_s, 'time')}): the frame stays dark",
                value=t.window_s, limit=plan.flash.light_length_s, unit="s",
@@ -30,12 +32,15 @@ def no_flash_in_exposure(plan):
 
 @rule("timing.rolling_window_too_short", "fault",
       trigger="rolling shutter and exposure - readout is shorter than one light pulse, so "
-              "no flash can light every row",
+              "no flash can light every row (a continuous train or a free-running camera is "
+              "judged by banding.* instead)",
       fix="lengthen camera.exposure beyond camera.readout by at least one flash period, or "
           "use a global-shutter camera")
 def rolling_window_too_short(plan):
     t, cam = plan.timing, plan.rig.camera
     if cam is None or cam.shutter != "rolling":
+        return None
+    if plan.banding is not None:
         return None
     return Hit(lambda: f"all rows expose together for only {render(t.window_s, 'time')} "
                f"(exposure {render(cam.exposure, 'time')} - readout "

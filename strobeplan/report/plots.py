@@ -140,7 +140,7 @@ def flash_starts(plan) -> tuple[np.ndarray, np.ndarray]:
     """
     t, fl, rig = plan.timing, plan.flash, plan.rig
     period = t.flash_period_ticks * t.tick_s
-    cam = rig.camera
+    cam = rig.camera if t.window_start_s is not None else None  # None: no triggered window
     burst = cam is not None and not rig.strobe.continuous and t.mode != "slow_motion"
     if burst:
         n = int(t.flashes_per_frame or 0)
@@ -150,8 +150,8 @@ def flash_starts(plan) -> tuple[np.ndarray, np.ndarray]:
     end = (t.window_start_s + t.window_s) if cam is not None else 4 * period
     n = min(20_000, int(max(1, math.ceil(end * 1.05 / period) + 1)))
     starts = t.flash_edge_s + fl.delay_s + period * np.arange(n)
-    if cam is None:
-        return starts, np.zeros(n, dtype=bool)
+    if cam is None:  # no camera: none inside; free-running: every flash reaches some rows
+        return starts, np.full(n, rig.camera is not None, dtype=bool)
     w0, w1 = t.window_start_s, t.window_start_s + t.window_s
     inside = (starts >= w0 - 1e-12) & (starts + fl.light_length_s <= w1 + 1e-12)
     return starts, inside
@@ -185,7 +185,7 @@ def _frame_panel(plan, ax):
     """Lanes over one frame: flashes (stems), camera exposure, all-rows window (bars)."""
     t, rig = plan.timing, plan.rig
     starts, inside = flash_starts(plan)
-    cam = rig.camera
+    cam = rig.camera if t.window_start_s is not None else None  # None: no triggered window
     lanes = {"flashes": 0.5}
     if cam is not None:
         lanes["exposure"] = 1.45

@@ -36,6 +36,7 @@ from ..physics import supply as supply_model
 from ..physics import switching as sw_model
 from ..physics import thermal as thermal_model
 from ..plan import Section, q, scalar
+from ..timing import continuous_train
 
 
 @dataclass
@@ -153,7 +154,7 @@ def flash_pattern(rig, timing) -> Pattern:
     """Burst of flashes_per_frame every frame, or a continuous train (``strobe.continuous``,
     no camera, or no flash in the exposure)."""
     spacing = np.asarray(timing.flash_period_ticks) * timing.tick_s
-    if rig.strobe.continuous or rig.camera is None or timing.frame_rate_hz is None:
+    if continuous_train(rig) or timing.frame_rate_hz is None:
         n = np.zeros_like(spacing)
         frame_len = spacing
     else:
