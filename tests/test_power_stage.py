@@ -164,6 +164,7 @@ def test_junction_peak_never_falls_with_peak_current(r1, k):
     assert hi.led.junction_peak_c >= lo.led.junction_peak_c - 1e-9
 
 
+@pytest.mark.slow
 @BOUNDED
 @given(w=st.floats(0.2, 6.0), k=st.floats(1.0, 3.0))
 def test_junction_peak_never_falls_with_pulse_width(w, k):
@@ -202,6 +203,7 @@ def _hazard_conditions(plan):
     return cond
 
 
+@pytest.mark.slow
 @settings(max_examples=60, deadline=None)
 @given(
     vs=st.floats(6.0, 48.0), rser=st.floats(0.2, 20.0), drive=st.floats(3.0, 15.0),

@@ -78,23 +78,20 @@ def test_cramer_check_values():
 
 
 @pytest.mark.parametrize("t_c", [0.0, 10.0, 20.0, 30.0])
-def test_cramer_against_coolprop_dry(t_c):
-    # Oracle: CoolProp PropsSI('A') for dry air; models agree within 0.05 m/s (issue 2).
-    from CoolProp.CoolProp import PropsSI
-
+def test_cramer_against_coolprop_dry(t_c, coolprop):
+    # Oracle: CoolProp PropsSI('A') for dry air; models agree within 0.05 m/s
+    # (docs/references.md, "Air").
     t = t_c + 273.15
-    ref = PropsSI("A", "T", t, "P", 101325.0, "Air")
+    ref = coolprop.PropsSI("A", "T", t, "P", 101325.0, "Air")
     assert air.speed_of_sound(t, 0.0, 101325.0) == pytest.approx(ref, abs=0.05)
 
 
 @pytest.mark.parametrize("t_c, rh", [(10.0, 0.5), (20.0, 0.5), (25.0, 0.3), (30.0, 0.8)])
-def test_cramer_against_coolprop_humid(t_c, rh):
+def test_cramer_against_coolprop_humid(t_c, rh, coolprop):
     # Oracle: CoolProp HAPropsSI('speed_of_sound') (20 degC 50 %: 343.963 m/s per
     # references.md); within 0.05 m/s.
-    from CoolProp.CoolProp import HAPropsSI
-
     t = t_c + 273.15
-    ref = HAPropsSI("speed_of_sound", "T", t, "P", 101325.0, "R", rh)
+    ref = coolprop.HAPropsSI("speed_of_sound", "T", t, "P", 101325.0, "R", rh)
     assert air.speed_of_sound(t, rh, 101325.0) == pytest.approx(ref, abs=0.05)
 
 

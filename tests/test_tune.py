@@ -58,6 +58,7 @@ def brute_force(rig, grid, limits):
     return best, best_key, feasible, violations
 
 
+@pytest.mark.slow
 def test_vectorised_equals_brute_force_through_solve(levitator):
     # Oracle: the ordinary solve path (every stage and check), one candidate at a time.
     rig, base = levitator

@@ -47,6 +47,7 @@ def test_pulse_train_equals_brute_force():
     assert_allclose(th.pulse_train_peak(3.0, 10e-6, 1e-3, R, TAU), bf.max(), rtol=1e-9)
 
 
+@pytest.mark.slow
 @settings(max_examples=25, deadline=None)
 @given(
     n=st.integers(1, 12),
