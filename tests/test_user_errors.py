@@ -84,14 +84,17 @@ def test_a_missing_section_and_a_bad_value_are_both_listed():
 # /proc and /sys look like writable folders (root may write there) but refuse new files.
 # On a system without them the folder check refuses first: exit 2 either way.
 @pytest.mark.parametrize("target", ["/proc/x", "/sys/x", "/proc/strobeplan.csv"])
-@pytest.mark.parametrize("command", [
-    ("schedule", str(example("levitator-40k"))),
-    ("report", str(example("rangefinder-58k"))),
-    ("new",),
-])
+@pytest.mark.parametrize("command", [("schedule", str(example("levitator-40k"))), ("new",)])
 def test_pseudo_filesystem_target_exits_2(command, target):
     line = _one_error_line(run_cli(*command, "-o", target))
     assert target in line
+
+
+def test_report_to_a_pseudo_filesystem_exits_2():
+    # the report is built in full before it is written: the minimal rig keeps that short
+    line = _one_error_line(run_cli("report", "-", "-o", "/sys/r.html",
+                                   input=tomli_w.dumps(MINIMAL)))
+    assert "/sys/r.html" in line
 
 
 def test_write_atomic_turns_a_refused_temporary_file_into_output_error():
