@@ -1,7 +1,8 @@
 """The typed result of :func:`strobeplan.solve`: a Plan of sections and findings.
 
 A section is a dataclass whose field names carry their SI unit as a suffix (``_s``,
-``_hz``, ``_v`` ...; design §4), so the JSON and the text output need no per-section code.
+``_hz``, ``_v`` ...; the plan JSON contract), so the JSON and the text output need no
+per-section code.
 """
 
 from __future__ import annotations

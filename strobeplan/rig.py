@@ -1,4 +1,4 @@
-"""The rig file (design §3, a contract): pydantic models holding SI floats.
+"""The rig file (a contract, docs/rig-format.md): pydantic models holding SI floats.
 
 A rig file is TOML; every dimensioned value is a string with its unit ("40 kHz", "1.5 us",
 "2.2 kohm", "23 degC", "45 %"); plain numbers only for counts and ratios. Unknown keys are

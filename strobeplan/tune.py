@@ -136,7 +136,7 @@ class Grid:
 
 @dataclass
 class Design:
-    """One candidate rig with its figures (SI; JSON keys per issue 6)."""
+    """One candidate rig with its figures (SI; JSON keys as `tune --json` documents them)."""
 
     pulse_width_s: float
     series_resistor_ohm: float

@@ -62,7 +62,8 @@ def _run_ngspice(netlist, tmp_path):
     out = subprocess.run([exe, "-n", "-b", str(cir)], capture_output=True, text=True,
                          cwd=tmp_path, timeout=60)
     assert out.returncode == 0, out.stderr
-    # references.md: parse only after "Measurements for"; a failed .meas still exits 0
+    # docs/references.md, "ngspice in tests": parse only after "Measurements for"; a failed .meas
+    # still exits 0
     text = out.stdout.split("Measurements for", 1)
     assert len(text) == 2, out.stdout
     values = {}
@@ -81,7 +82,7 @@ def test_operating_point_matches_ngspice(rig, tmp_path):
     op = led.pulse_operating_point(vs, c, esr, rser, ron, ib, tp, fit.n_vt,
                                    fit.saturation_current, fit.series_resistance)
     ng = _run_ngspice(_netlist(vs, c, esr, rser, ron, ib, tp, fit), tmp_path)
-    # issue 4: within 1 % (measured here: all four quantities agree to better than 3e-6)
+    # within 1 % (measured here: all four quantities agree to better than 3e-6)
     np.testing.assert_allclose(op.peak_current, ng["ipk"], rtol=0.01)
     np.testing.assert_allclose(op.charge, ng["qp"], rtol=0.01)
     np.testing.assert_allclose(op.end_voltage, ng["vend"], rtol=0.01)

@@ -70,7 +70,7 @@ def test_dom_holds_every_finding_code_and_the_plots(pages, tmp_path):
     for name, (path, plan) in pages.items():
         dom = dump_dom(tmp_path, path)
         codes = {f.code for f in plan.findings}
-        if name == "unsafe-bench":  # the deliberately bad rig must trip hazards (design §7)
+        if name == "unsafe-bench":  # the deliberately bad rig must trip hazards (README.md)
             assert any(f.severity == "hazard" for f in plan.findings)
         for code in codes:
             assert code in dom, (name, code)

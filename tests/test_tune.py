@@ -1,4 +1,4 @@
-"""`strobeplan tune` (issue 6): the vectorised search against the ordinary solve path.
+"""`strobeplan tune`: the vectorised search against the ordinary solve path.
 
 The oracle of the search is the program's own scalar path: every candidate of a small grid is
 turned into a rig, solved with :func:`strobeplan.solve` (which runs every stage and every

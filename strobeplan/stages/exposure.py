@@ -33,7 +33,7 @@ from .air import AirSection
 
 @dataclass
 class AirPropertiesSection(AirSection):
-    """The air section with density and absorption (design §4 ``air``)."""
+    """The air section with density and absorption (plan JSON ``air``)."""
 
     density_kg_m3: float
     absorption_db_m: float
