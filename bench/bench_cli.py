@@ -1,4 +1,4 @@
-"""Cold-start timings of the CLI (design §2 targets), medians of repeated fresh processes.
+"""Cold-start timings of the CLI (targets: 150 ms and 400 ms), medians of repeated fresh processes.
 
 Targets: `strobeplan --help` <= 150 ms; `strobeplan check configs/levitator-40k.toml --json`
 <= 400 ms median cold; printed next to the bare `import numpy, pydantic, click` time.

@@ -1,4 +1,4 @@
-"""Benchmarks for the trigger-link divider search (issue 5 targets).
+"""Benchmarks for the trigger-link divider search (targets below).
 
 - full E192 search (961 values, 923 521 pairs) in process: target <= 0.2 s
 - `strobeplan divider --from lvcmos33 --to lvcmos18 --series E192` wall time: target <= 1 s

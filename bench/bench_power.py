@@ -1,4 +1,4 @@
-"""Benchmark of the power-stage physics (issue 4 target).
+"""Benchmark of the power-stage physics (target below).
 
 Target: operating point and burst peak for 1e5 candidate rigs, vectorised, in <= 0.5 s.
 Also runs ngspice on a sample of the same circuits and prints the speed ratio per circuit

@@ -1,4 +1,4 @@
-"""Benchmark of `strobeplan tune` (issue 6 targets): candidates per second on one core
+"""Benchmark of `strobeplan tune` (targets below): candidates per second on one core
 (target >= 1e6/s), speed-up over a scalar loop over the same candidates (target >= 100x),
 and peak memory of a 1e7-candidate search (target < 500 MB).
 

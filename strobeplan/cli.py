@@ -1,4 +1,6 @@
-"""Command line (design §5). Thin: parse arguments, call the solver, render. No physics.
+"""Command line (names and exit codes as README.md, "A short tour", documents them).
+
+Thin: parse arguments, call the solver, render. No physics.
 
 Exit status: 0 pass or warn, 1 fail (a hazard or fault), 2 bad input or usage, 3 internal
 error. Heavy modules (numpy, pydantic, the solver) are imported inside the commands so
@@ -428,7 +430,7 @@ def schema(output):
 
 
 def main(argv=None) -> None:
-    """Console entry point: maps every outcome to the exit codes of design §5."""
+    """Console entry point: maps every outcome to the documented exit codes."""
     import os
 
     # pydantic scans every installed distribution for plugins on first use (5-8 ms measured

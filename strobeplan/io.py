@@ -35,7 +35,12 @@ def write_atomic(path: str | Path, data: str | bytes) -> None:
     """Write ``data`` to ``path`` so that readers see the old file or the whole new one."""
     p = check_target(path)
     raw = data.encode("utf-8") if isinstance(data, str) else data
-    fd, tmp = tempfile.mkstemp(prefix=f".{p.name}.", suffix=".tmp", dir=p.parent or ".")
+    try:
+        # Pseudo-filesystems (/proc, /sys) and read-only mounts refuse the temporary file
+        # although the folder looks writable.
+        fd, tmp = tempfile.mkstemp(prefix=f".{p.name}.", suffix=".tmp", dir=p.parent or ".")
+    except OSError as exc:
+        raise OutputError(f"{p}: cannot be written ({exc.strerror})") from None
     try:
         with os.fdopen(fd, "wb") as fh:
             fh.write(raw)

@@ -1,4 +1,4 @@
-"""The rig file (design §3, a contract): pydantic models holding SI floats.
+"""The rig file (a contract, docs/rig-format.md): pydantic models holding SI floats.
 
 A rig file is TOML; every dimensioned value is a string with its unit ("40 kHz", "1.5 us",
 "2.2 kohm", "23 degC", "45 %"); plain numbers only for counts and ratios. Unknown keys are
@@ -459,7 +459,7 @@ def rig_from_dict(raw: dict[str, Any]) -> Rig:
     try:
         rig = Rig.model_validate(raw)
     except ValidationError as exc:
-        raise _first_error(exc, raw) from None
+        raise _validation_error(exc, raw) from None
     cross_check(rig, raw)
     return rig
 
@@ -537,21 +537,41 @@ def _path(loc) -> str:
     return out
 
 
-def _first_error(exc: ValidationError, raw) -> RigError:
+def _validation_error(exc: ValidationError, raw) -> RigError:
+    """All of pydantic's problems as one RigError line: the first in full, then every other.
+
+    The first problem gives the error its key path and value; the others follow on the same
+    line, each as ``; also PATH = VALUE: EXPECTED``, so nothing is hidden behind a count.
+    """
     errors = exc.errors(include_url=False)
     # Prefer the most informative error: drop union-branch noise about None.
     errors = [e for e in errors if e["type"] != "none_required"] or errors
     # An unknown key usually explains a "missing" one (a typo): report it first.
     errors.sort(key=lambda e: e["type"] != "extra_forbidden")
-    err = errors[0]
+    problems: list[RigError] = []
+    seen: set[str] = set()
+    guessed: set[str] = set()
+    for err in errors:
+        problem, guess = _one_error(err, raw)
+        if problem.path in seen or (err["type"] == "missing" and problem.path in guessed):
+            continue  # one problem per key; a missing key a typo's "did you mean" names
+        seen.add(problem.path)
+        if guess is not None:
+            guessed.add(guess)
+        problems.append(problem)
+    first = problems[0]
+    also = "".join(f"; also {p}" for p in problems[1:])
+    return RigError(first.path, first.value, first.expected + also)
+
+
+def _one_error(err, raw) -> tuple[RigError, str | None]:
+    """One pydantic error as a RigError, and the key path a "did you mean" proposes."""
     loc = tuple(p for p in err["loc"] if not (isinstance(p, str) and p.startswith("function-")))
     loc = tuple(p for p in loc if p not in ("float", "int", "str", "bool", "list"))
     path = _path(loc)
     value = _lookup(raw, loc)
     kind = _field_kind(loc) if loc else None
     etype = err["type"]
-    more = f" (and {len(errors) - 1} more problem{'s' if len(errors) > 2 else ''})" \
-        if len(errors) > 1 else ""
     if etype == "extra_forbidden":
         model = _model_at(loc[:-1])
         names = list(model.model_fields) if model else []
@@ -559,11 +579,12 @@ def _first_error(exc: ValidationError, raw) -> RigError:
         hint = f"; did you mean '{guess[0]}'?" if guess else ""
         where = _path(loc[:-1]) or "the top level"
         known = ", ".join(names)
-        return RigError(path, value, f"unknown key in {where}{hint} (known: {known}){more}")
+        proposed = _path((*loc[:-1], guess[0])) if guess else None
+        return RigError(path, value, f"unknown key in {where}{hint} (known: {known})"), proposed
     if etype == "missing":
         what = f"a {kind.replace('_', ' ')} like '{units.kind_example(kind)}'" if kind \
             else "a value"
-        return RigError(path, MISSING, f"required key is missing: expected {what}{more}")
+        return RigError(path, MISSING, f"required key is missing: expected {what}"), None
     msg = err["msg"]
     if msg.startswith("Value error, "):
         msg = msg[len("Value error, "):]
@@ -589,7 +610,7 @@ def _first_error(exc: ValidationError, raw) -> RigError:
         msg = "expected a list [ ... ]"
     if etype in ("string_type", "bool_type", "bool_parsing"):
         msg = msg.replace("Input should be", "expected")
-    return RigError(path, value, msg + more)
+    return RigError(path, value, msg), None
 
 
 def _fail(raw, path: str, expected: str):

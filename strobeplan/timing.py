@@ -265,7 +265,7 @@ class DriveSection(Section):
 
 @dataclass
 class TimingSection(Section):
-    """Timer settings and what they achieve (design §4 ``timing``)."""
+    """Timer settings and what they achieve (plan JSON ``timing``)."""
 
     tick_s: float = q("time")
     drive_frequency_hz: float = q("frequency")

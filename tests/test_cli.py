@@ -1,4 +1,4 @@
-"""CLI contract (design §4, §5): JSON keys, exit codes, one-line bad-input errors."""
+"""CLI contract (README.md, `strobeplan schema`): JSON keys, exit codes, one-line errors."""
 
 from __future__ import annotations
 
@@ -159,7 +159,7 @@ def test_console_script_exit_codes_and_no_traceback(tmp_path):
 
 
 def test_check_imports_no_heavy_modules():
-    # design §2: the check path must not load matplotlib, scipy or pint.
+    # DEVELOPERS.md: the check path must not load matplotlib, scipy or pint.
     code = (
         "import sys\n"
         "from strobeplan.cli import main\n"

@@ -1,4 +1,4 @@
-"""Exposure and optics end to end: through strobeplan.solve and the CLI JSON (design §4).
+"""Exposure and optics end to end: through strobeplan.solve and the CLI JSON.
 
 Each check value is recomputed here from the published formula with numpy or an external
 library, not read back from the module under test.
@@ -48,7 +48,7 @@ def test_json_sections(name):
 
 
 def test_text_output_shows_the_answers():
-    # The issue's "done when": retention, blur in pixels, widest pulse, SPL, visibility.
+    # What `check` must answer: retention, blur in pixels, widest pulse, SPL, visibility.
     out = run_cli("check", example("levitator-40k")).output
     for label in ("retention", "blur pixels", "max pulse width", "spl at view",
                   "visible contrast", "saturated"):
@@ -113,7 +113,8 @@ def test_air_absorption_matches_acoustic_toolbox_at_the_drive_frequency():
 
 def test_retention_is_sinc_times_jitter_for_ideal_edges():
     # Rectangle (no edge data, no phosphor) and 3 ns controller + 4 ns gate-driver jitter:
-    # |sinc(f w)| exp(-2 pi^2 f^2 sigma^2) with sigma = 5 ns (references.md, Johnson 1993).
+    # |sinc(f w)| exp(-2 pi^2 f^2 sigma^2) with sigma = 5 ns (docs/references.md, "Exposure";
+    # Johnson 1993).
     plan = plan_of("unsafe-bench", {"controller.jitter_rms": "3 ns",
                                     "gate_driver.jitter_rms": "4 ns",
                                     "strobe.pulse_width": "2 us", **IDEAL_EDGES})
@@ -124,8 +125,8 @@ def test_retention_is_sinc_times_jitter_for_ideal_edges():
 
 
 def test_optics_chain_for_a_given_spl():
-    # references.md worked chain, recomputed here: p = sqrt2 20 uPa 10^(SPL/20),
-    # rho' = p/c^2, n' = K rho' with K(630 nm) = 2.2244e-4 (1 + (63.7132/630)^2),
+    # docs/references.md, "Acoustics and schlieren", worked chain, recomputed here: p = sqrt2 20 uPa
+    # 10^(SPL/20), rho' = p/c^2, n' = K rho' with K(630 nm) = 2.2244e-4 (1 + (63.7132/630)^2),
     # eps = passes L k n', C = f2 eps / a (Settles 2001 eq. 3.6).
     plan = plan_of("levitator-40k")
     o, opt = plan.optics, plan.rig.optics
@@ -141,8 +142,8 @@ def test_optics_chain_for_a_given_spl():
 
 
 def test_spl_estimate_follows_the_datasheet():
-    # references.md far-field form: SPL(r) = SPL(r0) + 20 log10(V/Vref) - 20 log10(r/r0)
-    # - alpha (r - r0) - detuning; resonance = drive here, so no detuning loss;
+    # docs/references.md, "Acoustics and schlieren", far field: SPL(r) = SPL(r0) + 20 log10(V/Vref)
+    # - 20 log10(r/r0) - alpha (r - r0) - detuning; resonance = drive here, so no detuning loss;
     # alpha from acoustic-toolbox.
     plan = plan_of("unsafe-bench")
     a = plan.rig.air
@@ -182,8 +183,8 @@ def test_code_is_reachable(code):
 
 
 def test_retention_unreachable_hint():
-    # 2 us of jitter at 40 kHz keeps exp(-2 pi^2 (f sigma)^2) = exp(-2 pi^2 0.08^2) = 0.881
-    # < 0.9 (Gaussian jitter, references.md), so no pulse width can reach the target and
+    # 2 us of jitter at 40 kHz keeps exp(-2 pi^2 (f sigma)^2) = exp(-2 pi^2 0.08^2) = 0.881 < 0.9
+    # (Gaussian jitter, docs/references.md, "Exposure"), so no pulse width can reach the target and
     # the hint says so.
     plan = plan_of("levitator-40k", {"controller.jitter_rms": "2 us"})
     found = {f.code: f for f in plan.findings}
@@ -197,8 +198,9 @@ def test_phosphor_note_not_raised_for_long_pulse():
 
 
 def test_saturation_threshold():
-    # Linear until |C| = 1 (references.md): the levitator's contrast C0 at its opening a0
-    # scales as 1/a, so a0 x C0 / 1.2 (C = 1.2) saturates and a0 x C0 / 0.8 does not.
+    # Linear until |C| = 1 (docs/references.md, "Acoustics and schlieren"): the levitator's
+    # contrast C0 at its opening a0 scales as 1/a, so a0 x C0 / 1.2 (C = 1.2) saturates and
+    # a0 x C0 / 0.8 does not.
     base = plan_of("levitator-40k")
     c0, a0 = base.optics.contrast, base.rig.optics.cutoff_opening * 1e3
     sat = plan_of("levitator-40k", {"optics.cutoff_opening": f"{a0 * c0 / 1.2:.6g} mm"})

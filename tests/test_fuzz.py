@@ -13,6 +13,7 @@ import math
 import re
 
 import jsonschema
+import pytest
 import tomli_w
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
@@ -179,6 +180,7 @@ def test_absurd_magnitudes(raw, tmp_path_factory):
     _assert_contract(run_cli("check", rig, "--json"))
 
 
+@pytest.mark.slow
 @settings(max_examples=60, deadline=None,
           suppress_health_check=[HealthCheck.too_slow, HealthCheck.function_scoped_fixture])
 @given(data=st.one_of(st.binary(max_size=200), st.text(max_size=200).map(str.encode)))
@@ -219,6 +221,7 @@ SLOW = settings(max_examples=12, deadline=None,
                 suppress_health_check=[HealthCheck.too_slow, HealthCheck.function_scoped_fixture])
 
 
+@pytest.mark.slow
 @SLOW
 @given(raw=mutated_rig(), kind=st.sampled_from(
     ["timing", "pulse", "thermal", "divider", "sweep", "tradeoff"]),
@@ -233,6 +236,7 @@ def test_mutated_rigs_plot(raw, kind, suffix, tmp_path_factory):
     assert (d / f"p{suffix}").exists() == (r.exit_code == 0)
 
 
+@pytest.mark.slow
 @settings(max_examples=5, deadline=None,
           suppress_health_check=[HealthCheck.too_slow, HealthCheck.function_scoped_fixture])
 @given(raw=mutated_rig())

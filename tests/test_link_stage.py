@@ -1,4 +1,4 @@
-"""Trigger-link stage, its findings, and the `divider` command (issue 5, design §4/§5)."""
+"""Trigger-link stage, its findings, and the `divider` command (plan JSON, README.md)."""
 
 from __future__ import annotations
 
@@ -11,7 +11,7 @@ from strobeplan.rig import rig_from_dict
 from strobeplan.solve import solve
 from tests.conftest import example, run_cli
 
-# design §4 contract keys of the trigger_link section
+# plan JSON contract keys of the trigger_link section
 LINK_KEYS = {"top_ohm", "bottom_ohm", "v_high_min_v", "v_high_max_v", "v_low_max_v",
              "edge_time_s", "current_a"}
 
@@ -35,8 +35,9 @@ def _codes(plan):
 
 
 def test_unsafe_bench_trips_over_input_maximum():
-    # design §7: unsafe-bench's 1 k over 2 k from 3.3 V into 1.8 V is 2.2 V nominal, above
-    # VDD + 0.3 V = 1.95 V at 1.65 V (references.md [src2])
+    # README.md, bundled examples: unsafe-bench's 1 k over 2 k from 3.3 V into 1.8 V is
+    # 2.2 V nominal, above VDD + 0.3 V = 1.95 V at 1.65 V (docs/references.md, "Logic levels
+    # (JEDEC)" [src2])
     plan = solve(_rig("unsafe-bench"))
     assert "trigger_link.over_input_max" in _codes(plan)
     f = next(f for f in plan.findings if f.code == "trigger_link.over_input_max")
@@ -127,10 +128,10 @@ def test_unknown_family_is_bad_input():
     assert r.exit_code == 2 and "controller.output" in r.output
 
 
-# --- the divider command (design §5) ---------------------------------------------------------
+# --- the divider command (README.md) ---------------------------------------------------------
 
 def test_divider_check_1k_2k_is_over_input_maximum():
-    # issue 5: `--check 1k 2k` (1 k on top) is flagged over the input maximum
+    # `--check 1k 2k` (1 k on top) is flagged over the input maximum
     r = run_cli("divider", "--from", "lvcmos33", "--to", "lvcmos18", "--tolerance", "1%",
                 "--check", "1k", "2k", "--json")
     data = json.loads(r.output)

@@ -43,6 +43,7 @@ def _text(cell) -> str:
     return "".join(out)
 
 
+@pytest.mark.slow
 def test_notebook_runs(tmp_path, monkeypatch):
     _kernel_here(tmp_path, monkeypatch)
     nb = nbformat.read(NOTEBOOK, as_version=4)

@@ -1,9 +1,9 @@
-"""Plots (issue 7): each returns a Figure with the expected artists, labels and axis units.
+"""Plots: each returns a Figure with the expected artists, labels and axis units.
 
 Assertions are on artists (lines, collections, labels, formatters), never on pixels. Check
 values come from outside the plots: the temporal MTF of a rectangular flash (|sinc|,
-Boreman 2001), the exact Foster pulse-train peak of references.md, JEDEC JESD8-7A levels,
-and the tick arithmetic of the rig.
+Boreman 2001), the exact Foster pulse-train peak of docs/references.md, "Power stage",
+JEDEC JESD8-7A levels, and the tick arithmetic of the rig.
 """
 
 from __future__ import annotations
@@ -37,7 +37,7 @@ phase = "{phase}"
 """
 
 # A continuous train (no camera) of 10 us pulses every 1 ms (every = 40 at 40 kHz) into the
-# four-term Foster network of references.md ("Power stage").
+# four-term Foster network of docs/references.md, "Power stage".
 FOSTER = """
 name = "foster"
 [wave]
@@ -236,9 +236,9 @@ def test_timing_centroid_tracks_any_phase(phase, width):
 
 
 @pytest.mark.parametrize("width, expected", [
-    ("1 us", 0.997370),    # references.md, Exposure: |sinc(40 kHz x 1 us)| [calc]
-    ("5 us", 0.935489),    # references.md: |sinc(0.2)| [calc]
-    ("12.5 us", 2 / math.pi),  # references.md: |sinc(0.5)| = 2/pi [calc]
+    ("1 us", 0.997370),    # docs/references.md, "Exposure": |sinc(40 kHz x 1 us)| [calc]
+    ("5 us", 0.935489),    # docs/references.md, "Exposure": |sinc(0.2)| [calc]
+    ("12.5 us", 2 / math.pi),  # docs/references.md, "Exposure": |sinc(0.5)| = 2/pi [calc]
 ])
 def test_pulse_retention_of_a_rectangle_is_sinc(width, expected):
     """Ideal edges, no phosphor, no jitter: the temporal MTF of a rectangular exposure is
@@ -335,9 +335,9 @@ def test_thermal_peak_matches_the_exact_pulse_train():
     trace = one(frame, "junction (steady state)")
     power = plan.led.heat_per_pulse_j / 10e-6
     rise = max(trace.get_ydata()) - 25.0  # default led.ambient 25 degC
-    # references.md, Power stage: tp 10 us, T 1 ms on R = [0.05, 0.2, 0.5, 0.25] K/W,
-    # tau = [10 us, 100 us, 1 ms, 10 ms]: exact periodic peak 0.061136 K/W [calc, equals
-    # brute-force superposition].
+    # docs/references.md, "Power stage": tp 10 us, T 1 ms on R = [0.05, 0.2, 0.5, 0.25] K/W,
+    # tau = [10 us, 100 us, 1 ms, 10 ms]: exact periodic peak 0.061136 K/W [calc, equals brute-force
+    # superposition].
     assert rise / power == pytest.approx(0.061136, rel=1e-4)
     assert one(frame, "junction limit 150").get_ydata()[0] == pytest.approx(150.0)
     # no camera: the top panel shows ten flash periods of 1 ms, the zoom one of them

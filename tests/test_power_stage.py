@@ -1,8 +1,8 @@
-"""End-to-end tests of the power stage (issue 4): sections, JSON, findings, invariants.
+"""End-to-end tests of the power stage: sections, JSON, findings, invariants.
 
-Oracles: design §4 (JSON keys) and §7 (what each example rig must do); scipy.optimize.brentq
-for the stuck-on DC current; each hazard's condition re-evaluated from its definition in
-issue 4 against the plan's own figures.
+Oracles: the plan JSON contract (keys) and README.md (what each example rig must do);
+scipy.optimize.brentq for the stuck-on DC current; each hazard's condition re-evaluated from
+its trigger in docs/findings.md against the plan's own figures.
 """
 
 from __future__ import annotations
@@ -20,7 +20,7 @@ from tests.conftest import EXAMPLES, example, plan_of, run_cli
 
 BOUNDED = settings(max_examples=30, deadline=None)
 
-# design §4 (contract) keys, plus the ones this stage adds that other code relies on
+# plan JSON contract keys, plus the ones this stage adds that other code relies on
 KEYS = {
     "led": {"peak_current_a", "pulse_energy_j", "average_power_w", "junction_peak_c",
             "thermal_margin_k", "droop_v", "rated_pulse_current_a"},
@@ -167,6 +167,7 @@ def test_junction_peak_never_falls_with_peak_current(r1, k):
     assert hi.led.junction_peak_k >= lo.led.junction_peak_k - 1e-9
 
 
+@pytest.mark.slow
 @BOUNDED
 @given(w=st.floats(0.2, 6.0), k=st.floats(1.0, 3.0))
 def test_junction_peak_never_falls_with_pulse_width(w, k):
@@ -186,7 +187,7 @@ def test_junction_peak_never_falls_with_flashes_per_frame(e1, k):
 
 
 def _hazard_conditions(plan):
-    """Issue 4's hazard conditions, re-evaluated from the plan's own figures."""
+    """The hazards' conditions (docs/findings.md), re-evaluated from the plan's own figures."""
     rig, led, sw, st_, sup = plan.rig, plan.led, plan.switch, plan.stuck_on, plan.supply
     cond = {
         "led.pulse_over_rating": led.rated_pulse_current_a is not None
@@ -205,6 +206,7 @@ def _hazard_conditions(plan):
     return cond
 
 
+@pytest.mark.slow
 @settings(max_examples=60, deadline=None)
 @given(
     vs=st.floats(6.0, 48.0), rser=st.floats(0.2, 20.0), drive=st.floats(3.0, 15.0),

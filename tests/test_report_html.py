@@ -1,15 +1,14 @@
-"""The HTML report (issue 7) in a real browser: headless Chromium (Debian package chromium).
+"""The HTML report in a real browser: headless Chromium (Debian package chromium).
 
 The page must be self-contained (no external resource, no script), escape every user
 string, carry every finding code and the plots as inline SVG, render to a non-blank
-screenshot, and rebuild byte for byte. Chromium missing is a failure, not a skip: CI
-installs it (.ci/run).
+screenshot, and rebuild byte for byte. Without Chromium the browser tests are skipped with
+that reason; CI installs it and fails instead of skipping (tests/conftest.py ``need_program``).
 """
 
 from __future__ import annotations
 
 import re
-import shutil
 import subprocess
 from pathlib import Path
 
@@ -19,9 +18,8 @@ import pytest
 from strobeplan.report.html import report_html
 from strobeplan.rig import load_rig, loads_rig
 from strobeplan.solve import solve
-from tests.conftest import example, run_cli
+from tests.conftest import example, need_program, run_cli
 
-CHROMIUM = Path(shutil.which("chromium") or "/usr/bin/chromium")  # Debian package chromium
 FLAGS = ["--headless", "--no-sandbox", "--disable-gpu", "--no-first-run",
          "--disable-background-networking", "--disable-component-update", "--disable-sync",
          "--hide-scrollbars"]
@@ -43,10 +41,10 @@ EXTERNAL = re.compile(r"""(?:src|href)\s*=\s*["']?\s*(?:https?:|//|file:)""", re
 
 
 def chromium(tmp_path: Path, *args: str) -> subprocess.CompletedProcess:
-    assert CHROMIUM.exists(), "Debian package chromium is required (apt-get install chromium)"
+    exe = need_program("chromium", "chromium")
     profile = tmp_path / f"profile-{len(list(tmp_path.iterdir()))}"
     profile.mkdir()
-    return subprocess.run([str(CHROMIUM), *FLAGS, f"--user-data-dir={profile}", *args],
+    return subprocess.run([exe, *FLAGS, f"--user-data-dir={profile}", *args],
                           capture_output=True, text=True, timeout=120, check=True)
 
 
@@ -67,11 +65,12 @@ def pages(tmp_path_factory):
     return built
 
 
+@pytest.mark.slow
 def test_dom_holds_every_finding_code_and_the_plots(pages, tmp_path):
     for name, (path, plan) in pages.items():
         dom = dump_dom(tmp_path, path)
         codes = {f.code for f in plan.findings}
-        if name == "unsafe-bench":  # the deliberately bad rig must trip hazards (design §7)
+        if name == "unsafe-bench":  # the deliberately bad rig must trip hazards (README.md)
             assert any(f.severity == "hazard" for f in plan.findings)
         for code in codes:
             assert code in dom, (name, code)
@@ -80,6 +79,7 @@ def test_dom_holds_every_finding_code_and_the_plots(pages, tmp_path):
         assert "Safety cautions" in dom
 
 
+@pytest.mark.slow
 def test_screenshot_is_not_blank(pages, tmp_path):
     from matplotlib.image import imread
 
@@ -95,6 +95,7 @@ def test_screenshot_is_not_blank(pages, tmp_path):
     assert float((grey[1200:] < 0.9).mean()) > 0.005
 
 
+@pytest.mark.slow
 def test_self_contained(pages):
     for name, (path, _plan) in pages.items():
         text = path.read_text(encoding="utf-8")
@@ -104,6 +105,7 @@ def test_self_contained(pages):
         assert "<!DOCTYPE svg" not in text and "<?xml" not in text
 
 
+@pytest.mark.slow
 def test_ids_are_unique_and_references_resolve(pages):
     text = pages["levitator-40k"][0].read_text(encoding="utf-8")
     ids = re.findall(r'\bid="([^"]+)"', text)
@@ -114,6 +116,7 @@ def test_ids_are_unique_and_references_resolve(pages):
         assert f'<svg id="fig-{kind}" role="img" aria-label=' in text
 
 
+@pytest.mark.slow
 def test_tables_rig_text_and_cautions(pages):
     path, plan = pages["levitator-40k"]
     text = path.read_text(encoding="utf-8")
@@ -134,6 +137,7 @@ def test_tables_rig_text_and_cautions(pages):
     assert "Schedule (first rows)" in text and "<td class=\"num\">0</td>" in text
 
 
+@pytest.mark.slow
 def test_user_strings_stay_escaped(tmp_path):
     rig_file = tmp_path / "evil.toml"
     rig_file.write_text(EVIL, encoding="utf-8")
@@ -150,6 +154,7 @@ def test_user_strings_stay_escaped(tmp_path):
     assert "Not drawn" in text and "thermal: led" in text
 
 
+@pytest.mark.slow
 def test_byte_identical_rebuild(pages):
     path, plan = pages["unsafe-bench"]
     again = report_html(plan, rig_text=example("unsafe-bench").read_text(encoding="utf-8"))
@@ -169,6 +174,7 @@ def test_report_bad_input_exits_2(tmp_path):
     assert not (tmp_path / "r.html").exists()
 
 
+@pytest.mark.slow
 def test_cautions_the_findings_call_for(pages):
     import html
 
@@ -185,6 +191,7 @@ def test_cautions_the_findings_call_for(pages):
     assert "288 mJ" in caution and "\N{MICRO SIGN}s" in caution
 
 
+@pytest.mark.slow
 def test_key_figures_at_the_top(pages):
     path, plan = pages["levitator-40k"]
     text = path.read_text(encoding="utf-8")

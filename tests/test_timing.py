@@ -41,8 +41,8 @@ def test_rc_against_scipy():
 
 
 def test_filter_delays_worked_values():
-    # references.md "Filters" [calc]: at f = fc, RC -45 deg -> 3.125 us at 40 kHz;
-    # 2nd-order Butterworth -90 deg -> 6.25 us.
+    # docs/references.md, "Power stage" (Filters) [calc]: at f = fc, RC -45 deg -> 3.125 us at
+    # 40 kHz; 2nd-order Butterworth -90 deg -> 6.25 us.
     phi_rc = np.angle(drive.rc_response(40e3, 40e3))
     assert math.degrees(phi_rc) == pytest.approx(-45.0)
     assert drive.phase_delay(phi_rc, 40e3) == pytest.approx(3.125e-6)
@@ -61,7 +61,8 @@ def test_bvd_against_complex_impedance():
     z = r1 + 1j * w * l1 + 1 / (1j * w * c1)
     expected = r1 / z  # normalised to 1 at resonance
     assert_allclose(drive.motional_response(f, fs, q), expected, rtol=1e-10)
-    # references.md: phase ~ -atan(2Q(f - fs)/fs) near fs; tens of degrees within 100 Hz.
+    # docs/references.md, "Power stage" (Butterworth-Van Dyke): phase ~ -atan(2Q(f - fs)/fs) near
+    # fs; tens of degrees within 100 Hz.
     phase = np.degrees(np.angle(drive.motional_response(40.1e3, fs, q)))
     assert phase == pytest.approx(-math.degrees(math.atan(2 * q * 100 / fs)), abs=0.2)
     assert abs(phase) > 8
@@ -70,7 +71,7 @@ def test_bvd_against_complex_impedance():
 # --- air (speed of sound used by the timing core) -----------------------------------------
 
 def test_cramer_check_values():
-    # references.md [calc], 101325 Pa, 400 ppm CO2: 0 degC dry 331.448; 20 degC dry
+    # docs/references.md, "Air" [calc], 101325 Pa, 400 ppm CO2: 0 degC dry 331.448; 20 degC dry
     # 343.359; 20 degC 50 % RH 343.987 m/s (Cramer 1993 eq. 15).
     assert air.speed_of_sound(273.15, 0.0, 101325.0) == pytest.approx(331.448, abs=1e-3)
     assert air.speed_of_sound(293.15, 0.0, 101325.0) == pytest.approx(343.359, abs=1e-3)
@@ -78,23 +79,20 @@ def test_cramer_check_values():
 
 
 @pytest.mark.parametrize("t_c", [0.0, 10.0, 20.0, 30.0])
-def test_cramer_against_coolprop_dry(t_c):
-    # Oracle: CoolProp PropsSI('A') for dry air; models agree within 0.05 m/s (issue 2).
-    from CoolProp.CoolProp import PropsSI
-
+def test_cramer_against_coolprop_dry(t_c, coolprop):
+    # Oracle: CoolProp PropsSI('A') for dry air; models agree within 0.05 m/s (docs/references.md,
+    # "Air").
     t = t_c + 273.15
-    ref = PropsSI("A", "T", t, "P", 101325.0, "Air")
+    ref = coolprop.PropsSI("A", "T", t, "P", 101325.0, "Air")
     assert air.speed_of_sound(t, 0.0, 101325.0) == pytest.approx(ref, abs=0.05)
 
 
 @pytest.mark.parametrize("t_c, rh", [(10.0, 0.5), (20.0, 0.5), (25.0, 0.3), (30.0, 0.8)])
-def test_cramer_against_coolprop_humid(t_c, rh):
+def test_cramer_against_coolprop_humid(t_c, rh, coolprop):
     # Oracle: CoolProp HAPropsSI('speed_of_sound') (20 degC 50 %: 343.963 m/s per
-    # references.md); within 0.05 m/s.
-    from CoolProp.CoolProp import HAPropsSI
-
+    # docs/references.md, "Air"); within 0.05 m/s.
     t = t_c + 273.15
-    ref = HAPropsSI("speed_of_sound", "T", t, "P", 101325.0, "R", rh)
+    ref = coolprop.HAPropsSI("speed_of_sound", "T", t, "P", 101325.0, "R", rh)
     assert air.speed_of_sound(t, rh, 101325.0) == pytest.approx(ref, abs=0.05)
 
 
@@ -180,7 +178,7 @@ def test_chain_delay_composition():
     }
     plan = solve(rig_from_dict(raw))
     c = plan.air.speed_of_sound_m_s
-    # RC at fc: 3.125 us (references.md); transducer at resonance: 0.
+    # RC at fc: 3.125 us (docs/references.md, "Power stage"); transducer at resonance: 0.
     assert plan.timing.chain_delay_s == pytest.approx(3.125e-6 + 0.1 / c + 1e-6, rel=1e-9)
 
 

@@ -1,4 +1,4 @@
-"""units.parse / render: every quantiphy trap of design §2, aliases, rejections."""
+"""units.parse / render: every quantiphy trap (DEVELOPERS.md), aliases, rejections."""
 
 from __future__ import annotations
 
@@ -14,7 +14,7 @@ from strobeplan.units import KINDS, UnitError, parse, render
 @pytest.mark.parametrize(
     "text, kind, expected",
     [
-        # Traps measured on quantiphy 2.23 (design §2): each must come out right here.
+        # Traps measured on quantiphy 2.23 (DEVELOPERS.md): each must come out right here.
         ("5 m", "length", 5.0),             # quantiphy: 5 milli-nothing
         ("50 ppm", "ppm", 50e-6),          # quantiphy: 50 picometres
         ("23 degC", "temperature", 296.15),  # absolute: +273.15 K (SI Brochure §2.3.1)

@@ -200,7 +200,7 @@ def _vdd_minus(x):
     return Level(offset=-x, fraction=1.0)
 
 
-_J8C = "JEDEC JESD8C.01 (3.3 V), table values as quoted in references.md [src2]"
+_J8C = "JEDEC JESD8C.01 (3.3 V), table values as quoted in docs/references.md [src2]"
 _MEM = "from memory, not confirmed in the standard's text"
 
 FAMILIES: dict[str, Family] = {

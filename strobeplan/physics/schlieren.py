@@ -53,7 +53,7 @@ def gladstone_dale(wavelength):
     References
     ----------
     1. Crockett & Rueckner (2018), and the dispersion fit it quotes (secondary source:
-       see /work/shared/references.md); 2.2563e-4 m^3/kg at 532 nm.
+       see docs/references.md, "Acoustics and schlieren"); 2.2563e-4 m^3/kg at 532 nm.
     """
     lam = np.asarray(wavelength, dtype=float)
     return _out(2.2244e-4 * (1.0 + (63.7132e-9 / lam) ** 2))

@@ -1,4 +1,4 @@
-"""One self-contained HTML page for a solved plan (design §8).
+"""One self-contained HTML page for a solved plan (`strobeplan report`).
 
 Rules the page keeps, each tested in a real browser (tests/test_report_html.py):
 

@@ -1,6 +1,6 @@
 """Plots of a solved plan: one ``plot_X(plan, ax=None) -> Figure`` per picture.
 
-Pattern (design §8): the plan holds the computed data; each function here only draws it,
+Pattern: the plan holds the computed data; each function here only draws it,
 using the plan's sections and the physics functions (never a second copy of a model).
 matplotlib is imported inside the functions and only its object-oriented API is used
 (``matplotlib.figure.Figure``, no pyplot state), so importing this module is cheap and

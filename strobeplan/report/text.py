@@ -91,7 +91,7 @@ def plan_text(plan) -> str:
     return "\n".join(lines).rstrip() + "\n"
 
 
-# One line per concern, shown by `check` when a finding concerns it (issue 8).
+# One line per concern, shown by `check` when a finding concerns it (README.md, "Safety").
 _CONCERNS = (
     ("eyes", lambda f: f.severity == "hazard" and f.subject in ("led", "eye"),
      "caution (eyes): this LED is driven beyond its ratings; its flashes can injure eyes - "
@@ -129,5 +129,5 @@ def findings_text(plan) -> str:
 
 
 def plan_json(plan) -> str:
-    """The plan JSON of design §4 (no NaN or Infinity: undefined figures are null)."""
+    """The plan JSON (the contract `strobeplan schema` publishes; undefined figures are null)."""
     return json.dumps(plan.to_json(), indent=2, allow_nan=False) + "\n"

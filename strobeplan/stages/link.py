@@ -24,7 +24,7 @@ from ..physics import logic_families as families
 from ..plan import Plan, Section, q, scalar
 from ..units import render
 
-EDGE_FRACTION = 0.01  # edge limit = 1 % of the pulse width / trigger latency (issue 5)
+EDGE_FRACTION = 0.01  # edge limit = 1 % of the pulse width / trigger latency (project choice)
 
 
 @dataclass

@@ -1,7 +1,7 @@
 """Power stage: LED overdrive and junction temperature, MOSFET switching, supply, stuck-on.
 
 Runs after the timing core (it needs the flash spacing, the flashes per frame and the frame
-period). Sections (design §4): ``led``, ``switch``, ``supply``, ``stuck_on``.
+period). Sections (plan JSON): ``led``, ``switch``, ``supply``, ``stuck_on``.
 
 Models (strobeplan.physics.led / thermal / switching / supply):
 

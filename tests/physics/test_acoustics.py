@@ -14,8 +14,9 @@ from strobeplan.physics import air
 
 
 def test_pressure_amplitude_reference_values():
-    # ISO 1683: p0 = 20 uPa, SPL is RMS; 94 dB is 1.002 Pa RMS (the usual calibrator
-    # level), so 1.4176 Pa peak [calc]; references.md chain: 140 dB -> 282.84 Pa peak.
+    # ISO 1683: p0 = 20 uPa, SPL is RMS; 94 dB is 1.002 Pa RMS (the usual calibrator level), so
+    # 1.4176 Pa peak [calc]; docs/references.md, "Acoustics and schlieren": 140 dB -> 282.84 Pa
+    # peak.
     assert ac.pressure_amplitude(94.0) == pytest.approx(math.sqrt(2) * 1.0023745, rel=1e-6)
     assert ac.pressure_amplitude(140.0) == pytest.approx(282.8427, rel=1e-6)
     assert ac.pressure_amplitude(0.0) == pytest.approx(math.sqrt(2) * 20e-6, rel=1e-12)
@@ -36,8 +37,8 @@ def test_voltage_gain():
 
 
 def test_spl_at_distance_worked_example():
-    # references.md far-field form with the ISO 9613-1 coefficient at 40 kHz, 20 degC,
-    # 50 % RH (1.3182 dB/m, references.md check value): 120 dB at 0.3 m -> at 1 m
+    # docs/references.md, "Acoustics and schlieren": far field with the ISO 9613-1 coefficient at
+    # 40 kHz, 20 degC, 50 % RH (1.3182 dB/m, docs/references.md, "Air"): 120 dB at 0.3 m -> at 1 m
     # 120 - 20 log10(1/0.3) - 1.3182 * 0.7 = 108.6196 dB [calc].
     alpha = air.absorption(40e3, 293.15, 0.5, 101325.0)
     assert ac.spl_at_distance(120.0, 0.3, 1.0, alpha) == pytest.approx(108.6196, abs=2e-4)
@@ -83,8 +84,9 @@ def test_detuning_loss_at_half_power_points():
 
 
 def test_spl_at_view_combines_terms():
-    # The four corrections add in dB (references.md); check against a hand sum [calc]:
-    # 120 dB @ 0.3 m, 10 V rated, 20 V drive, view at 0.5 m, alpha 1.3 dB/m, |H| = 0.5.
+    # The four corrections add in dB (docs/references.md, "Acoustics and schlieren"); check against
+    # a hand sum [calc]: 120 dB @ 0.3 m, 10 V rated, 20 V drive, view at 0.5 m, alpha 1.3 dB/m,
+    # |H| = 0.5.
     expected = 120 + 20 * math.log10(2) - 20 * math.log10(0.5 / 0.3) - 1.3 * 0.2 + 20 * math.log10(
         0.5
     )

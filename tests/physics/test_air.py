@@ -1,6 +1,5 @@
 """Tests for strobeplan.physics.air against CoolProp, acoustic-toolbox and ISO tables."""
 
-import CoolProp.CoolProp as cp
 import numpy as np
 import pytest
 from acoustic_toolbox import atmosphere
@@ -19,50 +18,52 @@ GRID_RH = np.linspace(0.0, 1.0, 6)
 
 
 def test_speed_of_sound_check_values():
-    # references.md, [calc] from the published Cramer (1993) eq. 15 coefficients, 400 ppm CO2.
+    # docs/references.md, "Air", [calc] from the published Cramer (1993) eq. 15 coefficients,
+    # 400 ppm CO2.
     assert air.speed_of_sound(273.15, 0.0, P0) == pytest.approx(331.448, abs=5e-4)
     assert air.speed_of_sound(T20, 0.0, P0) == pytest.approx(343.359, abs=5e-4)
     assert air.speed_of_sound(T20, 0.5, P0) == pytest.approx(343.987, abs=5e-4)
 
 
 @pytest.mark.parametrize("temperature", GRID_T)
-def test_speed_of_sound_dry_against_coolprop(temperature):
+def test_speed_of_sound_dry_against_coolprop(temperature, coolprop):
     # Oracle: CoolProp's Lemmon et al. (2000) pseudo-pure air EOS, PropsSI('A', ...).
-    # references.md: the models agree within ~0.05 m/s; we measured <= 0.017 m/s.
-    oracle = cp.PropsSI("A", "T", temperature, "P", P0, "Air")
+    # docs/references.md, "Air": the models agree within ~0.05 m/s; we measured <= 0.017 m/s.
+    oracle = coolprop.PropsSI("A", "T", temperature, "P", P0, "Air")
     assert air.speed_of_sound(temperature, 0.0, P0) == pytest.approx(oracle, abs=0.05)
 
 
 @pytest.mark.parametrize("temperature", GRID_T)
 @pytest.mark.parametrize("relative_humidity", GRID_RH)
-def test_speed_of_sound_humid_against_coolprop(temperature, relative_humidity):
+def test_speed_of_sound_humid_against_coolprop(temperature, relative_humidity, coolprop):
     # Oracle: CoolProp HAPropsSI (Hyland-Wexler / Herrmann et al. humid-air model);
-    # references.md gives 343.963 m/s at 20 degC, 50 %; agreement within 0.05 m/s.
-    oracle = cp.HAPropsSI("speed_of_sound", "T", temperature, "P", P0, "R", relative_humidity)
+    # docs/references.md, "Air", gives 343.963 m/s at 20 degC, 50 %; agreement within 0.05 m/s.
+    oracle = coolprop.HAPropsSI("speed_of_sound", "T", temperature, "P", P0, "R", relative_humidity)
     ours = air.speed_of_sound(temperature, relative_humidity, P0)
     assert ours == pytest.approx(oracle, abs=0.05)
 
 
-def test_coolprop_oracle_value():
-    # references.md: HAPropsSI at 20 degC, 50 % RH is 343.963 m/s (guards the oracle call).
-    oracle = cp.HAPropsSI("speed_of_sound", "T", T20, "P", P0, "R", 0.5)
+def test_coolprop_oracle_value(coolprop):
+    # docs/references.md, "Air": HAPropsSI at 20 degC, 50 % RH is 343.963 m/s (guards the oracle
+    # call).
+    oracle = coolprop.HAPropsSI("speed_of_sound", "T", T20, "P", P0, "R", 0.5)
     assert oracle == pytest.approx(343.963, abs=1e-3)
 
 
 @pytest.mark.parametrize("temperature", GRID_T)
 @pytest.mark.parametrize("relative_humidity", GRID_RH)
-def test_density_against_coolprop(temperature, relative_humidity):
+def test_density_against_coolprop(temperature, relative_humidity, coolprop):
     # Oracle: CoolProp humid air, density = 1 / Vha (volume per kg of humid air).
     # Our ideal-gas density omits the compressibility Z ~ 0.9996 (CIPM-2007, Picard et al.
     # 2008), so 0.1 % is the tolerance; measured ~0.04 %.
-    oracle = 1.0 / cp.HAPropsSI("Vha", "T", temperature, "P", P0, "R", relative_humidity)
+    oracle = 1.0 / coolprop.HAPropsSI("Vha", "T", temperature, "P", P0, "R", relative_humidity)
     ours = air.density(temperature, relative_humidity, P0)
     assert ours == pytest.approx(oracle, rel=1e-3)
 
 
-def test_density_dry_against_coolprop_air():
+def test_density_dry_against_coolprop_air(coolprop):
     # Oracle: CoolProp PropsSI('D') for dry air (Lemmon 2000); rel 1e-3 as above.
-    oracle = cp.PropsSI("D", "T", T20, "P", P0, "Air")
+    oracle = coolprop.PropsSI("D", "T", T20, "P", P0, "Air")
     assert air.density(T20, 0.0, P0) == pytest.approx(oracle, rel=1e-3)
 
 
@@ -72,7 +73,7 @@ def test_density_humid_air_is_lighter():
 
 
 def test_absorption_check_values():
-    # references.md [calc], ISO 9613-1 eq. 5 at 20 degC, 50 % RH, 101.325 kPa.
+    # docs/references.md, "Air" [calc], ISO 9613-1 eq. 5 at 20 degC, 50 % RH, 101.325 kPa.
     assert air.absorption(1e3, T20, 0.5, P0) == pytest.approx(0.004665, rel=1e-3)
     assert air.absorption(40e3, T20, 0.5, P0) == pytest.approx(1.3182, rel=1e-4)
 
@@ -81,7 +82,7 @@ def test_absorption_check_values():
 @pytest.mark.parametrize("relative_humidity", [0.1, 0.3, 0.5, 0.7, 1.0])
 def test_absorption_against_acoustic_toolbox(temperature, relative_humidity):
     # Oracle: PyPI acoustic-toolbox, an independent ISO 9613-1 implementation
-    # (pressure in kPa, humidity in percent); tolerance 0.1 % per the issue.
+    # (pressure in kPa, humidity in percent); tolerance 0.1 %.
     frequency = np.geomspace(50.0, 200e3, 25)
     oracle = atmosphere.Atmosphere(
         temperature, 101.325, 100.0 * relative_humidity

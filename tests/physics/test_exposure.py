@@ -52,7 +52,8 @@ def fft_spectrum(t, p, frequencies):
 # ---------------------------------------------------------------- check values
 @pytest.mark.parametrize(
     ("width", "expected"),
-    # references.md [calc]: |sinc(f tau)| at 40 kHz (Boreman 2001, rectangular exposure).
+    # docs/references.md, "Exposure" [calc]: |sinc(f tau)| at 40 kHz (Boreman 2001, rectangular
+    # exposure).
     [(1e-6, 0.997370), (5e-6, 0.935489), (12.5e-6, 2.0 / math.pi)],
 )
 def test_rectangle_is_sinc(width, expected):
@@ -67,7 +68,8 @@ def test_rectangle_against_numpy_sinc_grid():
 
 
 def test_jitter_check_value():
-    # references.md: Gaussian jitter, 40 kHz, 1 us -> 0.968911 (Johnson 1993, [src2]).
+    # docs/references.md, "Exposure": Gaussian jitter, 40 kHz, 1 us -> 0.968911 (Johnson 1993,
+    # [src2]).
     assert ex.jitter_factor(F40, 1e-6) == pytest.approx(0.968911, abs=1e-6)
 
 
@@ -92,7 +94,7 @@ def test_combined_jitter_adds_in_quadrature():
 
 
 def test_phosphor_factor_and_lag():
-    # references.md: single-exponential tail, |H| = 1/sqrt(1 + (2 pi f tau)^2), lag
+    # docs/references.md, "Exposure": single-exponential tail, |H| = 1/sqrt(1 + (2 pi f tau)^2), lag
     # atan(2 pi f tau), ~0.94 deg at 40 kHz for 65 ns (YAG:Ce decay, from memory).
     tau = 65e-9
     h = ex.led_response(F40, 1.0, tau)
@@ -123,7 +125,7 @@ def test_phosphor_fraction_mixes_linearly():
     ],
 )
 def test_closed_form_against_fft(width, rise, fall, w, tau):
-    # Oracle: numpy FFT of the independently sampled pulse; the issue asks for 1e-4.
+    # Oracle: numpy FFT of the independently sampled pulse; 1e-4 required.
     t, p = sampled_pulse(width, rise, fall, w, tau)
     harmonics = F40 * np.arange(1, 6)
     oracle = fft_spectrum(t, p, harmonics)
@@ -235,7 +237,7 @@ def test_max_pulse_width_meets_target(frequency, target, rise, fall, w, tau, jit
         assert floor < target
         return
     achieved = ex.retention(frequency, width, rise, fall, w, tau, jitter_rms=jitter)
-    assert achieved == pytest.approx(target, abs=1e-4)  # the issue's tolerance
+    assert achieved == pytest.approx(target, abs=1e-4)  # 1e-4 required
 
 
 def test_max_pulse_width_vectorised():

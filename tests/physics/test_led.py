@@ -20,7 +20,7 @@ BOUNDED = settings(max_examples=100, deadline=None)
 
 
 def test_thermal_voltage_25c():
-    # references.md "Power stage": Vt = 25.693 mV at 25 degC (kT/q, CODATA 2018 constants).
+    # docs/references.md, "Power stage": Vt = 25.693 mV at 25 degC (kT/q, CODATA 2018 constants).
     assert_allclose(led.thermal_voltage(298.15), 25.693e-3, rtol=2e-5)
 
 
@@ -34,7 +34,7 @@ def test_thermal_voltage_25c():
     k3=st.floats(2.0, 5.0),
 )
 def test_fit_recovers_known_parameters_from_three_exact_points(n_vt, log_is, rs, i1, k2, k3):
-    # Issue 4: "LED fit recovers known (n*Vt, Is, Rs) from three exact points". The points are
+    # The LED fit recovers known (n*Vt, Is, Rs) from three exact points. The points are
     # generated from the model, so the exact solution is known; 1e-6 allows for conditioning.
     i_s = 10.0**log_is
     currents = np.array([i1, i1 * k2, i1 * k2 * k3])
@@ -168,9 +168,9 @@ def test_operating_point_matches_numerical_integration(rig):
 
 
 def test_small_droop_limit_is_i_tp_over_c():
-    # references.md "Capacitor": dV = I*tp/C for a stiff capacitor (ESR step excluded here).
-    # The current decays with time constant ~ C*R_tot, so the first-order estimate is good
-    # to about tp/(2*C*R_tot) = 2e-4 here; 5e-4 tolerance [calc].
+    # docs/references.md, "Power stage" (Capacitor): dV = I*tp/C for a stiff capacitor (ESR step
+    # excluded here). The current decays with time constant ~ C*R_tot, so the first-order estimate
+    # is good to about tp/(2*C*R_tot) = 2e-4 here; 5e-4 tolerance [calc].
     op = led.pulse_operating_point(24.0, 10e-3, 0.02, 1.0, 0.01, 0.0, 5e-6, 0.08, 1e-16, 0.12)
     assert_allclose(op.droop, op.peak_current * 5e-6 / 10e-3, rtol=5e-4)
     assert op.droop < op.peak_current * 5e-6 / 10e-3

@@ -1,7 +1,7 @@
 """Tests for the trigger-link physics: logic families (strobeplan.physics.logic_families),
 IEC 60063 series (eseries) and worst-case dividers and their search (divider).
 
-Check values come from /work/shared/references.md ("Logic levels (JEDEC)", "IEC 60063"),
+Check values come from docs/references.md ("Logic levels (JEDEC)", "IEC 60063 preferred numbers"),
 the PyPI package `eseries` 1.2.1 (an independent implementation of IEC 60063), and Debian's
 ngspice (an independent circuit simulator) for the RC edge.
 """
@@ -9,7 +9,6 @@ ngspice (an independent circuit simulator) for the RC edge.
 import itertools
 import math
 import re
-import shutil
 import subprocess
 
 import eseries
@@ -22,11 +21,12 @@ from numpy.testing import assert_allclose
 from strobeplan.physics import divider as D
 from strobeplan.physics import eseries as E
 from strobeplan.physics import logic_families as F
+from tests.conftest import need_program
 
 # --------------------------------------------------------------------------------------------
-# Family table against references.md "Logic levels (JEDEC)" (JESD8C, JESD8-5, JESD8-7A,
-# JESD8-12A as quoted there, tag [src2]). Each row: family, VDD to evaluate at, VIH, VIL,
-# (VOH, at |IOH|), (VOL, at IOL).
+# Family table against docs/references.md, "Logic levels (JEDEC)" (JESD8C, JESD8-5, JESD8-7A,
+# JESD8-12A as quoted there, tag [src2]). Each row: family, VDD to evaluate at, VIH, VIL, (VOH, at
+# |IOH|), (VOL, at IOL).
 # --------------------------------------------------------------------------------------------
 JEDEC_ROWS = [
     # 3.3 V LVTTL (JESD8C): 2.0 / 0.8 / 2.4 @ -2 mA / 0.4 @ 2 mA
@@ -55,8 +55,8 @@ def test_levels_match_jedec_table(name, vdd, vih, vil, voh, vol):
     assert_allclose(f.vol_max(vol[1], vdd), vol[0], rtol=1e-12)
 
 
-# Supply ranges: references.md "Supply ranges [mem]" (3.3 V 3.0-3.6, 2.5 V 2.3-2.7,
-# 1.8 V 1.65-1.95, 1.2 V 1.1-1.3); these are the recalled JEDEC normal ranges.
+# Supply ranges: docs/references.md, "Logic levels (JEDEC)", supply ranges [mem] (3.3 V 3.0-3.6,
+# 2.5 V 2.3-2.7, 1.8 V 1.65-1.95, 1.2 V 1.1-1.3); the recalled JEDEC normal ranges.
 @pytest.mark.parametrize("name, lo, hi", [
     ("lvttl33", 3.0, 3.6), ("lvcmos33", 3.0, 3.6), ("lvcmos25", 2.3, 2.7),
     ("lvcmos18", 1.65, 1.95), ("lvcmos12", 1.1, 1.3),
@@ -68,7 +68,7 @@ def test_supply_ranges(name, lo, hi):
 
 
 def test_input_maximum_vdd_plus_0v3():
-    # references.md [src2]: VDD + 0.3 V gives 2.10 V at 1.8 V and 1.95 V at 1.65 V
+    # docs/references.md [src2]: VDD + 0.3 V gives 2.10 V at 1.8 V and 1.95 V at 1.65 V
     f = F.family("lvcmos18")
     assert_allclose(f.vdd_nominal + f.input_max_above_vdd, 2.10, rtol=1e-12)
     assert_allclose(f.input_max(), 1.95, rtol=1e-12)  # taken at the lowest supply
@@ -76,7 +76,7 @@ def test_input_maximum_vdd_plus_0v3():
 
 
 def test_output_guarantee_depends_on_load():
-    # references.md / issue 5: "The VDD - 0.2 V output guarantee holds only at 100 uA: a divider
+    # docs/references.md, "Logic levels": "The VDD - 0.2 V output guarantee holds only at 100 uA: a divider
     # drawing mA must use the loaded guarantee"; above the rated current nothing is guaranteed.
     f = F.family("lvcmos33")
     i = np.array([10e-6, 100e-6, 101e-6, 2e-3, 2.01e-3])
@@ -84,7 +84,7 @@ def test_output_guarantee_depends_on_load():
     assert_allclose(v[:2], 2.8, rtol=1e-12)
     assert_allclose(v[2:4], 2.4, rtol=1e-12)  # JESD8C LVTTL level (from memory for LVCMOS)
     assert np.isnan(v[4])
-    # 1.8 V: VDD - 0.45 V at 2 mA (JESD8-7A, references.md)
+    # 1.8 V: VDD - 0.45 V at 2 mA (JESD8-7A, docs/references.md)
     assert_allclose(F.family("lvcmos18").voh_min(1e-3, 1.65), 1.65 - 0.45, rtol=1e-12)
 
 
@@ -121,7 +121,7 @@ def test_series_values_match_eseries(name):
 
 
 def test_e24_historical_and_e192_irregular_values():
-    # references.md "IEC 60063": E24 irregular against round(10^(i/24)): 27 30 33 36 39 43 47 82;
+    # docs/references.md "IEC 60063": E24 irregular against round(10^(i/24)): 27 30 33 36 39 43 47 82;
     # E192 has one irregular value (920); E48 and E96 none.
     e24 = E.series_mantissas("E24")
     naive = [round(10 ** (i / 24) * 10) for i in range(24)]
@@ -141,7 +141,7 @@ SRC, DST = F.family("lvcmos33"), F.family("lvcmos18")
 
 
 def test_worked_1k0_1k2_into_10pF():
-    # references.md [calc, ngspice agrees]: 1.0 k / 1.2 k, 10 pF: nominal 1.800 V,
+    # docs/references.md [calc, ngspice agrees]: 1.0 k / 1.2 k, 10 pF: nominal 1.800 V,
     # Rth 545.45 ohm, tau 5.4545 ns, 10-90 % 11.985 ns (ln 9 * tau)
     c = D.evaluate_divider(1.0e3, 1.2e3, SRC, DST, 0.01, 10e-12)
     assert_allclose(c.v_nominal, 1.800, atol=5e-4)
@@ -151,8 +151,8 @@ def test_worked_1k0_1k2_into_10pF():
 
 
 def test_1k_top_2k_bottom_is_over_input_maximum():
-    # issue 5 test: lvcmos33 -> lvcmos18 with 1 k on top, 2 k below: nominal 2.2 V, above the
-    # input maximum VDD + 0.3 V at 1.65 V = 1.95 V (references.md [src2])
+    # worked case: lvcmos33 -> lvcmos18 with 1 k on top, 2 k below: nominal 2.2 V, above the
+    # input maximum VDD + 0.3 V at 1.65 V = 1.95 V (docs/references.md [src2])
     c = D.evaluate_divider(1e3, 2e3, SRC, DST, 0.01, 10e-12)
     assert_allclose(c.v_nominal, 3.3 * 2 / 3, rtol=1e-12)
     assert c.margin_max < 0 and not c.feasible
@@ -160,8 +160,8 @@ def test_1k_top_2k_bottom_is_over_input_maximum():
 
 
 def test_2k_top_1k_bottom_is_below_vih():
-    # issue 5 test: 2 k on top, 1 k below: nominal 1.1 V, below VIH = 0.65 * 1.95 V = 1.2675 V
-    # (JESD8-7A via references.md)
+    # worked case: 2 k on top, 1 k below: nominal 1.1 V, below VIH = 0.65 * 1.95 V = 1.2675 V
+    # (JESD8-7A via docs/references.md)
     c = D.evaluate_divider(2e3, 1e3, SRC, DST, 0.01, 10e-12)
     assert_allclose(c.vih, 0.65 * 1.95, rtol=1e-12)
     assert c.margin_high < 0 and not c.feasible
@@ -170,7 +170,7 @@ def test_2k_top_1k_bottom_is_below_vih():
 
 def test_1k0_1k2_at_1pct_exceeds_input_maximum_in_worst_case():
     # nominal 1.800 V is under 1.95 V, but 3.6 V * 1.212/(0.99 + 1.212) = 1.981 V is not
-    # [calc from the supply range and tolerance]: the trap issue 5 describes
+    # [calc from the supply range and tolerance]: the trap of a lightly loaded guarantee
     c = D.evaluate_divider(1.0e3, 1.2e3, SRC, DST, 0.01, 10e-12, leakage=0.0)
     assert_allclose(c.v_high_max, 3.6 * 1212 / (990 + 1212), rtol=1e-12)
     assert c.v_nominal < c.input_max < c.v_high_max
@@ -292,11 +292,11 @@ def test_vectorised_equals_scalar():
 
 
 # --------------------------------------------------------------------------------------------
-# Edge time against ngspice (Debian package); missing ngspice must fail, not skip
+# Edge time against ngspice (Debian package ngspice): skipped with the reason when absent,
+# a failure in CI (tests/conftest.py need_program)
 # --------------------------------------------------------------------------------------------
 def _ngspice(netlist: str, tmp_path, names):
-    exe = shutil.which("ngspice")
-    assert exe is not None, "ngspice not installed (apt-get install ngspice)"
+    exe = need_program("ngspice", "ngspice")
     cir = tmp_path / "edge.cir"
     cir.write_text(netlist)
     out = subprocess.run([exe, "-n", "-b", str(cir)], capture_output=True, text=True,
@@ -312,7 +312,7 @@ def _ngspice(netlist: str, tmp_path, names):
 
 
 @pytest.mark.parametrize("top, bottom, cap, r_out", [
-    (1.0e3, 1.2e3, 10e-12, 0.0),  # the references.md worked case
+    (1.0e3, 1.2e3, 10e-12, 0.0),  # docs/references.md, "Logic levels (JEDEC)"
     (22e3, 18e3, 15e-12, 40.0),  # a light divider with an output resistance
 ])
 def test_edge_and_delay_match_ngspice(tmp_path, top, bottom, cap, r_out):
@@ -394,7 +394,7 @@ def test_edge_limit_makes_search_infeasible_with_counts():
 
 
 def test_e192_search_is_complete():
-    # issue 5: every E192 pair over 10 ohm..1 Mohm (961 values, 923 521 pairs; the issue's
+    # every E192 pair over 10 ohm..1 Mohm (961 values, 923 521 pairs; the
     # "~590k" would be four decades, 768**2)
     r = D.search_dividers(SRC, DST, "E192", 0.005, 10e-12)
     assert r.pairs_evaluated == 961**2 and r.pairs_feasible > 0

@@ -1,6 +1,5 @@
 """Tests for strobeplan.physics.schlieren: the chain from pressure to image contrast."""
 
-import CoolProp.CoolProp as cp
 import numpy as np
 import pytest
 from hypothesis import given, settings
@@ -19,8 +18,8 @@ def chain(spl, path, cutoff_distance, passes=1, frequency=40e3, c=343.2, k_gd=2.
 
 
 def test_worked_chain():
-    # references.md worked chain [calc]: 40 kHz, c = 343.2, K = 2.26e-4, L = 10 mm,
-    # f2 = 1 m, a = 1 mm, single pass, 140 dB: eps = 3.974 urad, C = 0.0040
+    # docs/references.md, "Acoustics and schlieren", worked chain [calc]: 40 kHz, c = 343.2,
+    # K = 2.26e-4, L = 10 mm, f2 = 1 m, a = 1 mm, single pass, 140 dB: eps = 3.974 urad, C = 0.0040
     # (Settles 2001 eq. 3.6 for C; Gladstone-Dale; rho' = p'/c^2).
     eps, contrast = chain(140.0, 10e-3, 1.0)
     assert eps == pytest.approx(3.974e-6, abs=1e-9)
@@ -28,23 +27,24 @@ def test_worked_chain():
 
 
 def test_double_pass_doubles_deflection():
-    # references.md: double pass doubles eps [mem].
+    # docs/references.md, "Acoustics and schlieren": double pass doubles eps [mem].
     single, _ = chain(130.0, 20e-3, 1.5, passes=1)
     double, _ = chain(130.0, 20e-3, 1.5, passes=2)
     assert double == pytest.approx(2 * single, rel=1e-12)
 
 
 def test_gladstone_dale_check_value():
-    # references.md [src2] (Crockett & Rueckner 2018): K = 2.2563e-4 m^3/kg at 532 nm.
+    # docs/references.md, "Acoustics and schlieren" [src2] (Crockett & Rueckner 2018):
+    # K = 2.2563e-4 m^3/kg at 532 nm.
     assert sc.gladstone_dale(532e-9) == pytest.approx(2.2563e-4, rel=5e-5)
 
 
-def test_gladstone_dale_against_edlen_refractivity():
+def test_gladstone_dale_against_edlen_refractivity(coolprop):
     # Independent check: refractivity of standard dry air (15 degC, 101325 Pa) from the
     # revised Edlen formula of Birch & Downs, Metrologia 30, 155 (1993) (coefficients from
     # memory): (n - 1) 1e8 = 8342.54 + 2406147/(130 - s^2) + 15998/(38.9 - s^2), s in 1/um;
     # density from CoolProp (dry air). The fits differ by ~0.5 %, so 1 %.
-    rho = cp.PropsSI("D", "T", 288.15, "P", 101325.0, "Air")
+    rho = coolprop.PropsSI("D", "T", 288.15, "P", 101325.0, "Air")
     for lam in (450e-9, 532e-9, 633e-9, 850e-9):
         s2 = (1e-6 / lam) ** 2
         refractivity = (8342.54 + 2406147 / (130 - s2) + 15998 / (38.9 - s2)) * 1e-8
@@ -74,7 +74,8 @@ def test_contrast_linear_in_pressure_path_and_cutoff_distance(spl, path, f2, fac
 
 
 def test_saturation_and_visible_contrast():
-    # Linear until |C| = 1 with a half cut-off (references.md [calc]).
+    # Linear until |C| = 1 with a half cut-off (docs/references.md, "Acoustics and schlieren"
+    # [calc]).
     assert sc.saturated(1.0) and sc.saturated(-1.5) and not sc.saturated(0.999)
     assert np.array_equal(sc.saturated(np.array([0.5, 2.0])), [False, True])
     assert sc.visible_contrast(0.02, 0.9) == pytest.approx(0.018)

@@ -18,7 +18,8 @@ LED = dict(n_vt=0.08, saturation_current=1e-16, led_series_resistance=0.12)  # o
 
 
 def test_hand_values():
-    # references.md "Capacitor": energy C V^2/2; 1000 uF at 24 V -> 0.288 J [calc]
+    # docs/references.md, "Power stage" (Capacitor): energy C V^2/2; 1000 uF at 24 V -> 0.288 J
+    # [calc]
     assert_allclose(supply.stored_energy(1000e-6, 24.0), 0.288, rtol=1e-12)
     # boost output power = E_pulse * f: 2 mJ at 40 kHz -> 80 W [calc]
     assert_allclose(supply.average_power(2e-3, 40e3), 80.0, rtol=1e-12)

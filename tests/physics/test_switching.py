@@ -1,6 +1,6 @@
 """Tests of strobeplan.physics.switching (gate-charge method).
 
-Oracles: references.md "Power stage" worked check [calc]; scipy.integrate.solve_ivp of
+Oracles: docs/references.md, "Power stage", worked check [calc]; scipy.integrate.solve_ivp of
 the driver charging the piecewise-linear gate-charge curve; scipy.integrate.quad for the
 edge energy; hand calculations.
 """
@@ -17,7 +17,8 @@ BOUNDED = settings(max_examples=100, deadline=None)
 
 
 def test_gate_charge_worked_check():
-    # references.md: Qgd 6 nC, 12 V drive, 4.5 V plateau, 6 ohm total -> Ig 1.25 A, 4.80 ns
+    # docs/references.md, "Power stage": Qgd 6 nC, 12 V drive, 4.5 V plateau, 6 ohm total -> Ig
+    # 1.25 A, 4.80 ns
     ig = sw.gate_current_on(12.0, 4.5, 2.0, 4.0)
     assert_allclose(ig, 1.25, rtol=1e-12)
     assert_allclose(sw.miller_time(6e-9, ig), 4.80e-9, rtol=1e-12)
@@ -96,7 +97,7 @@ def test_gate_drive_power_and_overshoot_hand_values():
 @BOUNDED
 @given(vd=st.floats(0.0, 20.0), vr=st.floats(2.5, 12.0), vpl=st.floats(2.0, 8.0))
 def test_gate_drive_margin_sign(vd, vr, vpl):
-    # Issue 4: inadequate when the supply is below the rated gate voltage or within 1 V of the
+    # Gate drive is inadequate when the supply is below the rated gate voltage or within 1 V of the
     # plateau; the margin is negative exactly then.
     m = sw.gate_drive_margin(vd, vr, vpl)
     inadequate = (vd < vr) or (vd < vpl + 1.0)

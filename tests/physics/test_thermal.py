@@ -1,6 +1,6 @@
 """Tests of strobeplan.physics.thermal (Foster network junction temperature).
 
-Oracles: the check table of references.md "Power stage" [calc], brute-force superposition
+Oracles: the check table of docs/references.md, "Power stage" [calc], brute-force superposition
 of step responses over many periods, scipy.integrate.solve_ivp of the RC network's ODEs.
 """
 
@@ -15,13 +15,14 @@ from strobeplan.physics import thermal as th
 
 BOUNDED = settings(max_examples=60, deadline=None)
 
-# references.md "Power stage", Foster check network [calc]
+# docs/references.md, "Power stage": Foster check network [calc]
 R = np.array([0.05, 0.2, 0.5, 0.25])
 TAU = np.array([10e-6, 100e-6, 1e-3, 10e-3])
 
 
 def test_reference_check_table():
-    # references.md: tp 10 us, T 1 ms: exact 0.061136 K/W, shortcut 0.065305, single 0.055864
+    # docs/references.md, "Power stage": tp 10 us, T 1 ms: exact 0.061136 K/W, shortcut 0.065305,
+    # single 0.055864
     assert_allclose(th.pulse_train_peak(1.0, 10e-6, 1e-3, R, TAU), 0.061136, atol=5e-7)
     assert_allclose(th.pulse_train_shortcut(1.0, 10e-6, 1e-3, R, TAU), 0.065305, atol=5e-7)
     assert_allclose(th.zth(10e-6, R, TAU), 0.055864, atol=5e-7)
@@ -47,6 +48,7 @@ def test_pulse_train_equals_brute_force():
     assert_allclose(th.pulse_train_peak(3.0, 10e-6, 1e-3, R, TAU), bf.max(), rtol=1e-9)
 
 
+@pytest.mark.slow
 @settings(max_examples=25, deadline=None)
 @given(
     n=st.integers(1, 12),
@@ -99,7 +101,7 @@ def test_mean_rise_equals_time_average_of_brute_force():
 
 
 def _ode_step(power, t_end, r, tau):
-    # dT_i/dt = (P R_i - T_i)/tau_i, each Foster term an independent RC (issue 4)
+    # dT_i/dt = (P R_i - T_i)/tau_i, each Foster term an independent RC
     sol = solve_ivp(lambda _t, y: (power * r - y) / tau, (0.0, t_end), np.zeros_like(r),
                     method="Radau", rtol=1e-10, atol=1e-14, dense_output=True)
     return sol
@@ -154,7 +156,7 @@ def test_step_time_to_rise_inverts_zth(p, frac):
 @BOUNDED
 @given(log_width=st.floats(-7, -3), duty=st.floats(1e-4, 1.0))
 def test_exact_never_exceeds_shortcut(log_width, duty):
-    # references.md: the shortcut D*Rth + (1 - D)*Zth(tp) always over-estimates
+    # docs/references.md, "Power stage": the shortcut D*Rth + (1 - D)*Zth(tp) always over-estimates
     width = 10.0**log_width
     period = width / duty
     exact = th.pulse_train_peak(1.0, width, period, R, TAU)
@@ -179,9 +181,9 @@ def test_burst_peak_monotone(p, log_width, n, spacing_factor, k):
 
 
 def test_burst_trace_peak_matches_exact_burst_peak():
-    # The sampled steady-state trace (superposition) peaks at the exact closed form of
-    # burst_peak; network of references.md "Power stage" (R = [0.05, 0.2, 0.5, 0.25] K/W,
-    # tau = [10 us, 100 us, 1 ms, 10 ms]); 8 pulses of 10 us every 100 us, frames of 5 ms.
+    # The sampled steady-state trace (superposition) peaks at the exact closed form of burst_peak;
+    # network of docs/references.md, "Power stage" (R = [0.05, 0.2, 0.5, 0.25] K/W, tau = [10 us,
+    # 100 us, 1 ms, 10 ms]); 8 pulses of 10 us every 100 us, frames of 5 ms.
     r = [0.05, 0.2, 0.5, 0.25]
     tau = [10e-6, 100e-6, 1e-3, 10e-3]
     starts = 1e-4 * np.arange(8)
