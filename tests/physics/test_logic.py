@@ -76,8 +76,9 @@ def test_input_maximum_vdd_plus_0v3():
 
 
 def test_output_guarantee_depends_on_load():
-    # docs/references.md, "Logic levels": "The VDD - 0.2 V output guarantee holds only at 100 uA: a divider
-    # drawing mA must use the loaded guarantee"; above the rated current nothing is guaranteed.
+    # docs/references.md, "Logic levels": "The VDD - 0.2 V output guarantee holds only at
+    # 100 uA: a divider drawing mA must use the loaded guarantee"; above the rated current
+    # nothing is guaranteed.
     f = F.family("lvcmos33")
     i = np.array([10e-6, 100e-6, 101e-6, 2e-3, 2.01e-3])
     v = f.voh_min(i, 3.0)
@@ -121,7 +122,8 @@ def test_series_values_match_eseries(name):
 
 
 def test_e24_historical_and_e192_irregular_values():
-    # docs/references.md "IEC 60063": E24 irregular against round(10^(i/24)): 27 30 33 36 39 43 47 82;
+    # docs/references.md "IEC 60063": E24 irregular against round(10^(i/24)):
+    # 27 30 33 36 39 43 47 82;
     # E192 has one irregular value (920); E48 and E96 none.
     e24 = E.series_mantissas("E24")
     naive = [round(10 ** (i / 24) * 10) for i in range(24)]
