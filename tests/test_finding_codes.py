@@ -1,8 +1,9 @@
-"""Every finding code is reachable: one rig per documented code that triggers it.
+"""Every finding code is reachable: each rule carries a rig that fires it.
 
-Each case starts from a bundled example and patches a few keys (a dict of dotted paths;
-``None`` deletes the key). The table must cover the registry exactly, so a new code
-without a reachability case fails here.
+A rule's ``example`` (strobeplan/checks/) is a bundled example and the keys to change
+(dotted paths; None deletes a key). Solving it must raise the rule's code, and a hazard or
+fault must fail the verdict; a rule without an example fails here. The same examples are
+printed in docs/findings.md, so there is one table, in the rules.
 """
 
 from __future__ import annotations
@@ -12,120 +13,25 @@ import pytest
 from strobeplan.checks import RULES, load_all
 from strobeplan.rig import rig_from_dict
 from strobeplan.solve import solve
-from tests.conftest import patched
-from tests.test_power_stage import CASES as POWER_CASES
+from tests.conftest import EXAMPLES, patched
 
-# code -> (base example, {dotted.path: new value or None to delete})
-CASES: dict[str, tuple[str, dict]] = {
-    "timing.no_flash_in_exposure": ("levitator-40k", {"camera.exposure": "500 ns"}),
-    "timing.rolling_window_too_short": ("rangefinder-58k", {"camera.readout": "2 ms"}),
-    "timing.phase_step_below_resolution": ("rangefinder-58k", {"sweep.steps": 1000}),
-    "timing.clock_drift_smear": ("levitator-40k", {
-        "controller.shared_clock": False, "controller.clock_tolerance": "1000 ppm",
-        "camera.exposure": "20 ms"}),
-    "timing.phase_unlocked": ("levitator-40k", {
-        "controller.shared_clock": False, "controller.clock_tolerance": "20 ppm"}),
-    "timing.slow_motion_smear": ("levitator-40k", {
-        "sweep": {"slow_motion": "300 Hz"}, "strobe.every": 1}),
-    "timing.slow_motion_quantised": ("levitator-40k", {
-        "sweep": {"slow_motion": "1 Hz"}, "strobe.every": 1}),
-    "timing.frame_rate_adjusted": ("levitator-40k", {
-        "strobe.every": 7, "camera.frame_rate": "53 Hz"}),
-    "drive.frequency_error": ("rangefinder-58k", {"controller.clock": "1 MHz"}),
-    "drive.off_resonance": ("levitator-40k", {"emitter.resonance": "40.6 kHz"}),
-    "drive.carrier_not_filtered": ("levitator-40k", {
-        "emitter.synthesis.filter": {"kind": "rc", "cutoff": "200 kHz"}}),
-    "drive.pwm_resolution_low": ("levitator-40k", {"controller.clock": "20 MHz"}),
-    "exposure.retention_low": ("levitator-40k", {"strobe.pulse_width": "9 us"}),
-    "exposure.phosphor_dominates": ("rangefinder-58k", {"strobe.pulse_width": "150 ns"}),
-    "exposure.blur_over_pixel": ("rangefinder-58k", {}),
-    "optics.not_visible": ("rangefinder-58k", {"emitter.drive_voltage": "2 V",
-                                               "camera.full_well": None}),
-    "optics.saturated": ("levitator-40k", {"optics.cutoff_opening": "20 um"}),
-    "image.too_dark": ("levitator-40k", {"supply.voltage": "2 V"}),
-    "image.snr_low": ("levitator-40k", {"supply.voltage": "2 V"}),
-    "image.overexposed": ("levitator-40k", {"optics.source": {"width": "1 mm",
-                                                               "height": "1 mm"}}),
-    "image.cutoff_saturated": ("levitator-40k", {"optics.cut_fraction": 0.97}),
-    "image.resolution_coarse": ("levitator-40k", {"optics.cut_fraction": 0.9}),
-    "image.object_pixel_mismatch": ("unsafe-bench", {}),
-    "image.astigmatism": ("unsafe-bench", {}),
-    "image.double_image": ("rangefinder-58k", {"optics.source_separation": "30 mm"}),
-    "image.bench_too_short": ("levitator-40k", {"optics.bench_length": "2 m"}),
-    "image.lens_clips": ("levitator-40k", {"camera.lens": {"focal_length": "50 mm",
-                                                            "f_number": 64}}),
-    "image.mirror_underfills": ("levitator-40k", {"camera.lens": {"focal_length": "25 mm",
-                                                                   "f_number": 4}}),
-    "led.optical_exceeds_electrical": ("levitator-40k", {
-        "led.optical_power": {"current": "700 mA", "power": "7 W"}}),
-    "led.output_extrapolated": ("levitator-40k", {}),
-    "eye.hazard": ("unsafe-bench", {"led.emitting_size": "50 um"}),
-    "optics.near_field": ("rangefinder-58k", {"emitter.radius": "40 mm"}),
-    "safety.ultrasound_exposure": ("unsafe-bench", {}),
-    "trigger_link.over_input_max": ("unsafe-bench", {}),
-    "trigger_link.below_vih": ("unsafe-bench", {"trigger_link.top": "2 kohm",
-                                                "trigger_link.bottom": "1 kohm"}),
-    "trigger_link.low_above_vil": ("levitator-40k", {
-        "controller.output": "cmos5", "gate_driver.input": "cmos5",
-        "camera.trigger_input": {"family": "ttl5"}, "trigger_link.top": "10 kohm",
-        "trigger_link.bottom": "10 kohm"}),
-    "trigger_link.source_overloaded": ("unsafe-bench", {"trigger_link.top": "100 ohm",
-                                                        "trigger_link.bottom": "120 ohm"}),
-    "trigger_link.edge_too_slow": ("rangefinder-58k", {}),
-    "trigger_link.no_feasible_pair": ("levitator-40k", {
-        "controller.output": "lvcmos18", "gate_driver.input": "lvcmos18",
-        "camera.trigger_input": {"family": "lvcmos33"}}),
-    "gate_link.below_vih": ("levitator-40k", {
-        "controller.output": "lvcmos12", "camera.trigger_input": {"family": "lvcmos12"}}),
-    "gate_link.over_input_max": ("levitator-40k", {
-        "controller.output": "cmos5", "gate_driver.supply": "4 V",
-        "camera.trigger_input": {"family": "lvcmos33"}}),
-    # free-running camera: 1.01 ms holds 40.4 flash periods of 25 us, so frames collect 40
-    # or 41 flashes: about 1/41 = 2.4 % flicker, over the 2 % limit
-    "banding.visible": ("levitator-40k", {"camera.trigger": "none",
-                                          "camera.exposure": "1.01 ms"}),
-    # 20 us fits between two flashes 25 us apart
-    "banding.dark_rows": ("levitator-40k", {"camera.trigger": "none",
-                                            "camera.exposure": "20 us"}),
-    "banding.sweep_unsynchronised": ("rangefinder-58k", {"camera.trigger": "none",
-                                                         "camera.exposure": "8.28 ms"}),
-    # 533,232-tick frame > 256 counts x 1024 prescaler = 262,144 ticks
-    "timer.count_overflow": ("rangefinder-58k", {
-        "controller.timer": {"profile": "counter8-prescale-pow2"}}),
-    # 20 Hz: 1,449 flash periods of 552 ticks = 799,848 ticks = 8 x 99,981 (odd): a 16-bit
-    # counter needs a prescaler >= 799,848 / 65,536 = 12.2, and of 16, 32 ... 1024 none
-    # divides it
-    "timer.prescaler_breaks_lock": ("rangefinder-58k", {
-        "camera.frame_rate": "20 Hz", "controller.timer": {
-            "bits": 16, "prescaler_max": 1024, "prescaler_power_of_two": True}}),
-    # 2,000,000-tick frame: prescaler >= 31 for 16 bits; 32 divides 2,000,000 = 2^7 x 5^6
-    "timer.prescaler_needed": ("levitator-40k", {
-        "controller.timer": {"profile": "counter16-prescale16", "chainable": False}}),
-    "timer.counter_chained": ("rangefinder-58k", {"controller.timer": {"profile": "counter16"}}),
-    "timer.too_few_channels": ("levitator-40k", {
-        "controller.timer": {"profile": "counter32", "channels": 1}}),
-    "timer.no_compare_reload": ("levitator-40k", {
-        "controller.timer": {"profile": "counter32", "reload_per_period": False}}),
-    "timer.absolute_ticks_wrap": ("levitator-40k", {"controller.timer": {"profile": "counter32"}}),
-    **POWER_CASES,  # the power stage's own table (one case per led./switch./supply./stuck_on.)
-}
+load_all()
 
 
+def test_every_rule_has_an_example():
+    missing = sorted(code for code, r in RULES.items() if r.example is None)
+    assert not missing, f"rules without an example rig: {missing}"
+    bases = {r.example[0] for r in RULES.values() if r.example is not None}
+    assert bases <= set(EXAMPLES)
 
 
-def test_every_registered_code_has_a_case():
-    load_all()
-    assert set(CASES) == set(RULES), (
-        f"missing cases: {sorted(set(RULES) - set(CASES))}; "
-        f"stale cases: {sorted(set(CASES) - set(RULES))}")
-
-
-@pytest.mark.parametrize("code", sorted(CASES))
+@pytest.mark.parametrize("code", sorted(RULES))
 def test_code_is_reachable(code):
-    base, patch = CASES[code]
+    rule = RULES[code]
+    assert rule.example is not None, f"{code} has no example"
+    base, patch = rule.example
     plan = solve(rig_from_dict(patched(base, patch)))
     codes = {f.code for f in plan.findings}
-    assert code in codes, f"{code} not raised; got {sorted(codes)}"
-    severity = RULES[code].severity
-    if severity in ("hazard", "fault"):
+    assert code in codes, f"{code} not raised by its example; got {sorted(codes)}"
+    if rule.severity in ("hazard", "fault"):
         assert plan.verdict == "fail"

@@ -15,7 +15,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy.optimize import brentq
 
-from strobeplan.checks import RULES, load_all
+from strobeplan.checks import RULES
 from tests.conftest import EXAMPLES, example, plan_of, run_cli
 
 BOUNDED = settings(max_examples=30, deadline=None)
@@ -101,55 +101,6 @@ def test_continuous_option_heats_more_than_bursts():
     assert cont.led.pattern == "continuous" and burst.led.pattern == "burst"
     assert cont.led.junction_peak_k >= burst.led.junction_peak_k
     assert cont.led.average_power_w > burst.led.average_power_w
-
-
-# one rig per power-stage code (base example, patch); mirrors tests/test_finding_codes.py
-CASES = {
-    "led.pulse_over_rating": ("unsafe-bench", {}),
-    "led.ratings_disagree": ("levitator-40k", {"led.max_pulse_current": "3 A"}),
-    "led.rating_outside_table": ("unsafe-bench", {}),
-    "led.no_pulse_rating": ("rangefinder-58k", {}),
-    "led.fit_extrapolated": ("levitator-40k", {}),
-    "led.fit_assumed": ("unsafe-bench", {}),
-    "led.junction_over_limit": ("unsafe-bench", {"supply.series_resistor": "0.5 ohm"}),
-    "led.thermal_margin_low": ("unsafe-bench", {"supply.series_resistor": "3.6 ohm"}),
-    "led.average_over_dc_rating": ("levitator-40k", {"strobe.continuous": True,
-                                                     "strobe.pulse_width": "5 us"}),
-    "switch.gate_drive_low": ("unsafe-bench", {}),
-    "switch.overshoot": ("levitator-40k", {"switch.loop_inductance": "100 nH"}),
-    "switch.no_loop_inductance": ("levitator-40k", {"switch.loop_inductance": None}),
-    "switch.pulse_over_rating": ("levitator-40k", {"switch.max_pulse_current": "5 A"}),
-    "switch.slow_edges": ("levitator-40k", {"gate_driver.gate_resistor": "47 ohm"}),
-    "switch.edges_measured": ("levitator-40k", {"gate_driver.rise_time": "40 ns"}),
-    "supply.power_over_limit": ("levitator-40k", {"supply.max_power": "200 mW"}),
-    "supply.current_over_limit": ("levitator-40k", {"supply.max_current": "10 mA"}),
-    "supply.recharge_slow": ("levitator-40k", {"supply.storage_capacitance": "10 uF",
-                                               "supply.max_current": "5 mA"}),
-    "supply.brightness_drop": ("levitator-40k", {"supply.storage_capacitance": "22 uF",
-                                                 "supply.max_current": "100 mA"}),
-    "supply.stored_energy": ("levitator-40k", {}),
-    "stuck_on.burnout_fast": ("unsafe-bench", {}),
-    "stuck_on.burnout_slow": ("levitator-40k", {"supply.max_current": "2 A",
-                                                "supply.series_resistor_power": "20 W"}),
-    "stuck_on.resistor_overload": ("unsafe-bench", {}),
-}
-
-
-def test_every_power_code_has_a_case():
-    load_all()
-    # led.optical_* / led.output_* are image-chain rules (tests/test_finding_codes.py)
-    ours = {c for c in RULES if c.startswith(POWER_PREFIXES)
-            and c not in ("led.optical_exceeds_electrical", "led.output_extrapolated")}
-    assert ours == set(CASES)
-
-
-@pytest.mark.parametrize("code", sorted(CASES))
-def test_power_code_is_reachable(code):
-    base, patch = CASES[code]
-    plan = plan_of(base, patch)
-    assert code in power_findings(plan), (code, sorted(power_findings(plan)))
-    if RULES[code].severity in ("hazard", "fault"):
-        assert plan.verdict == "fail"
 
 
 def _peak_c(**patch):

@@ -55,4 +55,9 @@ def findings_markdown() -> str:
         r = RULES[code]
         lines += [f"## `{code}`", "", f"Severity: **{r.severity}**", "",
                   f"Trigger: {r.trigger}", "", f"Fix: {r.fix}", ""]
+        if r.example is not None:
+            base, patch = r.example
+            change = ", ".join(f"`{k} = {v!r}`" if v is not None else f"`{k}` removed"
+                               for k, v in patch.items()) or "as bundled"
+            lines += [f"Example: `{base}` with {change}", ""]
     return "\n".join(lines)

@@ -26,7 +26,8 @@ def _where(b) -> str:
               f"a whole number of flash periods",
       fix="set camera.exposure to a whole number of flash periods "
           "(banding.band_free_exposure_s), or lengthen it so that one flash more or less "
-          "matters less")
+          "matters less",
+      example=("levitator-40k", {"camera.trigger": "none", "camera.exposure": "1.01 ms"}))
 def banding_visible(plan):
     b = plan.banding
     if b is None:
@@ -52,7 +53,8 @@ def banding_visible(plan):
               "continuous train, so some rows (rolling shutter) or frames (free-running "
               "global shutter) get no light at all",
       fix="lengthen camera.exposure to at least one flash period plus the light pulse, or "
-          "flash more often (a smaller strobe.every)")
+          "flash more often (a smaller strobe.every)",
+      example=("levitator-40k", {"camera.trigger": "none", "camera.exposure": "20 us"}))
 def dark_rows(plan):
     b = plan.banding
     if b is None or not (b.free_running or b.shutter == "rolling"):
@@ -69,7 +71,8 @@ def dark_rows(plan):
               "steps: nothing tells the controller when a frame starts, so the steps do not "
               "follow the frames and one frame can mix two phases",
       fix="use sweep.slow_motion instead (the phase advances smoothly and every frame "
-          "samples it), or a camera with a trigger input")
+          "samples it), or a camera with a trigger input",
+      example=("rangefinder-58k", {"camera.trigger": "none", "camera.exposure": "8.28 ms"}))
 def sweep_unsynchronised(plan):
     b, t = plan.banding, plan.timing
     if b is None or not b.free_running or t.mode != "sweep":

@@ -15,7 +15,8 @@ PWM_BITS_MIN = 6.0            # common practice: 64 duty levels for a clean sine
       trigger=f"the integer tick counts realise a drive frequency more than "
               f"{FREQUENCY_ERROR_PPM:.0f} ppm from wave.frequency",
       fix="choose a controller.clock that is a multiple of the drive frequency (times the "
-          "carrier periods per cycle), or accept the realised frequency")
+          "carrier periods per cycle), or accept the realised frequency",
+      example=("rangefinder-58k", {"controller.clock": "1 MHz"}))
 def frequency_error(plan):
     t = plan.timing
     if abs(t.drive_frequency_error_ppm) <= FREQUENCY_ERROR_PPM:
@@ -31,7 +32,8 @@ def frequency_error(plan):
               f"transducer's motional response is more than {DETUNING_DB:.0f} dB down "
               "(Butterworth-Van Dyke, from resonance and Q)",
       fix="drive at the transducer's resonance (measure it: it moves with temperature and "
-          "load), or lower Q expectations for SPL and phase stability")
+          "load), or lower Q expectations for SPL and phase stability",
+      example=("levitator-40k", {"emitter.resonance": "40.6 kHz"}))
 def off_resonance(plan):
     d = plan.drive
     if d.detuning_db is None or d.detuning_db <= DETUNING_DB:
@@ -44,7 +46,8 @@ def off_resonance(plan):
 @rule("drive.carrier_not_filtered", "warning",
       trigger=f"the reconstruction filter and amplifier attenuate the PWM carrier less than "
               f"{CARRIER_ATTENUATION_DB:.0f} dB relative to the wave",
-      fix="lower the filter cutoff, raise its order, or raise the carrier frequency")
+      fix="lower the filter cutoff, raise its order, or raise the carrier frequency",
+      example=("levitator-40k", {"emitter.synthesis.filter": {"kind": "rc", "cutoff": "200 kHz"}}))
 def carrier_not_filtered(plan):
     d = plan.drive
     if d.carrier_attenuation_db is None or d.carrier_attenuation_db >= CARRIER_ATTENUATION_DB:
@@ -58,7 +61,8 @@ def carrier_not_filtered(plan):
 @rule("drive.pwm_resolution_low", "note",
       trigger=f"the carrier period has fewer than {2**PWM_BITS_MIN:.0f} ticks, so the "
               "sine-weighted duty has fewer than 64 levels",
-      fix="use a faster controller.clock or a lower carrier frequency")
+      fix="use a faster controller.clock or a lower carrier frequency",
+      example=("levitator-40k", {"controller.clock": "20 MHz"}))
 def pwm_resolution_low(plan):
     d = plan.drive
     if d.pwm_resolution_bits is None or d.pwm_resolution_bits >= PWM_BITS_MIN:

@@ -18,7 +18,8 @@ BLUR_PIXEL_LIMIT = 2.0
       trigger="contrast retention at the wave frequency (pulse shape x jitter x smear) is "
               "below strobe.min_retention (default 90 %)",
       fix="shorten strobe.pulse_width to at most exposure.max_pulse_width_s; if even a short "
-          "pulse misses, reduce the jitter, the phosphor decay or the smear")
+          "pulse misses, reduce the jitter, the phosphor decay or the smear",
+      example=("levitator-40k", {"strobe.pulse_width": "9 us"}))
 def retention_low(plan):
     e = plan.exposure
     if e is None:
@@ -44,7 +45,8 @@ def retention_low(plan):
               "a phosphor fraction above 0): the light outlasts the gate and its tail, not "
               "the gate, sets the flash",
       fix="expect the reported optical duration rather than the gate time; a direct-emitting "
-          "(non-phosphor) LED gives a sharper flash")
+          "(non-phosphor) LED gives a sharper flash",
+      example=("rangefinder-58k", {"strobe.pulse_width": "150 ns"}))
 def phosphor_dominates(plan):
     led = plan.rig.led
     if led is None or led.phosphor_fraction <= 0 or not led.phosphor_decay:
@@ -64,7 +66,8 @@ def phosphor_dominates(plan):
               f"duration) exceeds {BLUR_PIXEL_LIMIT:g} camera pixels at the object "
               "(camera.object_pixel)",
       fix="shorten strobe.pulse_width (blur scales with the optical duration) or accept a "
-          "coarser camera.object_pixel")
+          "coarser camera.object_pixel",
+      example=("rangefinder-58k", {}))
 def blur_over_pixel(plan):
     e = plan.exposure
     if e is None or plan.rig.wave.kind != "travelling" or e.blur_pixels is None:

@@ -29,7 +29,8 @@ def _f(x) -> float:
               "level): the wave drowns in read and quantisation noise",
       fix="more light per frame: a longer strobe.pulse_width (within the blur limit), a "
           "higher LED current (supply.voltage, a smaller series_resistor), a wider slit "
-          "(optics.source), more flashes per exposure (camera.exposure), or camera.binning")
+          "(optics.source), more flashes per exposure (camera.exposure), or camera.binning",
+      example=("levitator-40k", {"supply.voltage": "2 V"}))
 def too_dark(plan):
     i = plan.image
     if i is None or i.too_dark is None:
@@ -45,7 +46,8 @@ def too_dark(plan):
               "and the image no longer follows the pressure",
       fix="less light per frame: a narrower slit (optics.source width), a larger "
           "optics.cut_fraction, fewer flashes per exposure, a shorter pulse, or a neutral "
-          "density filter before the camera")
+          "density filter before the camera",
+      example=("levitator-40k", {"optics.source": {"width": "1 mm", "height": "1 mm"}}))
 def overexposed(plan):
     i = plan.image
     if i is None or i.sensor_saturated is None:
@@ -61,7 +63,8 @@ def overexposed(plan):
               "common practice): the wave is not visible",
       fix="raise the SPL at the view, cut more of the source image (a smaller opening raises "
           "the sensitivity f2/a), add light (see image.too_dark), or bin pixels / average "
-          "frames")
+          "frames",
+      example=("levitator-40k", {"supply.voltage": "2 V"}))
 def snr_low(plan):
     i = plan.image
     if i is None or i.snr_binned is None:
@@ -78,7 +81,8 @@ def snr_low(plan):
       trigger="the wave's deflection moves the source image past the cutoff's linear range "
               "(measuring range): the image clips and no longer scales with the pressure",
       fix="widen the opening (a smaller optics.cut_fraction or a taller source) or lower the "
-          "drive; a rod stop has a wider range")
+          "drive; a rod stop has a wider range",
+      example=("levitator-40k", {"optics.cut_fraction": 0.97}))
 def cutoff_saturated(plan):
     i = plan.image
     if i is None or i.saturated is None:
@@ -94,7 +98,8 @@ def cutoff_saturated(plan):
               "binned object pixels and the lens's Airy disc) is coarser than half the period of "
               "the wave's image (the sound wavelength, halved for a rod stop)",
       fix="a larger opening a (smaller cut_fraction or taller source), a shorter f2, a "
-          "longer lens focal length (smaller object pixel) or a smaller f-number")
+          "longer lens focal length (smaller object pixel) or a smaller f-number",
+      example=("levitator-40k", {"optics.cut_fraction": 0.9}))
 def resolution_coarse(plan):
     i = plan.image
     if i is None:
@@ -108,7 +113,8 @@ def resolution_coarse(plan):
 @rule("image.object_pixel_mismatch", "warning",
       trigger="camera.object_pixel is given and differs by more than 5 % from the one the "
               "lens, the pixel pitch and the layout give",
-      fix="remove camera.object_pixel (it is derived) or correct the lens or the layout")
+      fix="remove camera.object_pixel (it is derived) or correct the lens or the layout",
+      example=("unsafe-bench", {}))
 def object_pixel_mismatch(plan):
     i = plan.image
     if i is None or i.object_pixel_given_m is None:
@@ -124,7 +130,8 @@ def object_pixel_mismatch(plan):
       trigger="z-type: the astigmatic blur between the sagittal and tangential foci (both "
               "mirrors, from the offset angle) exceeds the source image's opening a",
       fix="a smaller optics.offset_angle (the blur grows as its square), longer focal "
-          "lengths, or a larger opening")
+          "lengths, or a larger opening",
+      example=("unsafe-bench", {}))
 def astigmatism(plan):
     i = plan.image
     if i is None or i.astigmatic_blur_m is None:
@@ -139,7 +146,8 @@ def astigmatism(plan):
       trigger="double-pass: the two passes image the test region more than a quarter of the "
               "sound wavelength apart (source and cutoff separated at the centre of curvature)",
       fix="use a beamsplitter (source_separation = 0), bring the test region closer to the "
-          "mirror, or separate source and cutoff less")
+          "mirror, or separate source and cutoff less",
+      example=("rangefinder-58k", {"optics.source_separation": "30 mm"}))
 def double_image(plan):
     i = plan.image
     if i is None or i.double_image_m is None:
@@ -153,7 +161,8 @@ def double_image(plan):
 @rule("image.bench_too_short", "warning",
       trigger="optics.bench_length is given and the layout needs more (an estimate: mirror "
               "separation or focal lengths, the camera behind the cutoff, the mounts)",
-      fix="shorter focal lengths, a folded beam (flat mirrors), or a double-pass layout")
+      fix="shorter focal lengths, a folded beam (flat mirrors), or a double-pass layout",
+      example=("levitator-40k", {"optics.bench_length": "2 m"}))
 def bench_too_short(plan):
     i = plan.image
     if i is None or i.bench_length_m is None:
@@ -167,7 +176,8 @@ def bench_too_short(plan):
 @rule("image.lens_clips", "note",
       trigger="the camera lens's entrance pupil (focal length / f-number) is smaller than the "
               "source image at the cutoff: it clips the light",
-      fix="open the lens (a smaller camera.lens.f_number) or use a smaller source")
+      fix="open the lens (a smaller camera.lens.f_number) or use a smaller source",
+      example=("levitator-40k", {"camera.lens": {"focal_length": "50 mm", "f_number": 64}}))
 def lens_clips(plan):
     i = plan.image
     if i is None:
@@ -179,7 +189,8 @@ def lens_clips(plan):
 @rule("image.mirror_underfills", "note",
       trigger="the mirror's image spans under half of the sensor's short side (or more than "
               "it): pixels are wasted (or the field is cut)",
-      fix="a lens whose focal length fills the sensor (image.filling_focal_length_m)")
+      fix="a lens whose focal length fills the sensor (image.filling_focal_length_m)",
+      example=("levitator-40k", {"camera.lens": {"focal_length": "25 mm", "f_number": 4}}))
 def mirror_underfills(plan):
     i = plan.image
     if i is None or i.sensor_fill is None:
@@ -195,7 +206,8 @@ def mirror_underfills(plan):
               "peak current exceeds the electrical power into the LED: the ratings or the "
               "curve are inconsistent",
       fix="check led.optical_power (radiant watts, not lumens) and the relative_output curve; "
-          "set led.efficiency to the datasheet's wall-plug efficiency")
+          "set led.efficiency to the datasheet's wall-plug efficiency",
+      example=("levitator-40k", {"led.optical_power": {"current": "700 mA", "power": "7 W"}}))
 def optical_exceeds_electrical(plan):
     i = plan.image
     if i is None or i.wall_plug_efficiency is None:
@@ -209,7 +221,8 @@ def optical_exceeds_electrical(plan):
 @rule("led.output_extrapolated", "note",
       trigger="the peak current is beyond the last point of led.relative_output (or the flux "
               "rating): the output continues the last segment's slope, an extrapolation",
-      fix="add the datasheet's relative output at the pulse current, or measure it")
+      fix="add the datasheet's relative output at the pulse current, or measure it",
+      example=("levitator-40k", {}))
 def output_extrapolated(plan):
     i = plan.image
     if i is None or i.output_extrapolated is None:
@@ -225,7 +238,8 @@ def output_extrapolated(plan):
               f"pattern) in under {EYE_HAZARD_TIME} s: risk group 3. A caution, not a "
               "certification",
       fix="never look into the cutoff: align with a card or a camera, at reduced current "
-          "(continuous low-current alignment mode), or with a neutral-density filter")
+          "(continuous low-current alignment mode), or with a neutral-density filter",
+      example=("unsafe-bench", {"led.emitting_size": "50 um"}))
 def eye_hazard(plan):
     e = plan.eye
     if e is None:

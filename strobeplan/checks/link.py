@@ -36,7 +36,8 @@ def _alternative_hint(t) -> str | None:
               "at their tolerance limits) exceeds the input maximum, VDD + 0.3 V at the "
               "destination's lowest supply (unless camera.trigger_input.tolerant)",
       fix="lower the ratio bottom/(top + bottom) (raise trigger_link.top or lower "
-          "trigger_link.bottom), use tighter resistors, or remove top/bottom to get a proposal")
+          "trigger_link.bottom), use tighter resistors, or remove top/bottom to get a proposal",
+      example=("unsafe-bench", {}))
 def over_input_max(plan):
     t = _link(plan)
     if t is None or not (t.margin_max_v < 0):
@@ -52,7 +53,8 @@ def over_input_max(plan):
               "guaranteed VOH at the divider's current, resistors at their limits, input "
               "leakage) is below VIH at the destination's highest supply",
       fix="raise the ratio bottom/(top + bottom), use tighter resistors, or remove top/bottom "
-          "to get a proposal")
+          "to get a proposal",
+      example=("unsafe-bench", {"trigger_link.top": "2 kohm", "trigger_link.bottom": "1 kohm"}))
 def below_vih(plan):
     t = _link(plan)
     if t is None or t.v_high_min_v is None or not math.isfinite(t.v_high_min_v) \
@@ -68,7 +70,12 @@ def below_vih(plan):
       trigger="the divider's highest worst-case low level (source VOL max through the highest "
               "ratio, plus input current through the Thevenin resistance) is above VIL at the "
               "destination's lowest supply",
-      fix="lower the divider's resistance (the input current drops less), or use a buffer")
+      fix="lower the divider's resistance (the input current drops less), or use a buffer",
+      example=("levitator-40k", {"controller.output": "cmos5",
+                                 "gate_driver.input": "cmos5",
+                                 "camera.trigger_input": {"family": "ttl5"},
+                                 "trigger_link.top": "10 kohm",
+                                 "trigger_link.bottom": "10 kohm"}))
 def low_above_vil(plan):
     t = _link(plan)
     if t is None or not (t.margin_low_v < 0):
@@ -82,7 +89,8 @@ def low_above_vil(plan):
 @rule("trigger_link.source_overloaded", "hazard",
       trigger="the divider draws more than the source family's rated output current (the "
               "largest current its VOH is guaranteed at)",
-      fix="raise trigger_link.top and trigger_link.bottom together (same ratio, more ohms)")
+      fix="raise trigger_link.top and trigger_link.bottom together (same ratio, more ohms)",
+      example=("unsafe-bench", {"trigger_link.top": "100 ohm", "trigger_link.bottom": "120 ohm"}))
 def source_overloaded(plan):
     t = _link(plan)
     if t is None or not (t.current_a > t.rated_current_a * (1 + 1e-12)):
@@ -98,7 +106,8 @@ def source_overloaded(plan):
               "input capacitance) exceeds 1 % of the longer of strobe.pulse_width and "
               "camera.trigger_latency",
       fix="lower both divider resistors (same ratio), within the source's rated current, or "
-          "use a logic-level translator")
+          "use a logic-level translator",
+      example=("rangefinder-58k", {}))
 def edge_too_slow(plan):
     t = _link(plan)
     if t is None or t.edge_limit_s is None:
@@ -115,7 +124,10 @@ def edge_too_slow(plan):
       trigger="no pair of the chosen E-series (10 ohm to 1 Mohm) meets every worst-case "
               "condition between controller.output and camera.trigger_input",
       fix="use a logic-level translator (a buffer powered from the camera's supply), tighter "
-          "resistors (trigger_link.tolerance), or a tolerant input")
+          "resistors (trigger_link.tolerance), or a tolerant input",
+      example=("levitator-40k", {"controller.output": "lvcmos18",
+                                 "gate_driver.input": "lvcmos18",
+                                 "camera.trigger_input": {"family": "lvcmos33"}}))
 def no_feasible_pair(plan):
     t = plan.trigger_link
     if t is None or t.mode != "infeasible":
@@ -129,7 +141,9 @@ def no_feasible_pair(plan):
       trigger="the controller's guaranteed high level (lowest supply) is below the gate "
               "driver's input VIH (at the family's highest supply)",
       fix="choose a gate driver whose input family matches controller.output, or add a "
-          "logic-level translator")
+          "logic-level translator",
+      example=("levitator-40k", {"controller.output": "lvcmos12",
+                                 "camera.trigger_input": {"family": "lvcmos12"}}))
 def gate_below_vih(plan):
     g = plan.gate_link
     if g is None or g.margin_high_v >= 0:
@@ -142,7 +156,10 @@ def gate_below_vih(plan):
 @rule("gate_link.over_input_max", "hazard",
       trigger="the controller's highest output level exceeds the gate driver's input maximum "
               "(its supply + 0.3 V, common practice)",
-      fix="power the gate driver from a supply at least the controller's, or add a translator")
+      fix="power the gate driver from a supply at least the controller's, or add a translator",
+      example=("levitator-40k", {"controller.output": "cmos5",
+                                 "gate_driver.supply": "4 V",
+                                 "camera.trigger_input": {"family": "lvcmos33"}}))
 def gate_over_input_max(plan):
     g = plan.gate_link
     if g is None or g.margin_max_v >= 0:

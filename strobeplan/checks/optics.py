@@ -23,7 +23,8 @@ ULTRASOUND_SOURCE = ("Howard, Hansen & Zander 2004, J. Occup. Health Safety - Au
               "contrast times the flash's retention is below optics.min_contrast "
               "(default two grey levels at half scale, 2 / 2^(bits - 1), common practice)",
       fix="raise the SPL at the view (drive voltage), lengthen the sound path, use a longer "
-          "cutoff_distance or a smaller cutoff_opening (cut more of the source image)")
+          "cutoff_distance or a smaller cutoff_opening (cut more of the source image)",
+      example=("rangefinder-58k", {"emitter.drive_voltage": "2 V", "camera.full_well": None}))
 def not_visible(plan):
     o = plan.optics
     if o is None or o.visible_contrast is None:
@@ -51,7 +52,8 @@ def _log10(x: float) -> float:
 @rule("optics.saturated", "warning",
       trigger="the knife-edge contrast reaches 1: the source image moves wholly on or off the "
               "edge, so the image clips and no longer scales with the pressure",
-      fix="widen optics.cutoff_opening, shorten the cutoff_distance or lower the drive")
+      fix="widen optics.cutoff_opening, shorten the cutoff_distance or lower the drive",
+      example=("levitator-40k", {"optics.cutoff_opening": "20 um"}))
 def saturated(plan):
     o = plan.optics
     if o is None or not o.saturated:
@@ -67,7 +69,8 @@ def saturated(plan):
       trigger="emitter.radius is given and the view is nearer than the near-field length "
               "radius^2 / wavelength: the far-field SPL estimate does not hold there",
       fix="measure the level at the view and give it as emitter.spl_at_view, or image beyond "
-          "the near field")
+          "the near field",
+      example=("rangefinder-58k", {"emitter.radius": "40 mm"}))
 def near_field(plan):
     o = plan.optics
     if o is None or not o.in_near_field:
@@ -83,7 +86,8 @@ def near_field(plan):
               f"1 m from the emitter exceeds {ULTRASOUND_LIMIT_DB:g} dB ({ULTRASOUND_SOURCE}); "
               "a caution, not a physics limit: local rules decide",
       fix="enclose or shield the emitter, keep people beyond the distance where the level "
-          "falls below the limit, or wear hearing protection; follow local regulations")
+          "falls below the limit, or wear hearing protection; follow local regulations",
+      example=("unsafe-bench", {}))
 def ultrasound_exposure(plan):
     o = plan.optics
     f = plan.timing.drive_frequency_hz

@@ -28,7 +28,8 @@ def _c(kelvin):
               "(led.pulse_ratings interpolated log-log at the pulse width and in-burst duty, "
               "else led.max_pulse_current)",
       fix="raise supply.series_resistor or lower supply.voltage until led.peak_current_a is "
-          "below led.rated_pulse_current_a, or shorten the pulse / lower the duty")
+          "below led.rated_pulse_current_a, or shorten the pulse / lower the duty",
+      example=("unsafe-bench", {}))
 def pulse_over_rating(plan):
     s = plan.led
     if s is None or s.rated_pulse_current_a is None:
@@ -44,7 +45,8 @@ def pulse_over_rating(plan):
       trigger=f"led.max_pulse_current and the led.pulse_ratings value at the flash's width and "
               f"duty differ by more than {RATING_DISAGREEMENT:.0%}: the lower one is used",
       fix="check both datasheet figures (a flat maximum usually belongs to one width and duty "
-          "of the pulse table)")
+          "of the pulse table)",
+      example=("levitator-40k", {"led.max_pulse_current": "3 A"}))
 def ratings_disagree(plan):
     s = plan.led
     if s is None or s.table_pulse_current_a is None or s.max_pulse_current_a is None:
@@ -62,7 +64,8 @@ def ratings_disagree(plan):
       trigger="the planned pulse width is longer than the led.pulse_ratings table covers, or "
               "its in-burst duty is above the table's highest duty: the rating is extrapolated",
       fix="add the datasheet's rating for this width and duty to led.pulse_ratings, or move "
-          "the pulse inside the table")
+          "the pulse inside the table",
+      example=("unsafe-bench", {}))
 def rating_outside_table(plan):
     s = plan.led
     if s is None or s.rating_inside_table is None:
@@ -75,7 +78,8 @@ def rating_outside_table(plan):
 
 @rule("led.no_pulse_rating", "warning",
       trigger="no led.pulse_ratings table: the overdrive is checked by the thermal model only",
-      fix="copy the datasheet's peak-current-versus-pulse-width curve into led.pulse_ratings")
+      fix="copy the datasheet's peak-current-versus-pulse-width curve into led.pulse_ratings",
+      example=("rangefinder-58k", {}))
 def no_pulse_rating(plan):
     s = plan.led
     if s is None or plan.rig.led.pulse_ratings:
@@ -89,7 +93,8 @@ def no_pulse_rating(plan):
       trigger=f"the peak current is more than {EXTRAPOLATION_RATIO:g}x the highest "
               "led.forward_voltage datasheet point: the diode fit is extrapolated",
       fix="add a forward-voltage point at a pulsed current near the operating point (from the "
-          "datasheet's pulsed I-V curve or a bench measurement)")
+          "datasheet's pulsed I-V curve or a bench measurement)",
+      example=("levitator-40k", {}))
 def fit_extrapolated(plan):
     s = plan.led
     if s is None:
@@ -106,7 +111,8 @@ def fit_extrapolated(plan):
 @rule("led.fit_assumed", "note",
       trigger="fewer than three led.forward_voltage points: part of the diode model is assumed "
               "(apparent ideality 2 and/or the series resistance)",
-      fix="give three datasheet points spanning the operating range, or led.series_resistance")
+      fix="give three datasheet points spanning the operating range, or led.series_resistance",
+      example=("unsafe-bench", {}))
 def fit_assumed(plan):
     s = plan.led
     if s is None or not s.fit_assumed or s.fit_assumed == "series resistance given":
@@ -118,7 +124,8 @@ def fit_assumed(plan):
       trigger="the peak junction temperature of the periodic flash pattern exceeds "
               "led.junction_max",
       fix="lower the peak current (supply.series_resistor, supply.voltage), shorten the pulse, "
-          "flash fewer times per frame, or improve the heat sinking (led.thermal)")
+          "flash fewer times per frame, or improve the heat sinking (led.thermal)",
+      example=("unsafe-bench", {"supply.series_resistor": "0.5 ohm"}))
 def junction_over_limit(plan):
     s = plan.led
     if s is None:
@@ -132,7 +139,8 @@ def junction_over_limit(plan):
 @rule("led.thermal_margin_low", "warning",
       trigger="the peak junction temperature is within led.min_margin (default 10 K, common "
               "practice) of led.junction_max",
-      fix="lower the peak current or the flash count, or improve the heat sinking")
+      fix="lower the peak current or the flash count, or improve the heat sinking",
+      example=("unsafe-bench", {"supply.series_resistor": "3.6 ohm"}))
 def thermal_margin_low(plan):
     s = plan.led
     if s is None:
@@ -146,7 +154,8 @@ def thermal_margin_low(plan):
 @rule("led.average_over_dc_rating", "hazard",
       trigger="the average LED current over the whole flash pattern exceeds led.max_dc_current "
               "(common practice: the DC rating bounds the average)",
-      fix="flash fewer times per frame, lower the frame rate or the peak current")
+      fix="flash fewer times per frame, lower the frame rate or the peak current",
+      example=("levitator-40k", {"strobe.continuous": True, "strobe.pulse_width": "5 us"}))
 def average_over_dc_rating(plan):
     s = plan.led
     if s is None:
@@ -162,7 +171,8 @@ def average_over_dc_rating(plan):
       trigger="gate_driver.supply is below switch.rated_gate_voltage, or within 1 V of "
               "switch.plateau_voltage: the MOSFET may stay in its linear region and overheat",
       fix="use a gate-driver supply at or above the switch's rated gate voltage (and at least "
-          "1 V above its plateau), or a logic-level MOSFET rated at the available drive")
+          "1 V above its plateau), or a logic-level MOSFET rated at the available drive",
+      example=("unsafe-bench", {}))
 def gate_drive_low(plan):
     s = plan.switch
     if s is None or s.gate_drive_margin_v >= 0:
@@ -179,7 +189,8 @@ def gate_drive_low(plan):
       trigger="turn-off overshoot V + L*di/dt (supply.voltage, switch.loop_inductance, the "
               "fall time) exceeds switch.max_drain_voltage",
       fix="shorten the capacitor-LED-switch loop (less inductance), slow the turn-off with a "
-          "larger gate resistor, add a clamp or snubber, or use a higher-voltage switch")
+          "larger gate resistor, add a clamp or snubber, or use a higher-voltage switch",
+      example=("levitator-40k", {"switch.loop_inductance": "100 nH"}))
 def overshoot(plan):
     s = plan.switch
     if s is None or s.vds_peak_v is None:
@@ -192,7 +203,8 @@ def overshoot(plan):
 
 @rule("switch.no_loop_inductance", "note",
       trigger="switch.loop_inductance not given: the turn-off overshoot is not checked",
-      fix="estimate the loop inductance (about 1 nH per mm of loop) and give it")
+      fix="estimate the loop inductance (about 1 nH per mm of loop) and give it",
+      example=("levitator-40k", {"switch.loop_inductance": None}))
 def no_loop_inductance(plan):
     if plan.switch is None or plan.rig.switch.loop_inductance is not None:
         return None
@@ -201,7 +213,8 @@ def no_loop_inductance(plan):
 
 @rule("switch.pulse_over_rating", "hazard",
       trigger="the flash's peak current exceeds switch.max_pulse_current",
-      fix="raise supply.series_resistor or use a switch with a higher pulsed-current rating")
+      fix="raise supply.series_resistor or use a switch with a higher pulsed-current rating",
+      example=("levitator-40k", {"switch.max_pulse_current": "5 A"}))
 def switch_pulse_over_rating(plan):
     s = plan.switch
     if s is None:
@@ -216,7 +229,8 @@ def switch_pulse_over_rating(plan):
       trigger=f"rise plus fall time of the LED current exceeds {EDGE_FRACTION:.0%} of the "
               "pulse width: the flash is not the rectangle the gate time suggests",
       fix="more gate current (higher driver supply, smaller gate resistor), a switch with less "
-          "gate charge, or a longer pulse")
+          "gate charge, or a longer pulse",
+      example=("levitator-40k", {"gate_driver.gate_resistor": "47 ohm"}))
 def slow_edges(plan):
     s = plan.switch
     if s is None:
@@ -231,7 +245,8 @@ def slow_edges(plan):
 @rule("switch.edges_measured", "note",
       trigger="gate_driver.rise_time / fall_time given: measured edges replace the gate-charge "
               "estimate",
-      fix="nothing to fix; remove the measured edges to see the estimate")
+      fix="nothing to fix; remove the measured edges to see the estimate",
+      example=("levitator-40k", {"gate_driver.rise_time": "40 ns"}))
 def edges_measured(plan):
     s = plan.switch
     if s is None or not s.edges_source.startswith("measured"):
@@ -243,7 +258,8 @@ def edges_measured(plan):
 @rule("supply.power_over_limit", "fault",
       trigger="average power drawn by the flashes exceeds supply.max_power",
       fix="flash fewer times per frame, lower the frame rate or the pulse energy, or use a "
-          "larger boost converter")
+          "larger boost converter",
+      example=("levitator-40k", {"supply.max_power": "200 mW"}))
 def power_over_limit(plan):
     s = plan.supply
     if s is None:
@@ -256,7 +272,8 @@ def power_over_limit(plan):
 
 @rule("supply.current_over_limit", "fault",
       trigger="average current drawn by the flashes exceeds supply.max_current",
-      fix="flash fewer times per frame, lower the frame rate or the peak current")
+      fix="flash fewer times per frame, lower the frame rate or the peak current",
+      example=("levitator-40k", {"supply.max_current": "10 mA"}))
 def current_over_limit(plan):
     s = plan.supply
     if s is None:
@@ -272,7 +289,9 @@ def current_over_limit(plan):
       trigger="the boost cannot refill the storage capacitor at its current limit before the "
               "next burst (recharge time longer than the idle time)",
       fix="a larger supply.max_current, a larger storage capacitor (less droop per burst) or "
-          "fewer flashes per frame")
+          "fewer flashes per frame",
+      example=("levitator-40k", {"supply.storage_capacitance": "10 uF",
+                                 "supply.max_current": "5 mA"}))
 def recharge_slow(plan):
     s = plan.supply
     if s is None:
@@ -286,7 +305,9 @@ def recharge_slow(plan):
 @rule("supply.brightness_drop", "warning",
       trigger=f"the last flash of a burst is more than {BRIGHTNESS_CHANGE_MAX:.0%} dimmer than "
               "the first (the storage capacitor sags across the burst; common practice limit)",
-      fix="a larger storage capacitor or a boost with a higher current limit")
+      fix="a larger storage capacitor or a boost with a higher current limit",
+      example=("levitator-40k", {"supply.storage_capacitance": "22 uF",
+                                 "supply.max_current": "100 mA"}))
 def brightness_drop(plan):
     s = plan.supply
     if s is None:
@@ -299,7 +320,8 @@ def brightness_drop(plan):
 
 @rule("supply.stored_energy", "note",
       trigger="always, with a storage capacitor: the energy it holds (C V^2 / 2)",
-      fix="discharge the capacitor before touching the LED side")
+      fix="discharge the capacitor before touching the LED side",
+      example=("levitator-40k", {}))
 def stored_energy(plan):
     s = plan.supply
     if s is None:
@@ -311,7 +333,8 @@ def stored_energy(plan):
 @rule("stuck_on.burnout_fast", "hazard",
       trigger=f"with the gate stuck on, the junction reaches led.junction_max in under "
               f"{REACTION_TIME:g} s (no person reacts in time)",
-      fix=STUCK_ON_FIX)
+      fix=STUCK_ON_FIX,
+      example=("unsafe-bench", {}))
 def burnout_fast(plan):
     s = plan.stuck_on
     if s is None:
@@ -331,7 +354,9 @@ def _reaches(s):
 @rule("stuck_on.burnout_slow", "warning",
       trigger=f"with the gate stuck on, the junction reaches led.junction_max, but only after "
               f"{REACTION_TIME:g} s or more",
-      fix=STUCK_ON_FIX)
+      fix=STUCK_ON_FIX,
+      example=("levitator-40k", {"supply.max_current": "2 A",
+                                 "supply.series_resistor_power": "20 W"}))
 def burnout_slow(plan):
     s = plan.stuck_on
     if s is None:
@@ -346,7 +371,8 @@ def burnout_slow(plan):
 @rule("stuck_on.resistor_overload", "hazard",
       trigger="with the gate stuck on, the series resistor dissipates more than "
               "supply.series_resistor_power",
-      fix=STUCK_ON_FIX)
+      fix=STUCK_ON_FIX,
+      example=("unsafe-bench", {}))
 def resistor_overload(plan):
     s = plan.stuck_on
     if s is None:

@@ -54,6 +54,7 @@ class Rule:
     trigger: str
     fix: str
     func: Callable
+    example: tuple[str, dict] | None = None  # (bundled example, {dotted.key: value}) firing it
 
     @property
     def subject(self) -> str:
@@ -63,8 +64,13 @@ class Rule:
 RULES: dict[str, Rule] = {}
 
 
-def rule(code: str, severity: str, trigger: str, fix: str):
-    """Register a rule under a stable dotted lower-case code (``section.condition``)."""
+def rule(code: str, severity: str, trigger: str, fix: str,
+         example: tuple[str, dict] | None = None):
+    """Register a rule under a stable dotted lower-case code (``section.condition``).
+
+    ``example`` is a rig that fires it: a bundled example's name and the keys to change
+    (dotted paths; None deletes a key). The docs show it and the tests solve it.
+    """
     if severity not in SEVERITIES:
         raise ValueError(f"unknown severity {severity!r}")
     if code in RULES:
@@ -73,7 +79,7 @@ def rule(code: str, severity: str, trigger: str, fix: str):
         raise ValueError(f"finding code {code!r} must be dotted lower case")
 
     def register(func):
-        RULES[code] = Rule(code, severity, trigger, fix, func)
+        RULES[code] = Rule(code, severity, trigger, fix, func, example)
         return func
 
     return register

@@ -20,7 +20,8 @@ def _fits(plan, how):
       trigger="a counter period of the plan exceeds what the counter can hold even with its "
               "largest prescaler and, when chainable, two chained counters",
       fix="use a wider counter (controller.timer), a slower controller.clock, or a shorter "
-          "period (a higher camera.frame_rate, a smaller strobe.every)")
+          "period (a higher camera.frame_rate, a smaller strobe.every)",
+      example=("rangefinder-58k", {"controller.timer": {"profile": "counter8-prescale-pow2"}}))
 def count_overflow(plan):
     out = []
     for need, _fit in _fits(plan, ("none",)):
@@ -38,7 +39,11 @@ def count_overflow(plan):
               "it: the prescaled period differs from the plan's, so the counter drifts "
               "against the others and the phase lock is lost",
       fix="chain two counters (controller.timer.chainable), use a wider counter, or choose "
-          "a clock or frame rate whose period is a multiple of an allowed prescaler")
+          "a clock or frame rate whose period is a multiple of an allowed prescaler",
+      example=("rangefinder-58k", {"camera.frame_rate": "20 Hz",
+                                   "controller.timer": {"bits": 16,
+                                                        "prescaler_max": 1024,
+                                                        "prescaler_power_of_two": True}}))
 def prescaler_breaks_lock(plan):
     out = []
     for need, fit in _fits(plan, ("prescaler",)):
@@ -60,7 +65,9 @@ def prescaler_breaks_lock(plan):
               "then move in steps of the prescaler, so the phase (or trigger) resolution is "
               "that many times coarser",
       fix="chain two counters (controller.timer.chainable) or use a wider counter to keep "
-          "one-tick resolution")
+          "one-tick resolution",
+      example=("levitator-40k", {"controller.timer": {"profile": "counter16-prescale16",
+                                 "chainable": False}}))
 def prescaler_needed(plan):
     out = []
     t = plan.timing
@@ -84,7 +91,8 @@ def prescaler_needed(plan):
 @rule("timer.counter_chained", "note",
       trigger="a counter period exceeds one counter but fits two chained counters (one "
               "counts the other's overflows): exact, at the cost of one more counter",
-      fix="nothing to fix; wire the chain, or use a wider counter to save one")
+      fix="nothing to fix; wire the chain, or use a wider counter to save one",
+      example=("rangefinder-58k", {"controller.timer": {"profile": "counter16"}}))
 def counter_chained(plan):
     out = []
     for need, _fit in _fits(plan, ("chained",)):
@@ -98,7 +106,8 @@ def counter_chained(plan):
       trigger="a counter needs more compare channels than the timer has (the flash counter "
               "needs two: the flash edge and the gate end; the frame counter two: the camera "
               "trigger and the first flash)",
-      fix="use a timer profile with at least two compare channels per counter")
+      fix="use a timer profile with at least two compare channels per counter",
+      example=("levitator-40k", {"controller.timer": {"profile": "counter32", "channels": 1}}))
 def too_few_channels(plan):
     s = plan.timer
     if s is None or s.channels >= s.channels_needed:
@@ -112,7 +121,9 @@ def too_few_channels(plan):
               "the timer cannot reload its compare values per period "
               "(controller.timer.reload_per_period = false)",
       fix="use a timer with shadow compare registers or DMA updates "
-          "(reload_per_period = true), or a square drive (remove [emitter.synthesis])")
+          "(reload_per_period = true), or a square drive (remove [emitter.synthesis])",
+      example=("levitator-40k", {"controller.timer": {"profile": "counter32",
+                                 "reload_per_period": False}}))
 def no_compare_reload(plan):
     s = plan.timer
     if s is None or s._model.reload_per_period:
@@ -128,7 +139,8 @@ def no_compare_reload(plan):
       trigger="the schedule's rows count ticks from the start of the run; a 32-bit count of "
               "them wraps after 2^32 ticks",
       fix="keep absolute counts in 64 bits, or run the per-frame counters of "
-          "`strobeplan export`, which restart every frame")
+          "`strobeplan export`, which restart every frame",
+      example=("levitator-40k", {"controller.timer": {"profile": "counter32"}}))
 def absolute_ticks_wrap(plan):
     s = plan.timer
     if s is None or s.absolute_wrap_s is None:

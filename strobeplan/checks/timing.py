@@ -17,7 +17,8 @@ SMEAR_LIMIT = 0.98
               "even with the camera trigger placed just before a flash (rolling shutters "
               "are reported as timing.rolling_window_too_short)",
       fix="lengthen camera.exposure to at least the light pulse "
-          "(flash.light_length_s), or shorten strobe.pulse_width")
+          "(flash.light_length_s), or shorten strobe.pulse_width",
+      example=("levitator-40k", {"camera.exposure": "500 ns"}))
 def no_flash_in_exposure(plan):
     t, cam = plan.timing, plan.rig.camera
     if cam is None or cam.shutter == "rolling":
@@ -35,7 +36,8 @@ def no_flash_in_exposure(plan):
               "no flash can light every row (a continuous train or a free-running camera is "
               "judged by banding.* instead)",
       fix="lengthen camera.exposure beyond camera.readout by at least one flash period, or "
-          "use a global-shutter camera")
+          "use a global-shutter camera",
+      example=("rangefinder-58k", {"camera.readout": "2 ms"}))
 def rolling_window_too_short(plan):
     t, cam = plan.timing, plan.rig.camera
     if cam is None or cam.shutter != "rolling":
@@ -52,7 +54,8 @@ def rolling_window_too_short(plan):
 @rule("timing.phase_step_below_resolution", "warning",
       trigger="a phase-sweep step is finer than the timer's phase resolution "
               "(360 deg x tick x f), so neighbouring frames repeat the same edge",
-      fix="use fewer sweep steps, a larger span per step, or a faster controller.clock")
+      fix="use fewer sweep steps, a larger span per step, or a faster controller.clock",
+      example=("rangefinder-58k", {"sweep.steps": 1000}))
 def phase_step_below_resolution(plan):
     t = plan.timing
     if t.sweep_step_deg is None or t.sweep_step_deg >= t.phase_resolution_deg:
@@ -66,7 +69,10 @@ def phase_step_below_resolution(plan):
       trigger="separate clocks (shared_clock = false) drift far enough within one exposure "
               f"to keep less than {SMEAR_LIMIT:.0%} of the contrast",
       fix="drive the emitter and the strobe from one clock (shared_clock = true), or shorten "
-          "the exposure")
+          "the exposure",
+      example=("levitator-40k", {"controller.shared_clock": False,
+                                 "controller.clock_tolerance": "1000 ppm",
+                                 "camera.exposure": "20 ms"}))
 def clock_drift_smear(plan):
     t = plan.timing
     if plan.rig.controller.shared_clock or t.drift_per_exposure_deg is None:
@@ -82,7 +88,9 @@ def clock_drift_smear(plan):
       trigger="shared_clock = false: the flash is not locked to the drive, so the frozen "
               "phase wanders from frame to frame at 360 deg x f x tolerance per second",
       fix="derive the emitter drive and the flash timer from one clock, or re-synchronise "
-          "on a drive edge every frame")
+          "on a drive edge every frame",
+      example=("levitator-40k", {"controller.shared_clock": False,
+                                 "controller.clock_tolerance": "20 ppm"}))
 def phase_unlocked(plan):
     t = plan.timing
     if plan.rig.controller.shared_clock:
@@ -94,7 +102,8 @@ def phase_unlocked(plan):
 @rule("timing.slow_motion_smear", "warning",
       trigger=f"slow motion advances the phase so fast that the flashes of one exposure keep "
               f"less than {SMEAR_LIMIT:.0%} of the contrast",
-      fix="lower sweep.slow_motion, shorten the exposure, or raise strobe.every")
+      fix="lower sweep.slow_motion, shorten the exposure, or raise strobe.every",
+      example=("levitator-40k", {"sweep": {"slow_motion": "300 Hz"}, "strobe.every": 1}))
 def slow_motion_smear(plan):
     t = plan.timing
     if t.mode != "slow_motion" or plan.rig.camera is None:
@@ -108,7 +117,8 @@ def slow_motion_smear(plan):
 @rule("timing.slow_motion_quantised", "warning",
       trigger="the apparent frequency the timer can realise (an integer tick step per flash) "
               "differs from sweep.slow_motion by more than 5 %",
-      fix="use a faster controller.clock or choose an apparent frequency near the reported one")
+      fix="use a faster controller.clock or choose an apparent frequency near the reported one",
+      example=("levitator-40k", {"sweep": {"slow_motion": "1 Hz"}, "strobe.every": 1}))
 def slow_motion_quantised(plan):
     t = plan.timing
     if t.mode != "slow_motion":
@@ -124,7 +134,8 @@ def slow_motion_quantised(plan):
 @rule("timing.frame_rate_adjusted", "note",
       trigger="the frame period was rounded to a whole number of flash periods and the "
               "realised frame rate differs from camera.frame_rate by more than 0.1 %",
-      fix="pick a frame rate that divides the flash rate, or accept the reported one")
+      fix="pick a frame rate that divides the flash rate, or accept the reported one",
+      example=("levitator-40k", {"strobe.every": 7, "camera.frame_rate": "53 Hz"}))
 def frame_rate_adjusted(plan):
     t, cam = plan.timing, plan.rig.camera
     if cam is None:
