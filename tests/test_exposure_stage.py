@@ -21,9 +21,6 @@ EXPOSURE_KEYS = {"optical_duration_s", "blur_distance_m", "blur_pixels", "wavele
                  "retention", "retention_by_harmonic", "max_pulse_width_s"}
 OPTICS_KEYS = {"spl_at_view_db", "deflection_rad", "contrast", "visible_contrast",
                "saturated"}
-MY_CODES = {"exposure.retention_low", "exposure.phosphor_dominates",
-            "exposure.blur_over_pixel", "optics.not_visible", "optics.saturated",
-            "optics.near_field", "safety.ultrasound_exposure"}
 
 
 
