@@ -23,6 +23,8 @@ from pydantic import BaseModel, BeforeValidator, ConfigDict, Field, ValidationEr
 
 from . import units
 from .errors import MISSING, RigError
+from .io import MAX_RIG_BYTES
+from .safetext import shorten
 
 __all__ = ["Rig", "load_rig", "loads_rig", "rig_from_dict", "E_SERIES_NAMES"]
 
@@ -64,9 +66,10 @@ def Count(**constraints):  # noqa: N802
 def _plain_number(value):
     if isinstance(value, bool) or not isinstance(value, (int, float)):
         raise ValueError(f"expected a plain number, got {value!r}")
-    if not math.isfinite(value):
-        raise ValueError(f"expected a finite number, got {value!r}")
-    return float(value)
+    try:
+        return units.parse(value, "ratio")
+    except units.UnitError as exc:
+        raise ValueError(str(exc)) from None
 
 
 def Number(**constraints):  # noqa: N802
@@ -289,27 +292,17 @@ def load_rig(source: str | Path) -> Rig:
     RigError
         For anything unreadable, malformed, out of range or contradictory.
     """
-    if str(source) == "-":
-        import sys
+    from .io import read_rig_bytes
 
-        data = sys.stdin.buffer.read()
-        where = "<stdin>"
-    else:
-        path = Path(source)
-        try:
-            data = path.read_bytes()
-        except FileNotFoundError:
-            raise RigError("", str(source), "no such rig file") from None
-        except IsADirectoryError:
-            raise RigError("", str(source), "is a directory, expected a rig file") from None
-        except OSError as exc:
-            raise RigError("", str(source), f"cannot be read ({exc.strerror})") from None
-        where = str(source)
+    data, where = read_rig_bytes(source)
     return loads_rig(data, where)
 
 
 def loads_rig(data: bytes | str, where: str = "<rig>") -> Rig:
     """Validate rig-file text (bytes or str); see :func:`load_rig`."""
+    if len(data) > MAX_RIG_BYTES:
+        raise RigError("", where, f"is larger than {MAX_RIG_BYTES // 1_000_000} MB, the limit "
+                       "for a rig file")
     if isinstance(data, bytes):
         if b"\x00" in data:
             raise RigError("", where, "is a binary file, expected TOML text")
@@ -319,12 +312,17 @@ def loads_rig(data: bytes | str, where: str = "<rig>") -> Rig:
             raise RigError("", where, f"is not UTF-8 text (byte {exc.start})") from None
     else:
         text = data
+    text = text.removeprefix("\ufeff")  # a UTF-8 byte order mark is accepted
     if not text.strip():
         raise RigError("", where, "is empty, expected a TOML rig file (try `strobeplan new`)")
     try:
         raw = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise RigError("", where, f"TOML syntax error: {exc}") from None
+    except RecursionError:
+        raise RigError("", where, "nests arrays or tables too deeply for a rig file") from None
+    except ValueError as exc:  # e.g. an integer beyond Python's digit limit
+        raise RigError("", where, f"TOML value out of range: {exc}") from None
     return rig_from_dict(raw)
 
 
@@ -334,6 +332,8 @@ def rig_from_dict(raw: dict[str, Any]) -> Rig:
         rig = Rig.model_validate(raw)
     except ValidationError as exc:
         raise _first_error(exc, raw) from None
+    except RecursionError:
+        raise RigError("", None, "the rig nests arrays or tables too deeply") from None
     cross_check(rig, raw)
     return rig
 
@@ -407,7 +407,7 @@ def _path(loc) -> str:
         if isinstance(part, int):
             out += f"[{part}]"
         else:
-            out += ("." if out else "") + str(part)
+            out += ("." if out else "") + shorten(str(part), 60)
     return out
 
 
@@ -429,7 +429,8 @@ def _first_error(exc: ValidationError, raw) -> RigError:
     if etype == "extra_forbidden":
         model = _model_at(loc[:-1])
         names = list(model.model_fields) if model else []
-        guess = difflib.get_close_matches(str(loc[-1]), names, n=1, cutoff=0.5)
+        guess = difflib.get_close_matches(str(loc[-1]), names, n=1, cutoff=0.5) \
+            if len(str(loc[-1])) <= 100 else []
         hint = f"; did you mean '{guess[0]}'?" if guess else ""
         where = _path(loc[:-1]) or "the top level"
         known = ", ".join(names)

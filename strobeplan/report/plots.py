@@ -46,6 +46,14 @@ def _need(obj, name: str, what: str, path: str | None = None):
     return value
 
 
+def _plain(text) -> str:
+    """User text (a family name) drawn literally: control characters escaped, and '$'
+    escaped so that matplotlib's mathtext never parses it."""
+    from ..safetext import clean
+
+    return clean(text, 80).replace("$", r"\$")
+
+
 def _new_figure(size):
     from matplotlib.figure import Figure
 
@@ -604,8 +612,9 @@ def plot_divider(plan, ax=None):
     ax.set_yticks([0.0, 1.0], ["low", "high"])
     ax.set_xlabel("voltage at the camera trigger input")
     _eng(ax.xaxis, "V")
-    ax.set_title(f"Trigger divider {pair}: {link.source_family} \N{RIGHTWARDS ARROW} "
-                 f"{link.destination_family}, {link.series} {link.tolerance:.0%}",
+    ax.set_title(f"Trigger divider {pair}: {_plain(link.source_family)} "
+                 f"\N{RIGHTWARDS ARROW} {_plain(link.destination_family)}, {link.series} "
+                 f"{link.tolerance:.0%}",
                  fontsize="medium")
     ax.legend(loc="upper left", fontsize="x-small", ncols=2, framealpha=0.95)
     return fig

@@ -5,6 +5,7 @@ from __future__ import annotations
 import json
 import math
 
+from ..safetext import clean
 from ..units import render
 
 # Field-name suffix -> (unit kind for render, or a fixed unit text; how much of the suffix
@@ -74,11 +75,12 @@ def _number(v) -> str:
 
 def plan_text(plan) -> str:
     """The whole plan as aligned text."""
-    lines = [f"strobeplan: {plan.rig.name}", f"verdict: {plan.verdict.upper()}", ""]
+    lines = [f"strobeplan: {clean(plan.rig.name)}", f"verdict: {plan.verdict.upper()}", ""]
     for name, section in plan.sections():
         data = section.to_json()
         lines.append(f"[{name}]")
-        rows = [label_and_value(k, v) for k, v in vars(section).items()
+        rows = [tuple(clean(x) for x in label_and_value(k, v))
+                for k, v in vars(section).items()
                 if not k.startswith("_") and not isinstance(v, (dict,)) and k in data]
         width = max((len(r[0]) for r in rows), default=0)
         lines += [f"  {label:<{width}}  {value}" for label, value in rows]
@@ -121,9 +123,9 @@ def findings_text(plan) -> str:
         return "findings: none"
     out = [f"findings ({len(plan.findings)}):"]
     for f in plan.findings:
-        out.append(f"  {f.severity.upper():<8} {f.code}: {f.message}")
+        out.append(f"  {f.severity.upper():<8} {f.code}: {clean(f.message)}")
         if f.hint:
-            out.append(f"           fix: {f.hint}")
+            out.append(f"           fix: {clean(f.hint)}")
     return "\n".join(out)
 
 

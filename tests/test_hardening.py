@@ -1,0 +1,285 @@
+"""Hardening regressions: outputs never clobber, hostile text never reaches the terminal raw,
+bad input is one line with exit 2, interrupts exit 130 with no traceback.
+
+Each test rebuilds one reproducer; hypothesis covers the classes of inputs (Unicode
+categories, magnitudes, file types).
+"""
+
+from __future__ import annotations
+
+import os
+import signal
+import stat
+import subprocess
+import sys
+import time
+from pathlib import Path
+
+import pytest
+import tomli_w
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+
+from strobeplan import units
+from strobeplan.errors import OutputError
+from strobeplan.io import MAX_RIG_BYTES, check_target, write_atomic
+from strobeplan.safetext import clean
+from tests.conftest import ROOT, example, patched
+
+ENV = dict(os.environ, PYTHONPATH=str(ROOT))
+RIG = example("levitator-40k")
+
+
+def cli(*args, stdin=None, stdout=subprocess.PIPE, cwd=None, timeout=60):
+    """The real console path (strobeplan.cli.main) in a subprocess."""
+    return subprocess.run([sys.executable, "-m", "strobeplan.cli", *map(str, args)],
+                          stdin=stdin, stdout=stdout, stderr=subprocess.PIPE, env=ENV,
+                          cwd=cwd, timeout=timeout)
+
+
+def one_line(err: bytes) -> str:
+    text = err.decode()
+    assert text.count("\n") == 1 and "Traceback" not in text, text
+    return text
+
+
+def write_rig(path: Path, raw: dict) -> Path:
+    path.write_text(tomli_w.dumps(raw))
+    return path
+
+
+# --- output-target policy ----------------------------------------------------------------
+
+
+@pytest.mark.parametrize("target", ["/dev/null", "/dev/stdout", "/proc/self/fd/1", "/sys/x"])
+def test_outputs_refuse_devices_and_pseudo_files(target):
+    before = os.stat("/dev/null")
+    r = cli("schedule", RIG, "-o", target)
+    assert r.returncode == 2
+    assert target in one_line(r.stderr)
+    after = os.stat("/dev/null")
+    assert stat.S_ISCHR(after.st_mode) and after.st_ino == before.st_ino
+
+
+@settings(max_examples=12, deadline=None, derandomize=True,
+          suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(kind=st.sampled_from(["fifo", "dir", "socket", "dir_link", "fifo_link"]))
+def test_non_regular_targets_are_refused(tmp_path, kind):
+    import socket
+
+    target = tmp_path / f"t-{kind}"
+    if target.exists() or target.is_symlink():
+        return
+    real = tmp_path / f"real-{kind}"
+    if kind.startswith("fifo"):
+        os.mkfifo(real)
+    elif kind.startswith("dir"):
+        real.mkdir()
+    else:
+        s = socket.socket(socket.AF_UNIX)
+        s.bind(str(real))
+    if kind.endswith("_link"):
+        target.symlink_to(real)
+    else:
+        target = real
+    with pytest.raises(OutputError):
+        check_target(target)
+
+
+def test_symlink_is_written_through(tmp_path):
+    real = tmp_path / "real.csv"
+    real.write_text("old")
+    link = tmp_path / "link.csv"
+    link.symlink_to(real)
+    write_atomic(link, "new")
+    assert link.is_symlink() and real.read_text() == "new"
+
+
+def test_only_permission_bits_are_kept(tmp_path):
+    out = tmp_path / "out.csv"
+    out.write_text("old")
+    os.chmod(out, 0o6755 | stat.S_ISVTX)
+    write_atomic(out, "new")
+    assert stat.S_IMODE(out.stat().st_mode) == 0o755
+
+
+@pytest.mark.parametrize("command", [["tune", "-", "--write-rig"], ["schedule", "-", "-o"],
+                                     ["report", "-", "-o"]])
+def test_rig_on_stdin_is_never_overwritten(tmp_path, command):
+    rig = tmp_path / "rig.toml"
+    rig.write_bytes(RIG.read_bytes())
+    with open(rig, "rb") as fh:
+        r = cli(*command, rig, stdin=fh)
+    assert r.returncode == 2 and "rig file being read" in one_line(r.stderr)
+    assert rig.read_bytes() == RIG.read_bytes()
+
+
+def test_long_name_and_unwritable_folder(tmp_path):
+    r = cli("schedule", RIG, "-o", tmp_path / ("a" * 300))
+    assert r.returncode == 2 and "…" in one_line(r.stderr)
+    r = cli("schedule", RIG, "-o", tmp_path / "missing" / "x.csv")
+    assert r.returncode == 2 and "does not exist" in one_line(r.stderr)
+
+
+@pytest.mark.parametrize("sig", [signal.SIGTERM, signal.SIGHUP, signal.SIGINT])
+def test_interrupted_write_leaves_no_temp_file(tmp_path, sig):
+    code = (f"import os, signal, strobeplan.io as io\n"
+            f"io.install_signal_handlers()\n"
+            f"real = os.fsync\n"
+            f"def slow(fd):\n"
+            f"    os.kill(os.getpid(), {int(sig)})\n"
+            f"    real(fd)\n"
+            f"os.fsync = slow\n"
+            f"io.write_atomic({str(tmp_path / 'big.json')!r}, 'x' * 1000)\n")
+    r = subprocess.run([sys.executable, "-c", code], env=ENV, capture_output=True, timeout=30)
+    assert r.returncode != 0
+    assert list(tmp_path.iterdir()) == []
+
+
+# --- signals and exit codes ----------------------------------------------------------------
+
+
+@pytest.mark.parametrize("delay", [0.01, 0.03, 0.08, 0.3])
+def test_ctrl_c_exits_130_without_traceback(tmp_path, delay):
+    p = subprocess.Popen(
+        [sys.executable, "-c", "import sys, strobeplan.cli as c; sys.stderr.write('go\\n'); "
+         "sys.stderr.flush(); c.main()", "report", RIG, "-o", tmp_path / "r.html"],
+        env=ENV, stdout=subprocess.PIPE, stderr=subprocess.PIPE)
+    p.stderr.readline()
+    time.sleep(delay)
+    p.send_signal(signal.SIGINT)
+    _out, err = p.communicate(timeout=60)
+    if p.returncode == 0:  # finished before the signal
+        return
+    assert p.returncode == 130, err
+    assert b"Traceback" not in err
+    assert [f for f in tmp_path.iterdir() if f.name.endswith(".tmp")] == []
+
+
+def test_stdout_full_or_closed_is_an_error():
+    with open("/dev/full", "w") as full:
+        r = cli("check", RIG, stdout=full)
+    assert r.returncode == 2 and "standard output" in one_line(r.stderr)
+    r = subprocess.run([sys.executable, "-m", "strobeplan.cli", "check", str(RIG)],
+                       stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, env=ENV,
+                       preexec_fn=lambda: os.close(1))
+    assert r.returncode == 2 and "standard output" in one_line(r.stderr)
+
+
+def test_usage_errors_are_one_line():
+    for args in (["frob"], ["check"], ["schedule", RIG, "--steps", "0"]):
+        r = cli(*args)
+        assert r.returncode == 2
+        one_line(r.stderr)
+
+
+# --- input ---------------------------------------------------------------------------------
+
+
+def test_input_is_capped():
+    r = cli("check", "/dev/zero")
+    assert r.returncode == 2 and f"{MAX_RIG_BYTES // 1_000_000} MB" in one_line(r.stderr)
+
+
+def test_tune_reads_a_fifo_once(tmp_path):
+    fifo = tmp_path / "rig.fifo"
+    os.mkfifo(fifo)
+    p = subprocess.Popen([sys.executable, "-m", "strobeplan.cli", "tune", fifo, "--write-rig",
+                          tmp_path / "out.toml"], env=ENV, stdout=subprocess.PIPE,
+                         stderr=subprocess.PIPE)
+    with open(fifo, "wb") as fh:
+        fh.write(b"name = \xff\n")
+    _out, err = p.communicate(timeout=60)
+    assert p.returncode == 2 and "UTF-8" in one_line(err)
+
+
+def test_bom_is_accepted(tmp_path):
+    rig = tmp_path / "bom.toml"
+    rig.write_bytes(b"\xef\xbb\xbf" + RIG.read_bytes())
+    assert cli("check", rig).returncode in (0, 1)
+
+
+@settings(max_examples=40, deadline=None, derandomize=True)
+@given(digit=st.characters(categories=["Nd"]).filter(lambda c: not c.isascii()))
+def test_only_ascii_digits(digit):
+    with pytest.raises(units.UnitError, match="ASCII digits"):
+        units.parse(f"4{digit} kHz", "frequency")
+
+
+@settings(max_examples=60, deadline=None, derandomize=True)
+@given(exp=st.integers(-330, 330))
+def test_magnitudes_in_range_or_refused(exp):
+    text = f"1e{exp} Hz"
+    try:
+        value = units.parse(text, "frequency")
+    except units.UnitError as exc:
+        assert "out of range" in str(exc)
+        assert not units.MIN_MAGNITUDE <= float(f"1e{exp}") <= units.MAX_MAGNITUDE
+    else:
+        assert units.MIN_MAGNITUDE <= value <= units.MAX_MAGNITUDE
+
+
+@pytest.mark.parametrize("patch", [
+    {"strobe.min_retention": int("9" * 400)},
+    {"emitter.resonance": "1e-320 kHz"},
+    {"camera.frame_rate": "1e-320 kHz"},
+    {"name": [[[[[[[[["x"]]]]]]]]]},
+])
+def test_absurd_values_are_bad_input(tmp_path, patch):
+    rig = write_rig(tmp_path / "rig.toml", patched("levitator-40k", patch))
+    r = cli("check", rig)
+    assert r.returncode == 2
+    one_line(r.stderr)
+
+
+def test_deep_nesting_is_bad_input(tmp_path):
+    rig = tmp_path / "deep.toml"
+    rig.write_text("x = " + "[" * 5000 + "]" * 5000 + "\n")
+    r = cli("check", rig)
+    assert r.returncode == 2 and "deeply" in one_line(r.stderr)
+
+
+# --- the message sanitiser -----------------------------------------------------------------
+
+
+@settings(max_examples=80, deadline=None, derandomize=True)
+@given(st.text(st.characters(categories=["Cc", "Zl", "Zp"]), min_size=1, max_size=8))
+def test_clean_escapes_every_control_character(text):
+    out = clean("a" + text + "b")
+    assert all(ord(c) >= 0x20 and not 0x7F <= ord(c) <= 0x9F for c in out)
+    assert "\n" not in out and "\u2028" not in out
+
+
+def test_hostile_names_are_escaped_in_text_and_json(tmp_path):
+    hostile = "\u001b]0;title\u0007\u001b[2J"
+    raw = patched("levitator-40k", {"name": hostile})
+    raw["strobe"]["x\nnew_line"] = 1
+    rig = write_rig(tmp_path / "bad.toml", raw)
+    r = cli("check", rig)
+    assert r.returncode == 2 and b"\x1b" not in r.stderr and "\\n" in one_line(r.stderr)
+    rig = write_rig(tmp_path / "name.toml", patched("levitator-40k", {"name": hostile}))
+    text = cli("check", rig).stdout
+    assert b"\x1b" not in text and b"\x07" not in text and b"\\x1b]0;title" in text
+    js = cli("check", rig, "--json").stdout
+    assert b"\x1b" not in js and b"\\u001b" in js
+
+
+def test_huge_key_is_cut_with_an_ellipsis(tmp_path):
+    raw = patched("levitator-40k", {})
+    raw["k" * 1_000_00] = 1
+    rig = write_rig(tmp_path / "big.toml", raw)
+    r = cli("check", rig)
+    line = one_line(r.stderr)
+    assert r.returncode == 2 and "…" in line and len(line) < 1100
+
+
+def test_dollar_in_family_name_is_drawn_literally(tmp_path):
+    fam = {"vdd": "3.3 V", "vih": "2 V", "vil": "0.8 V", "voh": "2.4 V", "vol": "0.4 V",
+           "output_current": "4 mA"}
+    raw = patched("levitator-40k", {})
+    raw.setdefault("trigger_link", {})["families"] = {"a$b_{x": fam}
+    raw["camera"].setdefault("trigger_input", {})["family"] = "a$b_{x"
+    rig = write_rig(tmp_path / "fam.toml", raw)
+    r = cli("plot", rig, "--kind", "divider", "-o", tmp_path / "d.svg")
+    assert r.returncode == 0, r.stderr
+    assert "a$b_{x" in (tmp_path / "d.svg").read_text()
