@@ -165,19 +165,28 @@ def new(example, output, force):
 
 
 def _quantity(text: str, kind: str, option: str) -> float:
-    """Parse an option value through strobeplan.units; bare resistances ("1k", "470") get
-    "ohm" appended."""
+    """An option's value as an SI float, checked with the same limits as the rig key it
+    stands for (strobeplan.limits, the one limits table); bare resistances ("1k", "470")
+    are read in ohm."""
+    from .limits import OPTIONS, option_value
+
+    if option in OPTIONS:
+        with user_errors():
+            return option_value(option, text)
     from . import units
 
     try:
         return units.parse(text, kind)
     except units.UnitError as exc:
-        if kind == "resistance":
-            try:
-                return units.parse(text.strip() + "ohm", kind)
-            except units.UnitError:
-                pass
         raise InputError(f"{option} {text!r}: {exc}") from None
+
+
+def _range(option: str, pair) -> tuple[float, float]:
+    """A MIN MAX option pair within the option's limits, MIN <= MAX."""
+    from .limits import option_range
+
+    with user_errors():
+        return option_range(option, pair)
 
 
 @cli.command()
@@ -336,12 +345,10 @@ def tune(rig, min_retention, min_margin, series, resistor_range, max_every, supp
             raise InputError(f"--min-margin {min_margin!r}: expected 0 K or more")
         grid = tuner.default_grid(
             model, base, widths=widths, series=series.upper(),
-            resistor_range=(_quantity(resistor_range[0], "resistance", "--resistor-range"),
-                            _quantity(resistor_range[1], "resistance", "--resistor-range")),
+            resistor_range=_range("--resistor-range", resistor_range),
             max_every=max_every, supply_steps=supply_steps,
-            supply_range=None if supply_range is None else (
-                _quantity(supply_range[0], "voltage", "--supply-range"),
-                _quantity(supply_range[1], "voltage", "--supply-range")))
+            supply_range=None if supply_range is None else _range("--supply-range",
+                                                                  supply_range))
         bar = _LazyBar(time.perf_counter())
         try:
             result = tuner.tune(model, limits, grid, progress=bar.update, base=base)

@@ -411,7 +411,8 @@ def _path(loc) -> str:
     return out
 
 
-def _first_error(exc: ValidationError, raw) -> RigError:
+def _first_error(exc: ValidationError, raw, prefix: tuple = (),
+                 kind: str | None = None) -> RigError:
     errors = exc.errors(include_url=False)
     # Prefer the most informative error: drop union-branch noise about None.
     errors = [e for e in errors if e["type"] != "none_required"] or errors
@@ -419,10 +420,10 @@ def _first_error(exc: ValidationError, raw) -> RigError:
     errors.sort(key=lambda e: e["type"] != "extra_forbidden")
     err = errors[0]
     loc = tuple(p for p in err["loc"] if not (isinstance(p, str) and p.startswith("function-")))
-    loc = tuple(p for p in loc if p not in ("float", "int", "str", "bool", "list"))
+    loc = prefix + tuple(p for p in loc if p not in ("float", "int", "str", "bool", "list"))
     path = _path(loc)
     value = _lookup(raw, loc)
-    kind = _field_kind(loc) if loc else None
+    kind = kind or (_field_kind(loc) if loc else None)
     etype = err["type"]
     more = f" (and {len(errors) - 1} more problem{'s' if len(errors) > 2 else ''})" \
         if len(errors) > 1 else ""
@@ -568,6 +569,29 @@ def cross_check(rig: Rig, raw: dict | None = None) -> None:
             _fail(raw, "switch.gate_charge",
                   "expected at least gate_source_charge + gate_drain_charge")
     tl = rig.trigger_link
+    for fname, fam in ((tl.families or {}) if tl is not None else {}).items():
+        _check_family(raw, f"trigger_link.families.{shorten(fname, 40)}", fam)
     if tl is not None and (tl.top is None) != (tl.bottom is None):
         _fail(raw, "trigger_link.top" if tl.top is None else "trigger_link.bottom",
               "give both top and bottom (to check a pair) or neither (to propose one)")
+
+
+def _check_family(raw, where: str, fam: LogicFamily) -> None:
+    """A custom logic family's thresholds in their physical order (RigError otherwise):
+    VIL < VIH < VDD, VOL < VOH <= VDD, vdd_min <= vdd <= vdd_max."""
+    r = units.render
+    vdd_min = fam.vdd_min if fam.vdd_min is not None else 0.9 * fam.vdd
+    vdd_max = fam.vdd_max if fam.vdd_max is not None else 1.1 * fam.vdd
+    checks = (
+        (fam.vil < fam.vih, "vih", f"expected above vil ({r(fam.vil, 'voltage')})"),
+        (fam.vih < fam.vdd, "vih", f"expected below vdd ({r(fam.vdd, 'voltage')})"),
+        (fam.vol < fam.voh, "voh", f"expected above vol ({r(fam.vol, 'voltage')})"),
+        (fam.voh <= fam.vdd, "voh", f"expected at most vdd ({r(fam.vdd, 'voltage')})"),
+        (vdd_min <= fam.vdd, "vdd_min", f"expected at most vdd ({r(fam.vdd, 'voltage')})"),
+        (fam.vdd <= vdd_max, "vdd_max", f"expected at least vdd ({r(fam.vdd, 'voltage')})"),
+    )
+    for ok, key, expected in checks:
+        if not ok:
+            value = getattr(fam, key)
+            shown = r(value, "voltage") if value is not None else None
+            raise RigError(f"{where}.{key}", shown, expected)

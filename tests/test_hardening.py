@@ -283,3 +283,59 @@ def test_dollar_in_family_name_is_drawn_literally(tmp_path):
     r = cli("plot", rig, "--kind", "divider", "-o", tmp_path / "d.svg")
     assert r.returncode == 0, r.stderr
     assert "a$b_{x" in (tmp_path / "d.svg").read_text()
+
+
+# --- one limits table for rig keys and options -----------------------------------------------
+
+
+@pytest.mark.parametrize("args", [
+    ["divider", "--from", "lvcmos33", "--to", "lvcmos18", "--tolerance", "-1%"],
+    ["divider", "--from", "lvcmos33", "--to", "lvcmos18", "--tolerance", "100%"],
+    ["divider", "--from", "lvcmos33", "--to", "lvcmos18", "--capacitance", "-1pF"],
+    ["divider", "--from", "lvcmos33", "--to", "lvcmos18", "--edge-limit", "-1ns"],
+    ["divider", "--from", "lvcmos33", "--to", "lvcmos18", "--check", "-1k", "1k"],
+    ["tune", RIG, "--supply-range", "0V", "0V"],
+    ["tune", RIG, "--supply-range", "30V", "12V"],
+])
+def test_options_share_the_rig_limits(args):
+    r = cli(*args)
+    assert r.returncode == 2
+    one_line(r.stderr)
+
+
+@settings(max_examples=30, deadline=None, derandomize=True)
+@given(ratio=st.floats(-2.0, 2.0, allow_nan=False))
+def test_tolerance_option_and_rig_key_agree(ratio):
+    from strobeplan.errors import RigError
+    from strobeplan.limits import option_value
+    from strobeplan.rig import rig_from_dict
+
+    text = f"{ratio * 100:.6g} %"
+    try:
+        option_value("--tolerance", text)
+        option_ok = True
+    except RigError:
+        option_ok = False
+    raw = patched("levitator-40k", {"trigger_link.tolerance": text})
+    try:
+        rig_from_dict(raw)
+        rig_ok = True
+    except RigError as exc:
+        rig_ok = "trigger_link.tolerance" not in str(exc)
+    assert option_ok == rig_ok
+
+
+@pytest.mark.parametrize("patch, key", [
+    ({"vih": "0.5 V", "vil": "0.8 V"}, "vih"),
+    ({"vdd_min": "3.6 V", "vdd_max": "3.0 V"}, "vdd_min"),
+    ({"voh": "0.3 V"}, "voh"),
+    ({"vih": "5 V"}, "vih"),
+])
+def test_custom_families_are_cross_checked(tmp_path, patch, key):
+    fam = {"vdd": "3.3 V", "vih": "2 V", "vil": "0.8 V", "voh": "2.4 V", "vol": "0.4 V",
+           "output_current": "4 mA", **patch}
+    raw = patched("levitator-40k", {})
+    raw.setdefault("trigger_link", {})["families"] = {"mine": fam}
+    rig = write_rig(tmp_path / "fam.toml", raw)
+    r = cli("check", rig)
+    assert r.returncode == 2 and f"trigger_link.families.mine.{key}" in one_line(r.stderr)
