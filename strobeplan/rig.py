@@ -137,7 +137,7 @@ class Strobe(_Model):
     pulse_width: Q("time", gt=0, description="Gate-on time of one flash.")
     phase: Q("angle", ge=-2 * math.pi, le=2 * math.pi) = 0.0
     every: Count(ge=1, le=1_000_000) = 1
-    calibration_offset: Q("time") = 0.0
+    calibration_offset: Q("time", ge=-1.0, le=1.0) = 0.0
     min_retention: Q("ratio", gt=0, lt=1) = 0.9
     continuous: bool = False
 
@@ -196,7 +196,7 @@ class GateDriver(_Model):
     supply: Q("voltage", gt=0)
     output_resistance: Q("resistance", ge=0) = 0.0
     gate_resistor: Q("resistance", ge=0) = 0.0
-    propagation_delay: Q("time", ge=0) = 0.0
+    propagation_delay: Q("time", ge=0, le=1.0) = 0.0
     input: str = "lvcmos33"
     rise_time: Q("time", gt=0) | None = None
     fall_time: Q("time", gt=0) | None = None
@@ -224,7 +224,7 @@ class Camera(_Model):
     frame_rate: Q("frequency", gt=0)
     shutter: Literal["global", "rolling"] = "global"
     readout: Q("time", ge=0) | None = None
-    trigger_latency: Q("time", ge=0) = 0.0
+    trigger_latency: Q("time", ge=0, le=1.0) = 0.0
     trigger_input: TriggerInput | None = None
     object_pixel: Q("length", gt=0) | None = None
     bit_depth: Count(ge=1, le=24) = 8
@@ -482,6 +482,11 @@ def cross_check(rig: Rig, raw: dict | None = None) -> None:
     f = rig.wave.frequency
     synth = rig.emitter.synthesis if rig.emitter else None
     flash_period = rig.strobe.every / f
+    clock = rig.controller.clock
+    if round(rig.strobe.pulse_width * clock) < 1:
+        _fail(raw, "strobe.pulse_width",
+              f"expected at least half a timer tick ({r(0.5 / clock, 'time')} at "
+              f"controller.clock {r(clock, 'frequency')}): the timer would realise 0 ticks")
     if rig.strobe.pulse_width >= flash_period:
         _fail(raw, "strobe.pulse_width",
               f"expected shorter than the flash period {r(flash_period, 'time')} "
@@ -534,6 +539,10 @@ def cross_check(rig: Rig, raw: dict | None = None) -> None:
                   f"expected no longer than the frame period {r(1 / cam.frame_rate, 'time')}")
         if cam.shutter == "rolling" and cam.readout is None:
             _fail(raw, "camera.readout", "required for shutter = 'rolling' (the row readout time)")
+        if cam.trigger_latency >= 1.0 / cam.frame_rate:
+            _fail(raw, "camera.trigger_latency",
+                  f"expected shorter than the frame period {r(1 / cam.frame_rate, 'time')} "
+                  "(the exposure would open in a later frame)")
         if cam.frame_rate > f / rig.strobe.every:
             _fail(raw, "camera.frame_rate", "expected no faster than the flash rate")
     if rig.emitter is not None:

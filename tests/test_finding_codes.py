@@ -29,6 +29,11 @@ CASES: dict[str, tuple[str, dict]] = {
         "sweep": {"slow_motion": "300 Hz"}, "strobe.every": 1}),
     "timing.slow_motion_quantised": ("levitator-40k", {
         "sweep": {"slow_motion": "1 Hz"}, "strobe.every": 1}),
+    "timing.trigger_in_exposure": ("levitator-40k", {"camera.exposure": "19.97 ms"}),
+    "timing.flash_outside_frame": ("levitator-40k", {"camera.trigger_latency": "19.99 ms",
+                                                     "camera.exposure": "100 us"}),
+    "timing.pulse_below_tick": ("unsafe-bench", {"controller.clock": "150 kHz",
+                                                 "strobe.pulse_width": "5 us"}),
     "timing.frame_rate_adjusted": ("levitator-40k", {
         "strobe.every": 7, "camera.frame_rate": "53 Hz"}),
     "drive.frequency_error": ("rangefinder-58k", {"controller.clock": "1 MHz"}),

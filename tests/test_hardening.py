@@ -215,6 +215,7 @@ def test_magnitudes_in_range_or_refused(exp):
     except units.UnitError as exc:
         assert "out of range" in str(exc)
         assert not units.MIN_MAGNITUDE <= float(f"1e{exp}") <= units.MAX_MAGNITUDE
+        assert "out of range" in str(exc)
     else:
         assert units.MIN_MAGNITUDE <= value <= units.MAX_MAGNITUDE
 
@@ -339,3 +340,100 @@ def test_custom_families_are_cross_checked(tmp_path, patch, key):
     rig = write_rig(tmp_path / "fam.toml", raw)
     r = cli("check", rig)
     assert r.returncode == 2 and f"trigger_link.families.mine.{key}" in one_line(r.stderr)
+
+
+# --- timing: impossible plans never pass ---------------------------------------------------
+
+
+def _solve(patch, base="levitator-40k"):
+    from strobeplan.rig import rig_from_dict
+    from strobeplan.solve import solve
+
+    return solve(rig_from_dict(patched(base, patch)))
+
+
+def _codes(plan):
+    return {f.code for f in plan.findings}
+
+
+@pytest.mark.parametrize("patch", [
+    {"strobe.pulse_width": "1 ps"},  # 48 MHz timer: 5e-5 ticks
+    {"controller.clock": "150 kHz", "strobe.pulse_width": "2 us"},  # 6.7 us tick: 0.3 ticks
+])
+def test_pulse_of_zero_ticks_is_bad_input(patch):
+    from strobeplan.errors import RigError
+    from strobeplan.rig import rig_from_dict
+
+    with pytest.raises(RigError) as info:
+        rig_from_dict(patched("unsafe-bench", patch))
+    assert "strobe.pulse_width" in str(info.value) and "tick" in str(info.value)
+
+
+def test_pulse_under_one_tick_is_a_warning():
+    plan = _solve({"controller.clock": "150 kHz", "strobe.pulse_width": "5 us"},
+                  "unsafe-bench")  # 0.75 tick
+    assert "timing.pulse_below_tick" in _codes(plan)
+    assert "timing.pulse_below_tick" not in _codes(_solve({}))
+
+
+@settings(max_examples=25, deadline=None, derandomize=True)
+@given(frac=st.floats(1.0, 50.0))
+def test_trigger_latency_beyond_the_frame_is_bad_input(frac):
+    from strobeplan.errors import RigError
+    from strobeplan.rig import rig_from_dict
+
+    # levitator: 50 Hz camera, 20 ms frames
+    with pytest.raises(RigError, match="camera.trigger_latency"):
+        rig_from_dict(patched("levitator-40k", {"camera.trigger_latency": f"{20 * frac!r} ms"}))
+
+
+def test_sweep_trigger_inside_the_previous_exposure_is_a_fault():
+    # 25 us latency + 19.97 ms exposure in 20 ms frames: when the sweep's edge wraps, the
+    # next trigger comes before the exposure has closed
+    plan = _solve({"camera.exposure": "19.97 ms"})
+    assert plan.verdict == "fail" and "timing.trigger_in_exposure" in _codes(plan)
+    assert "timing.trigger_in_exposure" not in _codes(_solve({"camera.exposure": "19 ms"}))
+
+
+def test_absurd_delay_is_bad_input_and_whole_periods_do_not_move_the_phase():
+    from strobeplan.errors import RigError
+    from strobeplan.rig import rig_from_dict
+
+    with pytest.raises(RigError, match="calibration_offset"):
+        rig_from_dict(patched("levitator-40k", {"strobe.calibration_offset": "1e12 s"}))
+    base = _solve({"strobe.calibration_offset": "3 us"})
+    # 0.999 s is not a whole number of 25 us periods; 0.75 s + 3 us is (30,000 periods)
+    far = _solve({"strobe.calibration_offset": f"{0.75 + 3e-6!r} s"})
+    assert far.timing.flash_edge_ticks == base.timing.flash_edge_ticks
+    assert far.timing.phase_error_deg == pytest.approx(base.timing.phase_error_deg, abs=1e-6)
+
+
+@settings(max_examples=200, deadline=None, derandomize=True)
+@given(delay=st.floats(-1.0, 1.0), periods=st.integers(0, 40_000))
+def test_reduce_delay_is_exact_modulo_the_period(delay, periods):
+    from fractions import Fraction
+
+    from strobeplan.timing import reduce_delay
+
+    clock, nd = 100e6, 2500
+    got = reduce_delay(delay, clock, nd)
+    # reference: Python's exact rational arithmetic, independently of the helper
+    want = (Fraction(delay) * Fraction(clock)) % nd / Fraction(clock)
+    period = nd / clock
+
+    def apart(a, b):  # distance on the circle of one period
+        d = abs(a - b) % period
+        return min(d, period - d)
+
+    assert 0.0 <= got < period
+    assert apart(got, float(want)) < 1e-18
+    shifted = reduce_delay(float(Fraction(delay) + Fraction(periods * nd) / Fraction(clock)),
+                           clock, nd)
+    assert apart(shifted, got) < 1e-15  # the float sum itself rounds (at most 1 ulp of 1 s)
+
+
+def test_rolling_readout_longer_than_exposure():
+    plan = _solve({"camera.shutter": "rolling", "camera.readout": "3 ms"})
+    hit = [f for f in plan.findings if f.code == "timing.rolling_window_too_short"]
+    assert hit and "readout" in hit[0].message and "-" not in hit[0].message.split("(")[0]
+    assert plan.to_json()["timing"]["window_s"] == 0.0

@@ -36,6 +36,11 @@ def rolling_window_too_short(plan):
         return None
     if t.flashes_per_frame:
         return None
+    if cam.readout >= cam.exposure:
+        return Hit(f"the readout ({render(cam.readout, 'time')}) is not shorter than the "
+                   f"exposure ({render(cam.exposure, 'time')}): no moment exposes all rows "
+                   "together, so every flash bands the image",
+                   value=t.window_s, limit=plan.flash.light_length_s, unit="s")
     return Hit(f"all rows expose together for only {render(t.window_s, 'time')} "
                f"(exposure {render(cam.exposure, 'time')} - readout "
                f"{render(cam.readout, 'time')}); a flash outside it bands the image",
@@ -124,3 +129,66 @@ def frame_rate_adjusted(plan):
     return Hit(f"frames run at {render(t.frame_rate_hz, 'frequency')} (asked "
                f"{render(cam.frame_rate, 'frequency')}) to stay locked to the drive",
                value=t.frame_rate_hz, limit=cam.frame_rate, unit="Hz")
+
+
+_NOT_YET = object()
+
+
+def _schedule_conflict(plan):
+    """The first impossible frame of the plan's schedule (scalar plans only), or None.
+
+    Computed once per plan (two rules read it); the schedule has at most
+    ``timing.MAX_ROWS`` rows (a 100,000-step sweep takes about 2 s).
+    """
+    from ..timing import Lock, schedule, schedule_conflict
+
+    cached = getattr(plan, "_schedule_conflict", _NOT_YET)
+    if cached is not _NOT_YET:
+        return cached
+    lock = getattr(plan, "lock", None)
+    found = None
+    if isinstance(lock, Lock) and plan.rig.camera is not None and \
+            isinstance(lock.flash_ticks, int) and lock.frame_ticks is not None:
+        found = schedule_conflict(schedule(plan.rig, plan, lock), lock)
+    try:
+        plan._schedule_conflict = found
+    except AttributeError:
+        pass
+    return found
+
+
+@rule("timing.trigger_in_exposure", "fault",
+      trigger="a camera trigger of the schedule (frozen, sweep or slow motion) comes before "
+              "the previous frame's exposure window has closed",
+      fix="shorten camera.exposure or camera.trigger_latency, or lower camera.frame_rate, so "
+          "that latency + exposure fits in the frame period less one flash period")
+def trigger_in_exposure(plan):
+    found = _schedule_conflict(plan)
+    if found is None or found[0] != "trigger_in_exposure":
+        return None
+    return Hit(found[2], value=found[1], unit="frame")
+
+
+@rule("timing.flash_outside_frame", "fault",
+      trigger="the first flash a frame's exposure sees lies beyond that frame (the trigger "
+              "latency and window push it into the next frame)",
+      fix="shorten camera.trigger_latency or lower camera.frame_rate")
+def flash_outside_frame(plan):
+    found = _schedule_conflict(plan)
+    if found is None or found[0] != "flash_outside_frame":
+        return None
+    return Hit(found[2], value=found[1], unit="frame")
+
+
+@rule("timing.pulse_below_tick", "warning",
+      trigger="strobe.pulse_width is shorter than one timer tick; the timer realises one "
+              "whole tick (longer than asked)",
+      fix="use a faster controller.clock, or a pulse width of at least one tick")
+def pulse_below_tick(plan):
+    import numpy as np
+
+    width = np.asarray(plan.flash.width_s, dtype=float)
+    tick = plan.timing.tick_s
+    return Hit(lambda: f"the {render(float(width), 'time')} pulse is shorter than one "
+                       f"{render(tick, 'time')} timer tick; the timer gives one tick",
+               value=width, limit=tick, unit="s", when=width < tick)
