@@ -437,3 +437,19 @@ def test_rolling_readout_longer_than_exposure():
     hit = [f for f in plan.findings if f.code == "timing.rolling_window_too_short"]
     assert hit and "readout" in hit[0].message and "-" not in hit[0].message.split("(")[0]
     assert plan.to_json()["timing"]["window_s"] == 0.0
+
+
+# --- bounded work --------------------------------------------------------------------------
+
+
+def test_thermal_plot_is_bounded_at_40000_flashes_per_frame():
+    from strobeplan.report.plots import MAX_EDGE_SAMPLES, plot
+
+    plan = _solve({"camera.frame_rate": "1 Hz", "camera.exposure": "0.99 s"})
+    assert plan.led.flashes_per_burst > 39_000
+    started = time.perf_counter()
+    fig = plot(plan, "thermal")
+    elapsed = time.perf_counter() - started
+    longest = max(len(line.get_xdata()) for ax in fig.axes for line in ax.get_lines())
+    assert longest <= 1500 + MAX_EDGE_SAMPLES
+    assert elapsed < 10.0  # was effectively unbounded (flashes x samples x frames)
