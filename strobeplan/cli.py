@@ -343,12 +343,16 @@ def tune(rig, min_retention, min_margin, series, resistor_range, max_every, supp
                              "and 100 % (e.g. 90%)")
         if not limits.min_margin >= 0.0:
             raise InputError(f"--min-margin {min_margin!r}: expected 0 K or more")
+        r_range = _range("--resistor-range", resistor_range)
+        v_range = None if supply_range is None else _range("--supply-range", supply_range)
+        from .workload import require_within, tune_estimate
+
+        require_within(tune_estimate(model, widths=widths, series=series.upper(),
+                                     resistor_range=r_range, max_every=max_every,
+                                     supply_range=v_range, supply_steps=supply_steps))
         grid = tuner.default_grid(
-            model, base, widths=widths, series=series.upper(),
-            resistor_range=_range("--resistor-range", resistor_range),
-            max_every=max_every, supply_steps=supply_steps,
-            supply_range=None if supply_range is None else _range("--supply-range",
-                                                                  supply_range))
+            model, base, widths=widths, series=series.upper(), resistor_range=r_range,
+            max_every=max_every, supply_steps=supply_steps, supply_range=v_range)
         bar = _LazyBar(time.perf_counter())
         try:
             result = tuner.tune(model, limits, grid, progress=bar.update, base=base)
@@ -390,7 +394,8 @@ class _LazyBar:
             if time.perf_counter() - self.started < 1.0 or not sys.stderr.isatty():
                 self.done = done
                 return
-            self.bar = click.progressbar(length=total, label="tune", file=sys.stderr)
+            self.bar = click.progressbar(length=total, label="tune", file=sys.stderr,
+                                         show_eta=True)
             self.bar.__enter__()
             self.bar.update(self.done)
         self.bar.update(done - self.done)

@@ -7,6 +7,7 @@ categories, magnitudes, file types).
 
 from __future__ import annotations
 
+import math
 import os
 import signal
 import stat
@@ -453,3 +454,33 @@ def test_thermal_plot_is_bounded_at_40000_flashes_per_frame():
     longest = max(len(line.get_xdata()) for ax in fig.axes for line in ax.get_lines())
     assert longest <= 1500 + MAX_EDGE_SAMPLES
     assert elapsed < 10.0  # was effectively unbounded (flashes x samples x frames)
+
+
+def test_tune_refuses_a_grid_beyond_the_budget_before_any_work():
+    started = time.perf_counter()
+    r = cli("tune", RIG, "--widths", "100000", "--max-every", "10000", "--supply-range",
+            "1V", "100V", "--supply-steps", "10000", "--series", "E192", "--resistor-range",
+            "0.1ohm", "10Mohm")
+    assert r.returncode == 2
+    line = one_line(r.stderr)
+    assert "candidates" in line and "budget" in line and "--widths" in line
+    assert time.perf_counter() - started < 30
+
+
+@settings(max_examples=15, deadline=None, derandomize=True)
+@given(widths=st.integers(2, 400), max_every=st.integers(1, 12),
+       series=st.sampled_from(["E6", "E24", "E96"]), steps=st.integers(1, 5))
+def test_tune_estimate_bounds_the_real_grid(widths, max_every, series, steps):
+    from strobeplan import tune as tuner
+    from strobeplan.rig import load_rig
+    from strobeplan.solve import solve
+    from strobeplan.workload import tune_estimate
+
+    rig = load_rig(RIG)
+    options = dict(widths=widths, series=series, resistor_range=(0.1, 100.0),
+                   max_every=max_every, supply_range=(12.0, 36.0), supply_steps=steps)
+    est = tune_estimate(rig, **options)
+    grid = tuner.default_grid(rig, solve(rig), **options)
+    real = math.prod(grid.shape)
+    # an upper bound (widths that round to one tick merge), and never far above
+    assert real <= est.candidates <= 2 * real + widths * 8 * 200 * steps
