@@ -484,3 +484,25 @@ def test_tune_estimate_bounds_the_real_grid(widths, max_every, series, steps):
     real = math.prod(grid.shape)
     # an upper bound (widths that round to one tick merge), and never far above
     assert real <= est.candidates <= 2 * real + widths * 8 * 200 * steps
+
+
+@pytest.mark.skipif(os.geteuid() == 0, reason="root may write into any folder")
+def test_unwritable_folder_is_refused(tmp_path):
+    folder = tmp_path / "ro"
+    folder.mkdir()
+    folder.chmod(0o500)
+    r = cli("schedule", RIG, "-o", folder / "x.csv")
+    assert r.returncode == 2 and "not writable" in one_line(r.stderr)
+
+
+def test_unwritable_folder_is_refused_even_when_access_says_yes(tmp_path, monkeypatch):
+    # as root os.access() says yes; the failure then comes from creating the temp file
+    import tempfile
+
+    def refuse(*args, **kwargs):
+        raise PermissionError(13, "Permission denied")
+
+    monkeypatch.setattr(tempfile, "mkstemp", refuse)
+    with pytest.raises(OutputError, match="Permission denied"):
+        write_atomic(tmp_path / "x.csv", "data")
+    assert list(tmp_path.iterdir()) == []
