@@ -9,6 +9,24 @@ Public API (imported lazily so that ``strobeplan --help`` stays fast)::
 
 from __future__ import annotations
 
+import sys as _sys
+
+if _sys.argv and _sys.argv[0].replace("\\", "/").rsplit("/", 1)[-1] == "strobeplan":
+    # The console command: Ctrl-C before the CLI has set up its handlers exits 130 with no
+    # traceback (strobeplan.cli.main installs the KeyboardInterrupt handler again).
+    import _signal
+
+    def _quiet_interrupt(signum, frame):  # pragma: no cover - timing dependent
+        import os
+
+        os._exit(130)
+
+    try:
+        if _signal.getsignal(_signal.SIGINT) is not _signal.SIG_IGN:
+            _signal.signal(_signal.SIGINT, _quiet_interrupt)
+    except (ValueError, OSError):
+        pass
+
 __version__ = "0.1.0"
 __all__ = ["load_rig", "loads_rig", "solve", "build_schedule", "Plan", "Finding", "RigError"]
 

@@ -9,15 +9,35 @@ that ``strobeplan --help`` stays fast.
 
 from __future__ import annotations
 
+import _signal  # the C module: importing it costs nothing, so Ctrl-C is covered at once
 import sys
-from contextlib import contextmanager
 
-import click
+
+def _quiet_interrupt(signum, frame):  # pragma: no cover - timing dependent
+    """Ctrl-C while this module imports (the first tens of ms): exit 130, no traceback."""
+    import os
+
+    os._exit(130)
+
+
+try:  # only while the imports below run; restored at the end of this module
+    _PREVIOUS_SIGINT = _signal.getsignal(_signal.SIGINT)
+    if _PREVIOUS_SIGINT is not _signal.SIG_IGN:
+        _signal.signal(_signal.SIGINT, _quiet_interrupt)
+    else:
+        _PREVIOUS_SIGINT = None
+except (ValueError, OSError):  # not the main thread
+    _PREVIOUS_SIGINT = None
+
+from contextlib import contextmanager  # noqa: E402
+
+import click  # noqa: E402
 
 EXIT_OK = 0
 EXIT_FAIL = 1
 EXIT_INPUT = 2
 EXIT_INTERNAL = 3
+EXIT_INTERRUPT = 130
 
 EXAMPLES = ("levitator-40k", "rangefinder-58k", "unsafe-bench")
 
@@ -28,7 +48,9 @@ class InputError(click.ClickException):
     exit_code = EXIT_INPUT
 
     def show(self, file=None):
-        click.echo(f"error: {self.format_message()}", err=True, file=file)
+        from .safetext import clean
+
+        click.echo(f"error: {clean(self.format_message())}", err=True, file=file)
 
 
 @contextmanager
@@ -55,13 +77,14 @@ def _solve(rig_path: str):
         return solve(load_rig(rig_path))
 
 
-def _same_file(a: str, b: str) -> bool:
-    import os
+def _check_output(output: str | None, rig_path: str | None = None) -> None:
+    """Apply the output-target policy before any work (strobeplan.io.check_target)."""
+    from .io import check_target
 
-    try:
-        return a != "-" and os.path.samefile(a, b)
-    except OSError:
-        return False
+    if output is None or output == "-":
+        return
+    with user_errors():
+        check_target(output, rig_path)
 
 
 def _write_or_echo(text: str, output: str | None, rig_path: str | None = None) -> None:
@@ -70,10 +93,8 @@ def _write_or_echo(text: str, output: str | None, rig_path: str | None = None) -
     if output is None or output == "-":
         click.echo(text, nl=False)
         return
-    if rig_path is not None and _same_file(rig_path, output):
-        raise InputError(f"{output}: is the rig file itself; choose another output file")
     with user_errors():
-        write_atomic(output, text)
+        write_atomic(output, text, rig_path)
 
 
 @click.group(context_settings={"help_option_names": ["-h", "--help"]})
@@ -138,6 +159,7 @@ def schedule(rig, output, fmt, steps, ticks):
     from .report.tables import schedule_csv, schedule_json, schedule_ticks
     from .solve import build_schedule
 
+    _check_output(output, rig)
     plan = _solve(rig)
     with user_errors():
         sched = build_schedule(plan, steps=steps)
@@ -166,19 +188,28 @@ def new(example, output, force):
 
 
 def _quantity(text: str, kind: str, option: str) -> float:
-    """Parse an option value through strobeplan.units; bare resistances ("1k", "470") get
-    "ohm" appended."""
+    """An option's value as an SI float, checked with the same limits as the rig key it
+    stands for (strobeplan.limits, the one limits table); bare resistances ("1k", "470")
+    are read in ohm."""
+    from .limits import OPTIONS, option_value
+
+    if option in OPTIONS:
+        with user_errors():
+            return option_value(option, text)
     from . import units
 
     try:
         return units.parse(text, kind)
     except units.UnitError as exc:
-        if kind == "resistance":
-            try:
-                return units.parse(text.strip() + "ohm", kind)
-            except units.UnitError:
-                pass
         raise InputError(f"{option} {text!r}: {exc}") from None
+
+
+def _range(option: str, pair) -> tuple[float, float]:
+    """A MIN MAX option pair within the option's limits, MIN <= MAX."""
+    from .limits import option_range
+
+    with user_errors():
+        return option_range(option, pair)
 
 
 @cli.command()
@@ -242,8 +273,7 @@ def plot(rig, kind, output, dpi):
     if suffix not in (".png", ".svg"):
         raise InputError(f"{output}: expected a .png or .svg file name (the suffix decides "
                          "the format)")
-    if _same_file(rig, output):
-        raise InputError(f"{output}: is the rig file itself; choose another output file")
+    _check_output(output, rig)
     plan = _solve(rig)
     from .io import write_atomic
     from .report.plots import figure_bytes
@@ -252,7 +282,7 @@ def plot(rig, kind, output, dpi):
     with user_errors():
         result = _search_for_plot(plan) if kind == "tradeoff" else None
         data = figure_bytes(draw(plan, kind, tune_result=result), suffix[1:], dpi)
-        write_atomic(output, data)
+        write_atomic(output, data, rig)
 
 
 def _search_for_plot(plan):
@@ -267,22 +297,14 @@ def _search_for_plot(plan):
 
 def _solve_with_text(rig_path: str):
     """(plan, rig text as given) for outputs that show the rig file itself."""
-    from pathlib import Path
-
-    from .rig import load_rig, loads_rig
+    from .io import read_rig_bytes
+    from .rig import loads_rig
     from .solve import solve
 
     with user_errors():
-        if rig_path == "-":
-            data, where = sys.stdin.buffer.read(), "<stdin>"
-        else:
-            try:
-                data, where = Path(rig_path).read_bytes(), rig_path
-            except OSError:
-                load_rig(rig_path)  # raises the one-line RigError for this path
-                raise
+        data, where = read_rig_bytes(rig_path)  # read once: a FIFO or stdin is fine
         rig = loads_rig(data, where)
-        return solve(rig), data.decode("utf-8")
+        return solve(rig), data.decode("utf-8").removeprefix("\ufeff")
 
 
 @cli.command()
@@ -293,6 +315,7 @@ def report(rig, output):
     """Write one self-contained HTML report: verdict, findings, plots, tables, the rig."""
     from .report.html import report_html
 
+    _check_output(output, rig)
     plan, text = _solve_with_text(rig)
     with user_errors():
         page = report_html(plan, rig_text=text, tune_result=_search_for_plot(plan))
@@ -335,15 +358,16 @@ def tune(rig, min_retention, min_margin, series, resistor_range, max_every, supp
     import time
 
     from . import tune as tuner
+    from .io import read_rig_bytes
     from .report.tune_text import result_text
     from .rig import loads_rig
     from .rigedit import tuned_rig_text
 
-    if write_rig is not None and _same_file(rig, write_rig):
-        raise InputError(f"{write_rig}: is the rig file itself; choose another output file")
+    _check_output(write_rig, rig)
     with user_errors():
-        text = _read_rig_text(rig)
-        model = loads_rig(text, where=rig)
+        data, where = read_rig_bytes(rig)  # read once: a FIFO or stdin is fine
+        model = loads_rig(data, where=where)  # refuses non-UTF-8 text with one line
+        text = data.decode("utf-8").removeprefix("\ufeff")
         limits, grid_options = tuner.search_options(
             model, min_retention=min_retention, min_margin=min_margin, series=series,
             resistor_range=resistor_range, max_every=max_every, supply_range=supply_range,
@@ -357,38 +381,21 @@ def tune(rig, min_retention, min_margin, series, resistor_range, max_every, supp
             from .io import write_atomic
 
             write_atomic(write_rig, tuned_rig_text(text, result.best, limits.min_retention,
-                                                   limits.min_margin))
+                                                   limits.min_margin), rig)
     if as_json:
         click.echo(json.dumps(result.to_json(), indent=2))
     else:
-        click.echo(result_text(result), nl=False)
+        from .safetext import clean_block
+
+        click.echo(clean_block(result_text(result)), nl=False)
     if write_rig is not None:
+        from .safetext import clean
+
         if result.best is not None:
-            click.echo(f"wrote the tuned rig to {write_rig}", err=True)
+            click.echo(f"wrote the tuned rig to {clean(write_rig)}", err=True)
         else:
-            click.echo(f"nothing feasible: {write_rig} not written", err=True)
+            click.echo(f"nothing feasible: {clean(write_rig)} not written", err=True)
     sys.exit(EXIT_OK if result.best is not None else EXIT_FAIL)
-
-
-def _read_rig_text(rig: str) -> str:
-    """The rig file's text, read once (standard input for ``-``)."""
-    from .errors import RigError
-
-    if rig == "-":
-        return sys.stdin.read()
-    try:
-        with open(rig, encoding="utf-8") as fh:
-            return fh.read()
-    except UnicodeDecodeError as exc:
-        raise RigError("", rig, f"not UTF-8 text ({exc.reason} at byte {exc.start})") from None
-    except OSError as exc:
-        raise RigError("", rig, f"cannot read the rig file ({exc.strerror})") from None
-
-
-def _load(rig):
-    from .rig import load_rig
-
-    return load_rig(rig)
 
 
 class _LazyBar:
@@ -406,7 +413,8 @@ class _LazyBar:
             if time.perf_counter() - self.started < 1.0 or not sys.stderr.isatty():
                 self.done = done
                 return
-            self.bar = click.progressbar(length=total, label="tune", file=sys.stderr)
+            self.bar = click.progressbar(length=total, label="tune", file=sys.stderr,
+                                         show_eta=True)
             self.bar.__enter__()
             self.bar.update(self.done)
         self.bar.update(done - self.done)
@@ -429,40 +437,153 @@ def schema(output):
     _write_or_echo(json.dumps(plan_schema(), indent=2, sort_keys=True) + "\n", output)
 
 
-def main(argv=None) -> None:
-    """Console entry point: maps every outcome to the documented exit codes."""
+class _ClosedStdout:
+    """Stands in for a closed standard output: any write fails, so output is never lost
+    silently (the exit status says so)."""
+
+    closed = False
+    encoding = "utf-8"
+
+    def write(self, text):
+        import errno
+
+        raise OSError(errno.EBADF, "standard output is closed")
+
+    def flush(self):
+        pass
+
+    def isatty(self):
+        return False
+
+
+_STDOUT_ERRNOS = ("EBADF", "ENOSPC", "EDQUOT", "EIO", "EFBIG")
+
+
+def _stdout_failed(exc: OSError) -> bool:
+    import errno
+
+    return exc.errno in {getattr(errno, n) for n in _STDOUT_ERRNOS if hasattr(errno, n)}
+
+
+def _silence_stdout() -> None:
+    """Point fd 1 at /dev/null so that Python's own flush at exit cannot fail again."""
     import os
 
-    # pydantic scans every installed distribution for plugins on first use (5-8 ms measured
-    # here); strobeplan uses none. setdefault keeps a user's own choice.
-    os.environ.setdefault("PYDANTIC_DISABLE_PLUGINS", "__all__")
+    try:
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, 1)
+        os.close(devnull)
+    except OSError:
+        pass
+
+
+def main(argv=None) -> None:
+    """Console entry point: maps every outcome to the exit codes of the README.
+
+    0 pass or warn, 1 a hazard or fault, 2 bad input or an unwritable output (standard
+    output included), 3 an internal error, 130 interrupted (Ctrl-C), 128 + the signal for
+    SIGTERM and SIGHUP; never a traceback unless --debug.
+    """
     args = list(sys.argv[1:] if argv is None else argv)
     debug = "--debug" in args
+    try:  # Ctrl-C raises KeyboardInterrupt from here on (unless it is ignored)
+        if _signal.getsignal(_signal.SIGINT) is not _signal.SIG_IGN:
+            _signal.signal(_signal.SIGINT, _signal.default_int_handler)
+    except (ValueError, OSError):
+        pass
+    code = EXIT_OK
     try:
-        code = cli.main(args=args, prog_name="strobeplan", standalone_mode=False)
+        import os
+
+        from .io import install_signal_handlers
+
+        install_signal_handlers()
+        # pydantic scans every installed distribution for plugins on first use (5-8 ms
+        # measured here); strobeplan uses none. setdefault keeps a user's own choice.
+        os.environ.setdefault("PYDANTIC_DISABLE_PLUGINS", "__all__")
+        if sys.stdout is None:
+            sys.stdout = _ClosedStdout()
+        try:
+            code = cli.main(args=args, prog_name="strobeplan", standalone_mode=False)
+            sys.stdout.flush()
+        except click.Abort as exc:
+            if isinstance(exc.__cause__, KeyboardInterrupt):
+                raise KeyboardInterrupt from None
+            raise
+    except KeyboardInterrupt:
+        _echo_err("interrupted")
+        sys.exit(EXIT_INTERRUPT)
+    except _terminated() as exc:
+        _echo_err("terminated")
+        sys.exit(128 + exc.signum)
+    except click.UsageError as exc:
+        from .safetext import clean
+
+        hint = f" (see: {exc.ctx.command_path} --help)" if exc.ctx is not None else ""
+        _echo_err(f"error: {clean(exc.format_message())}{hint}")
+        sys.exit(EXIT_INPUT)
     except click.ClickException as exc:
         exc.show()
         sys.exit(exc.exit_code)
     except click.exceptions.Exit as exc:
         sys.exit(exc.exit_code)
     except click.Abort:
-        click.echo("aborted", err=True)
+        _echo_err("aborted")
         sys.exit(EXIT_INPUT)
     except BrokenPipeError:
+        _silence_stdout()
         sys.exit(EXIT_OK)
-    except SystemExit:
-        raise
+    except SystemExit as exc:
+        try:
+            sys.stdout.flush()
+        except OSError as err:
+            if not _stdout_failed(err):
+                raise
+            _stdout_error(err)
+        raise exc from None
+    except OSError as exc:
+        if not _stdout_failed(exc):
+            _internal(exc, debug)
+        _stdout_error(exc)
     except Exception as exc:  # noqa: BLE001 - the last line of defence
-        if debug:
-            import traceback
-
-            traceback.print_exc()
-        click.echo(f"internal error: {type(exc).__name__}: {exc}\n"
-                   "This is a bug in strobeplan: please report it with the rig file "
-                   "(run with --debug for a traceback).", err=True)
-        sys.exit(EXIT_INTERNAL)
+        _internal(exc, debug)
     sys.exit(code if isinstance(code, int) else EXIT_OK)
 
+
+def _terminated():
+    from .io import Terminated
+
+    return Terminated
+
+
+def _echo_err(text: str) -> None:
+    try:
+        click.echo(text, err=True)
+    except (OSError, ValueError):
+        pass
+
+
+def _stdout_error(exc: OSError) -> None:
+    _silence_stdout()
+    _echo_err(f"error: cannot write to standard output ({exc.strerror or exc})")
+    sys.exit(EXIT_INPUT)
+
+
+def _internal(exc: BaseException, debug: bool) -> None:
+    from .safetext import clean
+
+    if debug:
+        import traceback
+
+        traceback.print_exc()
+    _echo_err(f"internal error: {type(exc).__name__}: {clean(exc, 300)} This is a bug in "
+              "strobeplan: please report it with the rig file (run with --debug for a "
+              "traceback).")
+    sys.exit(EXIT_INTERNAL)
+
+
+if _PREVIOUS_SIGINT is not None:
+    _signal.signal(_signal.SIGINT, _PREVIOUS_SIGINT)
 
 if __name__ == "__main__":
     main()

@@ -23,6 +23,8 @@ from pydantic import BaseModel, BeforeValidator, ConfigDict, Field, ValidationEr
 
 from . import units
 from .errors import MISSING, RigError
+from .io import MAX_RIG_BYTES
+from .safetext import shorten
 
 __all__ = ["Rig", "load_rig", "loads_rig", "rig_from_dict", "E_SERIES_NAMES"]
 
@@ -64,9 +66,10 @@ def Count(**constraints):  # noqa: N802
 def _plain_number(value):
     if isinstance(value, bool) or not isinstance(value, (int, float)):
         raise ValueError(f"expected a plain number, got {value!r}")
-    if not math.isfinite(value):
-        raise ValueError(f"expected a finite number, got {value!r}")
-    return float(value)
+    try:
+        return units.parse(value, "ratio")
+    except units.UnitError as exc:
+        raise ValueError(str(exc)) from None
 
 
 def Number(**constraints):  # noqa: N802
@@ -163,7 +166,7 @@ class Strobe(_Model):
     pulse_width: Q("time", gt=0, description="Gate-on time of one flash.")
     phase: Q("angle", ge=-2 * math.pi, le=2 * math.pi) = 0.0
     every: Count(ge=1, le=1_000_000) = 1
-    calibration_offset: Q("time") = 0.0
+    calibration_offset: Q("time", ge=-1.0, le=1.0) = 0.0
     min_retention: Q("ratio", gt=0, lt=1) = 0.9
     continuous: bool = False
 
@@ -238,7 +241,7 @@ class GateDriver(_Model):
     supply: Q("voltage", gt=0)
     output_resistance: Q("resistance", ge=0) = 0.0
     gate_resistor: Q("resistance", ge=0) = 0.0
-    propagation_delay: Q("time", ge=0) = 0.0
+    propagation_delay: Q("time", ge=0, le=1.0) = 0.0
     input: str = "lvcmos33"
     rise_time: Q("time", gt=0) | None = None
     fall_time: Q("time", gt=0) | None = None
@@ -271,7 +274,7 @@ class Camera(_Model):
     frame_rate: Q("frequency", gt=0)
     shutter: Literal["global", "rolling"] = "global"
     readout: Q("time", ge=0) | None = None
-    trigger_latency: Q("time", ge=0) = 0.0
+    trigger_latency: Q("time", ge=0, le=1.0) = 0.0
     trigger_input: TriggerInput | None = None
     trigger: Literal["input", "none"] = "input"
     object_pixel: Q("length", gt=0) | None = None
@@ -415,27 +418,17 @@ def load_rig(source: str | Path) -> Rig:
     RigError
         For anything unreadable, malformed, out of range or contradictory.
     """
-    if str(source) == "-":
-        import sys
+    from .io import read_rig_bytes
 
-        data = sys.stdin.buffer.read()
-        where = "<stdin>"
-    else:
-        path = Path(source)
-        try:
-            data = path.read_bytes()
-        except FileNotFoundError:
-            raise RigError("", str(source), "no such rig file") from None
-        except IsADirectoryError:
-            raise RigError("", str(source), "is a directory, expected a rig file") from None
-        except OSError as exc:
-            raise RigError("", str(source), f"cannot be read ({exc.strerror})") from None
-        where = str(source)
+    data, where = read_rig_bytes(source)
     return loads_rig(data, where)
 
 
 def loads_rig(data: bytes | str, where: str = "<rig>") -> Rig:
     """Validate rig-file text (bytes or str); see :func:`load_rig`."""
+    if len(data) > MAX_RIG_BYTES:
+        raise RigError("", where, f"is larger than {MAX_RIG_BYTES // 1_000_000} MB, the limit "
+                       "for a rig file")
     if isinstance(data, bytes):
         if b"\x00" in data:
             raise RigError("", where, "is a binary file, expected TOML text")
@@ -445,12 +438,17 @@ def loads_rig(data: bytes | str, where: str = "<rig>") -> Rig:
             raise RigError("", where, f"is not UTF-8 text (byte {exc.start})") from None
     else:
         text = data
+    text = text.removeprefix("\ufeff")  # a UTF-8 byte order mark is accepted
     if not text.strip():
         raise RigError("", where, "is empty, expected a TOML rig file (try `strobeplan new`)")
     try:
         raw = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise RigError("", where, f"TOML syntax error: {exc}") from None
+    except RecursionError:
+        raise RigError("", where, "nests arrays or tables too deeply for a rig file") from None
+    except ValueError as exc:  # e.g. an integer beyond Python's digit limit
+        raise RigError("", where, f"TOML value out of range: {exc}") from None
     return rig_from_dict(raw)
 
 
@@ -460,6 +458,8 @@ def rig_from_dict(raw: dict[str, Any]) -> Rig:
         rig = Rig.model_validate(raw)
     except ValidationError as exc:
         raise _validation_error(exc, raw) from None
+    except RecursionError:
+        raise RigError("", None, "the rig nests arrays or tables too deeply") from None
     cross_check(rig, raw)
     return rig
 
@@ -533,11 +533,12 @@ def _path(loc) -> str:
         if isinstance(part, int):
             out += f"[{part}]"
         else:
-            out += ("." if out else "") + str(part)
+            out += ("." if out else "") + shorten(str(part), 60)
     return out
 
 
-def _validation_error(exc: ValidationError, raw) -> RigError:
+def _validation_error(exc: ValidationError, raw, prefix: tuple = (),
+                      kind: str | None = None) -> RigError:
     """All of pydantic's problems as one RigError line: the first in full, then every other.
 
     The first problem gives the error its key path and value; the others follow on the same
@@ -552,7 +553,7 @@ def _validation_error(exc: ValidationError, raw) -> RigError:
     seen: set[str] = set()
     guessed: set[str] = set()
     for err in errors:
-        problem, guess = _one_error(err, raw)
+        problem, guess = _one_error(err, raw, prefix, kind)
         if problem.path in seen or (err["type"] == "missing" and problem.path in guessed):
             continue  # one problem per key; a missing key a typo's "did you mean" names
         seen.add(problem.path)
@@ -564,18 +565,20 @@ def _validation_error(exc: ValidationError, raw) -> RigError:
     return RigError(first.path, first.value, first.expected + also)
 
 
-def _one_error(err, raw) -> tuple[RigError, str | None]:
+def _one_error(err, raw, prefix: tuple = (), kind: str | None = None
+               ) -> tuple[RigError, str | None]:
     """One pydantic error as a RigError, and the key path a "did you mean" proposes."""
     loc = tuple(p for p in err["loc"] if not (isinstance(p, str) and p.startswith("function-")))
-    loc = tuple(p for p in loc if p not in ("float", "int", "str", "bool", "list"))
+    loc = prefix + tuple(p for p in loc if p not in ("float", "int", "str", "bool", "list"))
     path = _path(loc)
     value = _lookup(raw, loc)
-    kind = _field_kind(loc) if loc else None
+    kind = kind or (_field_kind(loc) if loc else None)
     etype = err["type"]
     if etype == "extra_forbidden":
         model = _model_at(loc[:-1])
         names = list(model.model_fields) if model else []
-        guess = difflib.get_close_matches(str(loc[-1]), names, n=1, cutoff=0.5)
+        guess = difflib.get_close_matches(str(loc[-1]), names, n=1, cutoff=0.5) \
+            if len(str(loc[-1])) <= 100 else []
         hint = f"; did you mean '{guess[0]}'?" if guess else ""
         where = _path(loc[:-1]) or "the top level"
         known = ", ".join(names)
@@ -627,6 +630,11 @@ def cross_check(rig: Rig, raw: dict | None = None) -> None:
     f = rig.wave.frequency
     synth = rig.emitter.synthesis if rig.emitter else None
     flash_period = rig.strobe.every / f
+    clock = rig.controller.clock
+    if round(rig.strobe.pulse_width * clock) < 1:
+        _fail(raw, "strobe.pulse_width",
+              f"expected at least half a timer tick ({r(0.5 / clock, 'time')} at "
+              f"controller.clock {r(clock, 'frequency')}): the timer would realise 0 ticks")
     if rig.strobe.pulse_width >= flash_period:
         _fail(raw, "strobe.pulse_width",
               f"expected shorter than the flash period {r(flash_period, 'time')} "
@@ -679,6 +687,10 @@ def cross_check(rig: Rig, raw: dict | None = None) -> None:
                   f"expected no longer than the frame period {r(1 / cam.frame_rate, 'time')}")
         if cam.shutter == "rolling" and cam.readout is None:
             _fail(raw, "camera.readout", "required for shutter = 'rolling' (the row readout time)")
+        if cam.trigger_latency >= 1.0 / cam.frame_rate:
+            _fail(raw, "camera.trigger_latency",
+                  f"expected shorter than the frame period {r(1 / cam.frame_rate, 'time')} "
+                  "(the exposure would open in a later frame)")
         if cam.frame_rate > f / rig.strobe.every:
             _fail(raw, "camera.frame_rate", "expected no faster than the flash rate")
     if rig.emitter is not None:
@@ -730,6 +742,8 @@ def cross_check(rig: Rig, raw: dict | None = None) -> None:
             _fail(raw, "controller.timer.prescaler_max",
                   "expected a power of two (prescaler_power_of_two = true)")
     tl = rig.trigger_link
+    for fname, fam in ((tl.families or {}) if tl is not None else {}).items():
+        _check_family(raw, f"trigger_link.families.{shorten(fname, 40)}", fam)
     if tl is not None and (tl.top is None) != (tl.bottom is None):
         _fail(raw, "trigger_link.top" if tl.top is None else "trigger_link.bottom",
               "give both top and bottom (to check a pair) or neither (to propose one)")
@@ -778,3 +792,24 @@ def _cross_check_image(rig: Rig, raw) -> None:
         if cam.lens.focal_length >= u:
             _fail(raw, "camera.lens.focal_length", "expected shorter than the lens's distance "
                   f"to the mirror ({units.render(u, 'length')}): it could not focus there")
+
+
+def _check_family(raw, where: str, fam: LogicFamily) -> None:
+    """A custom logic family's thresholds in their physical order (RigError otherwise):
+    VIL < VIH < VDD, VOL < VOH <= VDD, vdd_min <= vdd <= vdd_max."""
+    r = units.render
+    vdd_min = fam.vdd_min if fam.vdd_min is not None else 0.9 * fam.vdd
+    vdd_max = fam.vdd_max if fam.vdd_max is not None else 1.1 * fam.vdd
+    checks = (
+        (fam.vil < fam.vih, "vih", f"expected above vil ({r(fam.vil, 'voltage')})"),
+        (fam.vih < fam.vdd, "vih", f"expected below vdd ({r(fam.vdd, 'voltage')})"),
+        (fam.vol < fam.voh, "voh", f"expected above vol ({r(fam.vol, 'voltage')})"),
+        (fam.voh <= fam.vdd, "voh", f"expected at most vdd ({r(fam.vdd, 'voltage')})"),
+        (vdd_min <= fam.vdd, "vdd_min", f"expected at most vdd ({r(fam.vdd, 'voltage')})"),
+        (fam.vdd <= vdd_max, "vdd_max", f"expected at least vdd ({r(fam.vdd, 'voltage')})"),
+    )
+    for ok, key, expected in checks:
+        if not ok:
+            value = getattr(fam, key)
+            shown = r(value, "voltage") if value is not None else None
+            raise RigError(f"{where}.{key}", shown, expected)

@@ -206,41 +206,29 @@ def search_options(rig, *, min_retention=None, min_margin=None, series="E24",
                    resistor_range=("0.1 ohm", "100 ohm"), max_every=8, supply_range=None,
                    supply_steps=13, widths=160) -> tuple[Limits, dict]:
     """Validate the search options (texts with units, as typed) into Limits and the keyword
-    arguments of :func:`default_grid`. Bad values raise RigError naming the option."""
-    from .units import parse
+    arguments of :func:`default_grid`.
 
-    def quantity(text, kind, option):
-        try:
-            value = parse(str(text), kind)
-        except (ValueError, RigError) as exc:
-            raise RigError(option, text, f"expected a {kind.replace('_', ' ')} with a unit "
-                                         f"({exc})") from None
-        if not math.isfinite(value):
-            raise RigError(option, text, "expected a finite value")
-        return value
+    Each option takes the limits of the rig key it stands for (:mod:`strobeplan.limits`:
+    one definition); the grid's size is estimated and refused beyond the work budget
+    (:mod:`strobeplan.workload`). Bad values raise RigError naming the option.
+    """
+    from .limits import option_range, option_value
+    from .workload import require_within, tune_estimate
 
-    ret = None if min_retention is None else quantity(min_retention, "ratio", "--min-retention")
-    if ret is not None and not 0.0 < ret < 1.0:
-        raise RigError("--min-retention", min_retention, "expected a ratio between 0 and "
-                                                         "100 % (e.g. 90%)")
-    margin = (None if min_margin is None
-              else quantity(min_margin, "temperature_difference", "--min-margin"))
-    if margin is not None and not 0.0 <= margin <= 200.0:
-        raise RigError("--min-margin", min_margin, "expected 0 K to 200 K")
-    r_lo, r_hi = (quantity(x, "resistance", "--resistor-range") for x in resistor_range)
-    if not 0.0 < r_lo <= r_hi:
-        raise RigError("--resistor-range", f"{resistor_range[0]} {resistor_range[1]}",
-                       "expected 0 < MIN <= MAX")
-    grid = {"widths": int(widths), "series": series.upper(), "resistor_range": (r_lo, r_hi),
+    ret = None if min_retention is None else option_value("--min-retention", min_retention)
+    margin = None if min_margin is None else option_value("--min-margin", min_margin)
+    grid = {"widths": int(widths), "series": series.upper(),
+            "resistor_range": option_range("--resistor-range", resistor_range),
             "max_every": int(max_every), "supply_steps": int(supply_steps)}
     if supply_range is not None:
-        v_lo, v_hi = (quantity(x, "voltage", "--supply-range") for x in supply_range)
-        if not 0.0 < v_lo <= v_hi:
-            raise RigError("--supply-range", f"{supply_range[0]} {supply_range[1]}",
-                           "expected 0 V < MIN <= MAX")
-        grid["supply_range"] = (v_lo, v_hi)
+        grid["supply_range"] = option_range("--supply-range", supply_range)
     if rig is not None:
         require(rig)
+        require_within(tune_estimate(rig, widths=grid["widths"], series=grid["series"],
+                                     resistor_range=grid["resistor_range"],
+                                     max_every=grid["max_every"],
+                                     supply_range=grid.get("supply_range"),
+                                     supply_steps=grid["supply_steps"]))
     return Limits(min_retention=ret, min_margin=margin), grid
 
 

@@ -143,6 +143,44 @@ def phase_of_edge(edge_ticks: int, frequency: float, clock: float, chain_delay: 
     return wrap_phase(TWO_PI * frequency * (t_centroid - chain_delay))
 
 
+def pulse_ticks(width: float, clock: float) -> int:
+    """Whole timer ticks a gate pulse of ``width`` is realised as (rounded; 0 means the
+    timer cannot produce it).
+
+    Parameters
+    ----------
+    width : float
+        Requested gate-on time. [s]
+    clock : float
+        Timer clock. [Hz]
+    """
+    return int(round(width * clock))
+
+
+def reduce_delay(delay: float, clock: float, period_ticks: int) -> float:
+    """``delay`` reduced modulo the drive period, exactly, into [0, period). [s]
+
+    A steady wave repeats every drive period, so only the delay modulo the period moves
+    the phase. The reduction is done in exact rational arithmetic (the float ``delay`` and
+    ``clock`` are exact binary fractions), so a delay of many periods keeps its fraction
+    of a period to the last bit instead of losing it in ``delay * clock``.
+
+    Parameters
+    ----------
+    delay : float
+        Any delay, possibly many periods or negative. [s]
+    clock : float
+        Timer clock. [Hz]
+    period_ticks : int
+        Drive period. [ticks]
+    """
+    from fractions import Fraction
+
+    ticks = Fraction(delay) * Fraction(clock)
+    reduced = float((ticks % period_ticks) / Fraction(clock))
+    return 0.0 if reduced >= period_ticks / clock else reduced  # a hair below: rounds up
+
+
 def dirichlet_smear(n, step):
     """Contrast kept when n equal flashes land at phases spaced by ``step`` (Dirichlet).
 
@@ -343,10 +381,13 @@ def _chain(rig, frequency: float, speed: float) -> tuple[DriveSection, float]:
     d_f = float(drive_model.phase_delay(phi_f, frequency))
     d_a = float(drive_model.phase_delay(phi_a, frequency))
     d_t = float(drive_model.phase_delay(phi_t, frequency))
-    chain = d_f + d_a + d_t + travel + rig.strobe.calibration_offset
     m, nc = choose_drive(rig.controller.clock, rig.wave.frequency,
                          synth.carrier if synth else None,
                          synth.samples_per_cycle if synth else None)
+    offset = rig.strobe.calibration_offset
+    if abs(offset) * frequency >= 1.0:  # whole periods only move the phase by 2 pi k
+        offset = reduce_delay(offset, rig.controller.clock, m * nc)
+    chain = d_f + d_a + d_t + travel + offset
     carrier_att = None
     if synth is not None:
         fc = rig.controller.clock / nc
@@ -456,7 +497,7 @@ def compute(rig, design, plan) -> TimingSection:
         if link_delay is None or not math.isfinite(link_delay):
             link_delay = 0.0  # never reaches VIH: trigger_link.below_vih says so
         lead = cam.trigger_latency + readout + link_delay
-        window = cam.exposure - readout
+        window = max(cam.exposure - readout, 0.0)  # a readout beyond the exposure: none
         trigger, n_frame, first = (np.asarray(x) for x in align_camera(
             edge, flash_ticks, clock, light_delay, light_length, lead, window))
         if cam.trigger == "none":  # free-running: no trigger, no frame lock
@@ -636,3 +677,43 @@ def schedule(rig, plan, lock: Lock, steps: int | None = None) -> Schedule:
                                         lock.flash_delay)
             rows.append(frame_row(k, target, edge, lock.flash_ticks))
     return Schedule(t.mode, clock, nd, lock.flash_ticks, lock.frame_ticks, rows)
+
+
+def schedule_conflict(sched: Schedule, lock: Lock) -> tuple[str, int, str] | None:
+    """The first impossible row of a schedule, or None.
+
+    Checked per frame k (frame k spans ``k * frame_period_ticks`` to the next frame): the
+    first flash seen lies inside frame k; the camera trigger of frame k+1 comes after the
+    exposure window of frame k has closed (a trigger inside an exposure is ignored or
+    restarts it, depending on the camera). A one-row schedule repeats every frame.
+
+    Returns
+    -------
+    (str, int, str) or None
+        ``("flash_outside_frame" | "trigger_in_exposure", frame, description)``.
+    """
+    frame_ticks = lock.frame_ticks
+    if frame_ticks is None or lock.lead is None or not sched.rows:
+        return None
+    clock = lock.clock
+    busy = math.ceil((lock.lead + max(lock.window, 0.0)) * clock - 1e-9)
+    rows = sched.rows
+    for i, row in enumerate(rows):
+        start = row.frame * frame_ticks
+        if row.first_flash_ticks is not None and not (
+                start <= row.first_flash_ticks < start + frame_ticks):
+            return ("flash_outside_frame", row.frame,
+                    f"frame {row.frame}'s first flash comes {row.first_flash_ticks - start} "
+                    f"ticks after the frame starts, beyond its {frame_ticks}-tick frame")
+        if i + 1 < len(rows):
+            nxt = rows[i + 1].camera_trigger_ticks
+        elif len(rows) == 1:
+            nxt = row.camera_trigger_ticks + frame_ticks
+        else:
+            continue
+        if nxt < row.camera_trigger_ticks + busy:
+            return ("trigger_in_exposure", row.frame,
+                    f"frame {row.frame + 1}'s camera trigger comes "
+                    f"{row.camera_trigger_ticks + busy - nxt} ticks before frame "
+                    f"{row.frame}'s exposure has closed")
+    return None

@@ -99,7 +99,17 @@ for _kind in KINDS.values():
         if _u:
             _UNIT_OWNER.setdefault(_u, _kind.name)
 
-_NUMBER = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(.*?)\s*$")
+_NUMBER = re.compile(r"^\s*([-+]?(?:[0-9]+\.?[0-9]*|\.[0-9]+)(?:[eE][-+]?[0-9]+)?)\s*(.*?)\s*$",
+                     re.ASCII)
+
+# Magnitudes accepted for a dimensioned quantity, in SI units (0 itself is fine): beyond
+# these a value is a typo, and its reciprocal or square leaves the float range (1e-320 is
+# subnormal; 1 / 1e-320 overflows). Ratios, angles, ppm and dB only refuse subnormal
+# numbers.
+MIN_MAGNITUDE = 1e-24
+MAX_MAGNITUDE = 1e24
+MIN_RATIO = 2.2250738585072014e-308  # the smallest normal double (sys.float_info.min)
+_DIMENSIONLESS = ("ratio", "angle", "ppm", "sound_level")
 _NONFINITE = re.compile(r"^\s*[-+]?(nan|inf|infinity)\b", re.IGNORECASE)
 
 
@@ -159,12 +169,18 @@ def parse(text, kind: str) -> float:
     if isinstance(text, (int, float)):
         if not k.unitless_ok:
             raise UnitError(f"missing unit: expected {expected} (a string with its unit)")
-        value = float(text)
+        try:
+            value = float(text)
+        except OverflowError:
+            raise UnitError(f"a {len(str(abs(text)))}-digit number is out of range "
+                            f"(magnitudes up to {MAX_MAGNITUDE:g} are accepted)") from None
         if not math.isfinite(value):
             raise UnitError(f"expected a finite number, got {text!r}")
-        return value
+        return _bounded(value, text, MIN_RATIO)
     if not isinstance(text, str):
         raise UnitError(f"expected {expected}, got {type(text).__name__}")
+    if any(c.isdigit() and not c.isascii() for c in text):
+        raise UnitError(f"only ASCII digits 0-9 are accepted, got {text!r}")
     if _NONFINITE.match(text):
         raise UnitError(f"expected a finite number, got {text!r}")
     m = _NUMBER.match(text)
@@ -172,6 +188,8 @@ def parse(text, kind: str) -> float:
         raise UnitError(f"expected {expected}, got {text!r}")
     number, unit = m.group(1), m.group(2)
     value = float(number)
+    if value == 0 and re.search("[1-9]", number.partition("e")[0].partition("E")[0]):
+        raise UnitError(f"{text!r} is out of range: it underflows to zero")
     if unit == "" and not k.unitless_ok:
         raise UnitError(f"missing unit in {text!r}: expected {expected}")
     found = _split_unit(unit, k)
@@ -187,7 +205,17 @@ def parse(text, kind: str) -> float:
     result = value * scale + offset
     if not math.isfinite(result):
         raise UnitError(f"{text!r} is out of range")
-    return result
+    low = MIN_RATIO if kind in _DIMENSIONLESS else MIN_MAGNITUDE
+    return _bounded(value * scale, text, low) + offset if offset else \
+        _bounded(result, text, low)
+
+
+def _bounded(value: float, text, low: float = MIN_MAGNITUDE) -> float:
+    """``value`` if 0 or within [low, MAX_MAGNITUDE] in magnitude (SI)."""
+    if value != 0 and not low <= abs(value) <= MAX_MAGNITUDE:
+        raise UnitError(f"{text!r} is out of range: magnitudes between {low:g} and "
+                        f"{MAX_MAGNITUDE:g} in SI units are accepted")
+    return value
 
 
 def render(value: float | None, kind: str, digits: int = 4) -> str:

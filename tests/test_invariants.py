@@ -41,8 +41,11 @@ def _scaled(raw, k):
 
 
 @settings(max_examples=60, deadline=None)
-@given(freq=st.floats(20e3, 200e3), frac=st.floats(0.01, 0.4), rise=st.floats(0.0, 0.2),
-       tau=st.floats(1e-9, 2e-7), w=st.floats(0.0, 1.0), jitter=st.floats(0.0, 5e-9),
+# (figures below 1e-24 SI are bad input: keep the drawn ones at 0 or well above)
+@given(freq=st.floats(20e3, 200e3), frac=st.floats(0.01, 0.4),
+       rise=st.floats(0.0, 0.2).filter(lambda x: x == 0 or x > 1e-12),
+       tau=st.floats(1e-9, 2e-7), w=st.floats(0.0, 1.0).filter(lambda x: x == 0 or x > 1e-12),
+       jitter=st.floats(0.0, 5e-9).filter(lambda x: x == 0 or x > 1e-21),
        k=st.sampled_from([0.25, 0.5, 2.0, 4.0, 10.0]))
 def test_time_scaling_leaves_retention_unchanged(freq, frac, rise, tau, w, jitter, k):
     """Retention depends on f*t products only: t -> k t, f -> f/k keeps it (to rounding)."""

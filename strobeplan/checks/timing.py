@@ -44,6 +44,11 @@ def rolling_window_too_short(plan):
         return None
     if plan.banding is not None:
         return None
+    if cam.readout >= cam.exposure:
+        return Hit(lambda: f"the readout ({render(cam.readout, 'time')}) is not shorter than "
+                   f"the exposure ({render(cam.exposure, 'time')}): no moment exposes all "
+                   "rows together, so every flash bands the image",
+                   value=t.window_s, limit=plan.flash.light_length_s, unit="s")
     return Hit(lambda: f"all rows expose together for only {render(t.window_s, 'time')} "
                f"(exposure {render(cam.exposure, 'time')} - readout "
                f"{render(cam.readout, 'time')}); a flash outside it bands the image",
@@ -145,3 +150,69 @@ def frame_rate_adjusted(plan):
                value=t.frame_rate_hz, limit=cam.frame_rate, unit="Hz",
                when=~(np.abs(np.asarray(t.frame_rate_hz) - cam.frame_rate)
                       <= 1e-3 * cam.frame_rate))
+
+
+_NOT_YET = object()
+
+
+def _schedule_conflict(plan):
+    """The first impossible frame of the plan's schedule (scalar plans only), or None.
+
+    Computed once per plan (two rules read it); the schedule has at most
+    ``timing.MAX_ROWS`` rows (a 100,000-step sweep takes about 2 s).
+    """
+    from ..timing import Lock, schedule, schedule_conflict
+
+    cached = getattr(plan, "_schedule_conflict", _NOT_YET)
+    if cached is not _NOT_YET:
+        return cached
+    lock = getattr(plan, "lock", None)
+    found = None
+    if isinstance(lock, Lock) and plan.rig.camera is not None and \
+            isinstance(lock.flash_ticks, int) and lock.frame_ticks is not None:
+        found = schedule_conflict(schedule(plan.rig, plan, lock), lock)
+    try:
+        plan._schedule_conflict = found
+    except AttributeError:
+        pass
+    return found
+
+
+@rule("timing.trigger_in_exposure", "fault",
+      trigger="a camera trigger of the schedule (frozen, sweep or slow motion) comes before "
+              "the previous frame's exposure window has closed",
+      fix="shorten camera.exposure or camera.trigger_latency, or lower camera.frame_rate, so "
+          "that latency + exposure fits in the frame period less one flash period",
+      example=("levitator-40k", {"camera.exposure": "19.97 ms"}))
+def trigger_in_exposure(plan):
+    found = _schedule_conflict(plan)
+    if found is None or found[0] != "trigger_in_exposure":
+        return None
+    return Hit(found[2], value=found[1], unit="frame")
+
+
+@rule("timing.flash_outside_frame", "fault",
+      trigger="the first flash a frame's exposure sees lies beyond that frame (the trigger "
+              "latency and window push it into the next frame)",
+      fix="shorten camera.trigger_latency or lower camera.frame_rate",
+      example=("levitator-40k", {"camera.trigger_latency": "19.99 ms",
+                                 "camera.exposure": "100 us"}))
+def flash_outside_frame(plan):
+    found = _schedule_conflict(plan)
+    if found is None or found[0] != "flash_outside_frame":
+        return None
+    return Hit(found[2], value=found[1], unit="frame")
+
+
+@rule("timing.pulse_below_tick", "warning",
+      trigger="strobe.pulse_width is shorter than one timer tick; the timer realises one "
+              "whole tick (longer than asked)",
+      fix="use a faster controller.clock, or a pulse width of at least one tick",
+      example=("unsafe-bench", {"controller.clock": "150 kHz", "strobe.pulse_width": "5 us"}))
+def pulse_below_tick(plan):
+
+    width = plan.flash.requested_width_s  # the rig's; the design realises whole ticks
+    tick = plan.timing.tick_s
+    return Hit(lambda: f"the {render(width, 'time')} pulse is shorter than one "
+                       f"{render(tick, 'time')} timer tick; the timer gives one tick",
+               value=width, limit=tick, unit="s", when=width < tick)

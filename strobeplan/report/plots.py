@@ -47,6 +47,14 @@ def _need(obj, name: str, what: str, path: str | None = None):
     return value
 
 
+def _plain(text) -> str:
+    """User text (a family name) drawn literally: control characters escaped, and '$'
+    escaped so that matplotlib's mathtext never parses it."""
+    from ..safetext import clean
+
+    return clean(text, 80).replace("$", r"\$")
+
+
 def _new_figure(size):
     from matplotlib.figure import Figure
 
@@ -351,7 +359,8 @@ def plot_pulse(plan, ax=None):
 def junction_trace(plan, time):
     """Junction temperature in the periodic steady state of the plan's flash pattern.
 
-    Gathers the plan's flash pattern for :func:`strobeplan.physics.thermal.burst_trace`.
+    Gathers the plan's flash pattern for
+    :func:`strobeplan.physics.thermal.periodic_burst_rise` (closed form).
 
     Parameters
     ----------
@@ -373,11 +382,16 @@ def junction_trace(plan, time):
     n = max(1, int(led.flashes_per_burst))
     frame = led.frame_period_s if led.pattern == "burst" else spacing
     first = _first_light(plan) if led.pattern == "burst" else 0.0
-    rise = th.burst_trace(time, led.heat_per_pulse_j / width, width,
-                          first + spacing * np.arange(n), frame,
-                          [t.resistance for t in rig.led.thermal],
-                          [t.time_constant for t in rig.led.thermal])
+    # Closed-form periodic sum: the work does not grow with the flashes per frame.
+    rise = th.periodic_burst_rise(time, led.heat_per_pulse_j / width, width, first, spacing,
+                                  n, frame, [t.resistance for t in rig.led.thermal],
+                                  [t.time_constant for t in rig.led.thermal])
     return rig.led.ambient + rise
+
+
+# Most pulse edges drawn as extra samples per panel (the pulses nearest the burst's end,
+# where the peak is); the base grid adds 1500 samples. Bounds a plot's work and size.
+MAX_EDGE_SAMPLES = 3000
 
 
 def _first_light(plan) -> float:
@@ -416,7 +430,9 @@ def plot_thermal(plan, ax=None):
 
     def draw(ax, lo, hi, points, with_limit):
         count = n if burst else min(20_000, math.ceil(hi / spacing) + 1)
-        ends = t0 + spacing * np.arange(count) + width
+        keep = MAX_EDGE_SAMPLES // 3 - 1  # three samples per edge, plus the first pulse
+        index = np.unique(np.r_[0, np.arange(max(0, count - keep), count)])  # first, last
+        ends = t0 + spacing * index + width
         base = np.linspace(lo, hi, points)
         extra = np.concatenate([ends, ends - width, ends - 1e-3 * width])
         time = np.unique(np.concatenate([base, extra[(extra >= lo) & (extra <= hi)]]))
@@ -600,8 +616,9 @@ def plot_divider(plan, ax=None):
     ax.set_yticks([0.0, 1.0], ["low", "high"])
     ax.set_xlabel("voltage at the camera trigger input")
     _eng(ax.xaxis, "V")
-    ax.set_title(f"Trigger divider {pair}: {link.source_family} \N{RIGHTWARDS ARROW} "
-                 f"{link.destination_family}, {link.series} {link.tolerance:.0%}",
+    ax.set_title(f"Trigger divider {pair}: {_plain(link.source_family)} "
+                 f"\N{RIGHTWARDS ARROW} {_plain(link.destination_family)}, {link.series} "
+                 f"{link.tolerance:.0%}",
                  fontsize="medium")
     ax.legend(loc="upper left", fontsize="x-small", ncols=2, framealpha=0.95)
     return fig

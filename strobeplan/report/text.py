@@ -7,6 +7,7 @@ import math
 from dataclasses import fields
 
 from ..plan import json_name, unit_of
+from ..safetext import clean
 from ..units import render
 
 # Units whose values units.render draws with SI prefixes (the others are fixed texts).
@@ -72,10 +73,10 @@ def _number(v) -> str:
 
 def plan_text(plan) -> str:
     """The whole plan as aligned text."""
-    lines = [f"strobeplan: {plan.rig.name}", f"verdict: {plan.verdict.upper()}", ""]
+    lines = [f"strobeplan: {clean(plan.rig.name)}", f"verdict: {plan.verdict.upper()}", ""]
     for name, section in plan.sections():
         lines.append(f"[{name}]")
-        rows = section_rows(section)
+        rows = [tuple(clean(x) for x in row) for row in section_rows(section)]
         width = max((len(r[0]) for r in rows), default=0)
         lines += [f"  {label:<{width}}  {value}" for label, value in rows]
         lines.append("")
@@ -122,9 +123,9 @@ def findings_text(plan) -> str:
         return "findings: none"
     out = [f"findings ({len(plan.findings)}):"]
     for f in plan.findings:
-        out.append(f"  {f.severity.upper():<8} {f.code}: {f.message}")
+        out.append(f"  {f.severity.upper():<8} {f.code}: {clean(f.message)}")
         if f.hint:
-            out.append(f"           fix: {f.hint}")
+            out.append(f"           fix: {clean(f.hint)}")
     return "\n".join(out)
 
 

@@ -193,3 +193,48 @@ def test_burst_trace_peak_matches_exact_burst_peak():
     exact = th.burst_peak(10.0, 10e-6, 1e-4, 8, 5e-3, r, tau)
     assert trace.max() == pytest.approx(exact, rel=1e-4)
     assert time[np.argmax(trace)] == pytest.approx(end_last, abs=2e-6)
+
+
+def _brute_burst(t, power, width, starts, frame, r, tau):
+    """Plain superposition of Foster step responses over enough past frames that the
+    oldest left out weigh less than exp(-60) (Infineon AN2008-03, superposition)."""
+    frames = int(60 * max(tau) / frame) + 2
+    out = np.zeros_like(t)
+    for k in range(frames):
+        for s in starts:
+            age = t - s + k * frame
+            out += (th.step_rise(power, np.clip(age, 0, None), r, tau)
+                    - th.step_rise(power, np.clip(age - width, 0, None), r, tau))
+    return out
+
+
+@pytest.mark.parametrize("n, spacing, first", [(1, 25e-6, 0.0), (7, 25e-6, 1e-3),
+                                               (40, 25e-6, 2e-4), (3, 1e-3, 0.5e-3)])
+def test_periodic_burst_rise_matches_brute_force_superposition(n, spacing, first):
+    # Foster network of a power LED (three terms, made-up but typical magnitudes)
+    r, tau = [2.0, 5.0, 8.0], [1e-4, 2e-3, 8e-3]
+    frame, width, power = 10e-3, 2e-6, 3.0
+    t = np.linspace(0.0, frame, 997)
+    got = th.periodic_burst_rise(t, power, width, first, spacing, n, frame, r, tau)
+    want = _brute_burst(t, power, width, first + spacing * np.arange(n), frame, r, tau)
+    assert np.max(np.abs(got - want)) < 1e-9  # K
+
+
+@settings(max_examples=40, deadline=None, derandomize=True)
+@given(n=st.integers(1, 200), frac=st.floats(0.01, 0.9), gap=st.floats(0.0, 5.0),
+       tau=st.floats(1e-6, 1.0))
+def test_periodic_burst_rise_peak_is_burst_peak(n, frac, gap, tau):
+    # the closed-form trace sampled at the pulse ends reaches the exact burst peak
+    spacing = 25e-6
+    width = frac * spacing
+    frame = (n - 1) * spacing + width + gap * spacing
+    r, taus = [1.0, 3.0], [tau, 10 * tau]
+    ends = spacing * np.arange(n) + width
+    trace = th.periodic_burst_rise(ends - 1e-15, 2.0, width, 0.0, spacing, n, frame, r, taus)
+    peak = th.burst_peak(2.0, width, spacing, n, frame, r, taus)
+    assert float(trace.max()) == pytest.approx(float(peak), rel=1e-7)
+    # mean over the frame: P * duty * Rth (JESD51-14 steady state), sampled finely
+    t = np.linspace(0.0, frame, 20_001)
+    mean = np.trapezoid(th.periodic_burst_rise(t, 2.0, width, 0.0, spacing, n, frame, r,
+                                               taus), t) / frame
+    assert mean == pytest.approx(2.0 * n * width / frame * 4.0, rel=2e-2)

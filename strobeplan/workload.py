@@ -1,0 +1,116 @@
+"""Work estimates for long jobs: how much a command would compute, refused beyond a budget.
+
+A job is a grid of independent candidates (``tune``: pulse widths x series resistors x
+``every`` x supply voltages). :func:`estimate` multiplies the axes and divides by a measured
+rate; :func:`require_within` refuses a job above the budget with one line giving the
+estimate and which options narrow the grid. :func:`tune_estimate` works out the tune grid's
+shape from the command's options alone (no search, no arrays of candidates), so the check
+runs before any work.
+
+Budget (README "Limits"): :data:`MAX_CANDIDATES` = 2e8 candidates, about two to four
+minutes at the measured rate (:data:`CANDIDATES_PER_SECOND`).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+from .errors import StrobeplanError
+
+__all__ = ["Estimate", "WorkloadError", "estimate", "require_within", "tune_estimate",
+           "MAX_CANDIDATES", "CANDIDATES_PER_SECOND"]
+
+MAX_CANDIDATES = 2e8
+"""Largest tune grid accepted (candidates)."""
+
+CANDIDATES_PER_SECOND = 1.0e6
+"""Conservative search rate: 1.7e6 candidates/s measured for an 81-million-candidate grid
+(levitator-40k, E96, 1000 widths, 40 `every`, 13 voltages) on one core of the development
+machine; bench/bench_tune.py measures it."""
+
+
+class WorkloadError(StrobeplanError):
+    """A job above the budget (bad input: exit 2 in the CLI)."""
+
+
+@dataclass(frozen=True)
+class Estimate:
+    """The size of a job: its axes (name -> (points, the option that sets them)), the
+    candidates (their product) and the seconds expected at ``rate``."""
+
+    axes: dict[str, tuple[int, str]]
+    candidates: float
+    seconds: float
+
+
+def estimate(axes: dict[str, tuple[int, str]], rate: float = CANDIDATES_PER_SECOND
+             ) -> Estimate:
+    """Candidates and seconds of a grid job.
+
+    Parameters
+    ----------
+    axes : dict
+        Axis name -> (number of points, the option that sets it).
+    rate : float
+        Candidates evaluated per second. [1/s]
+    """
+    candidates = float(math.prod(max(0, n) for n, _ in axes.values()))
+    return Estimate(dict(axes), candidates, candidates / rate)
+
+
+def _num(x: float) -> str:
+    """``3.07e13`` style for large counts, plain below 100,000."""
+    if abs(x) < 1e5:
+        return f"{x:.3g}" if x != int(x) else f"{int(x)}"
+    mantissa, exponent = f"{x:.2e}".split("e")
+    return f"{mantissa.rstrip('0').rstrip('.')}e{int(exponent)}"
+
+
+def duration_text(seconds: float) -> str:
+    """A rough duration, e.g. ``'about 3 min'`` or ``'about 15 years'``."""
+    for unit, size in (("years", 3.156e7), ("days", 86400.0), ("h", 3600.0), ("min", 60.0)):
+        if seconds >= size:
+            return f"about {_num(round(seconds / size, 1))} {unit}"
+    return f"about {_num(round(max(seconds, 0.0), 1))} s"
+
+
+def require_within(est: Estimate, budget: float = MAX_CANDIDATES, job: str = "tune") -> None:
+    """Raise :class:`WorkloadError` when ``est`` exceeds ``budget`` candidates; the one
+    line gives the estimate and the options of the largest axes to narrow."""
+    if est.candidates <= budget:
+        return
+    biggest = sorted(est.axes.items(), key=lambda kv: -kv[1][0])[:3]
+    narrow = ", ".join(f"{option} ({name}: {n})" for name, (n, option) in biggest)
+    raise WorkloadError(
+        f"{job} would evaluate {_num(est.candidates)} candidates "
+        f"({duration_text(est.seconds)} at {_num(CANDIDATES_PER_SECOND)}/s), above the "
+        f"budget of {_num(budget)}; narrow the grid: {narrow}")
+
+
+def tune_estimate(rig, *, widths: int, series: str, resistor_range: tuple[float, float],
+                  max_every: int, supply_range: tuple[float, float] | None,
+                  supply_steps: int) -> Estimate:
+    """The tune grid's size from the command's options (an upper bound: widths that round
+    to the same timer tick are merged by the search).
+
+    Axes as the search builds them: ``widths`` pulse widths, the ``series`` values in
+    ``resistor_range``, ``every`` from 1 to ``max_every`` (no more than the flash rate
+    allows against the camera's frame rate), and ``supply_steps`` voltages when a
+    ``supply_range`` is given.
+    """
+    from .physics import logic
+
+    n_r = int(logic.series_values(series, *resistor_range).size)
+    top = int(max_every)
+    if rig.camera is not None:
+        top = min(top, max(1, int(math.floor(rig.wave.frequency / rig.camera.frame_rate))))
+    ticks_per_period = max(1, int(rig.controller.clock / rig.wave.frequency))
+    axes = {
+        "pulse widths": (min(int(widths), ticks_per_period), "--widths"),
+        "resistors": (n_r, "--resistor-range/--series"),
+        "every": (max(1, top), "--max-every"),
+        "supply voltages": (int(supply_steps) if supply_range is not None else 1,
+                            "--supply-steps"),
+    }
+    return estimate(axes)
