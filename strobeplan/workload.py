@@ -7,8 +7,8 @@ estimate and which options narrow the grid. :func:`tune_estimate` works out the 
 shape from the command's options alone (no search, no arrays of candidates), so the check
 runs before any work.
 
-Budget (README "Limits"): :data:`MAX_CANDIDATES` = 2e8 candidates, about two to four
-minutes at the measured rate (:data:`CANDIDATES_PER_SECOND`).
+Budget (README "Limits"): :data:`MAX_CANDIDATES` = 2e7 candidates, about four minutes at
+the measured rate (:data:`CANDIDATES_PER_SECOND`).
 """
 
 from __future__ import annotations
@@ -21,13 +21,14 @@ from .errors import StrobeplanError
 __all__ = ["Estimate", "WorkloadError", "estimate", "require_within", "tune_estimate",
            "MAX_CANDIDATES", "CANDIDATES_PER_SECOND"]
 
-MAX_CANDIDATES = 2e8
+MAX_CANDIDATES = 2e7
 """Largest tune grid accepted (candidates)."""
 
-CANDIDATES_PER_SECOND = 1.0e6
-"""Conservative search rate: 1.7e6 candidates/s measured for an 81-million-candidate grid
-(levitator-40k, E96, 1000 widths, 40 `every`, 13 voltages) on one core of the development
-machine; bench/bench_tune.py measures it."""
+CANDIDATES_PER_SECOND = 8.0e4
+"""Search rate of the one engine (every stage and rule on array designs, the stuck-on
+transient included): 8.7e4 candidates/s measured on 1.4e5 levitator-40k candidates (E96,
+8 `every`, 2 voltages) on one core of the development machine; bench/bench_tune.py
+measures it."""
 
 
 class WorkloadError(StrobeplanError):
@@ -99,9 +100,9 @@ def tune_estimate(rig, *, widths: int, series: str, resistor_range: tuple[float,
     allows against the camera's frame rate), and ``supply_steps`` voltages when a
     ``supply_range`` is given.
     """
-    from .physics import logic
+    from .physics import eseries
 
-    n_r = int(logic.series_values(series, *resistor_range).size)
+    n_r = int(eseries.series_values(series, *resistor_range).size)
     top = int(max_every)
     if rig.camera is not None:
         top = min(top, max(1, int(math.floor(rig.wave.frequency / rig.camera.frame_rate))))

@@ -356,6 +356,11 @@ def stuck_on_state(supply_voltage, current_limit, series_resistor, on_resistance
                    np.asarray(limit < i_string))
 
 
+def _padded(shape: tuple, ndim: int) -> tuple:
+    """``shape`` left-padded with ones to ``ndim`` dimensions (numpy broadcasting)."""
+    return (1,) * (ndim - len(shape)) + tuple(shape)
+
+
 class StuckOnTransient(NamedTuple):
     """Gate stuck on from a charged capacitor (:func:`stuck_on_transient`).
 
@@ -546,29 +551,43 @@ def stuck_on_transient(supply_voltage, capacitance, esr, series_resistor, on_res
                                    kk[..., None], axis=-1)[..., 0]
         peak, peak_t = np.where(higher, top, peak), np.where(higher, t_top, peak_t)
     # First crossing inside its interval: bisection on the exact in-interval response from
-    # the state at the interval's start.
-    k = np.maximum(b_k, 0)
-    b_p = np.take_along_axis(np.broadcast_to(heat, shape + heat.shape[-1:]), k[..., None],
-                             axis=-1)[..., 0]
-    b_dt = np.take_along_axis(np.broadcast_to(dt, shape + dt.shape[-1:]), k[..., None],
-                              axis=-1)[..., 0]
-    b_t = np.take_along_axis(np.broadcast_to(grid, shape + grid.shape[-1:]), k[..., None],
-                             axis=-1)[..., 0] - b_dt
-    prev = np.maximum(k - 1, 0)[..., None, None]
-    zero_b = np.broadcast_to(zero, shape + zero.shape[-2:])
-    free_b = np.broadcast_to(free, shape + free.shape[-2:])
-    start_state = np.where((k > 0)[..., None],
-                           np.take_along_axis(zero_b, prev, axis=-2)[..., 0, :]
-                           + rise0[..., None] * np.broadcast_to(share, shape + share.shape[-1:])
-                           * np.take_along_axis(free_b, prev, axis=-2)[..., 0, :],
-                           rise0[..., None] * np.broadcast_to(share, shape + share.shape[-1:]))
-    r_b = np.broadcast_to(r, shape + r.shape[-1:])
-    tau_b = np.broadcast_to(tau, shape + tau.shape[-1:])
-    lo, hi = np.zeros(shape), b_dt.copy()
-    for _ in range(60):
-        mid = 0.5 * (lo + hi)
-        above = np.sum(foster_advance(start_state, b_p, mid, r_b, tau_b), axis=-1) >= allowed
-        hi, lo = np.where(above, mid, hi), np.where(above, lo, mid)
+    # the state at the interval's start (only for the candidates that cross during it).
+    hi = np.zeros(shape)
+    b_t = np.zeros(shape)
+    todo = np.flatnonzero(crossed & ~(rise0 >= allowed))
+    if todo.size:
+        k = b_k.ravel()[todo]
+        if shape:
+            cidx = np.unravel_index(todo, shape)
+            pad = _padded(cshape, len(shape))
+            cpos = tuple(ix if size > 1 else np.zeros_like(ix)
+                         for ix, size in zip(cidx, pad, strict=True))
+            flat_c = np.ravel_multi_index(cpos, pad)
+        else:
+            flat_c = np.zeros(todo.size, dtype=np.intp)
+        heat2 = heat.reshape(-1, heat.shape[-1])[flat_c]
+        dt2 = dt.reshape(-1, dt.shape[-1])[flat_c]
+        grid2 = grid.reshape(-1, grid.shape[-1])[flat_c]
+        zero2 = zero.reshape(-1, *zero.shape[-2:])[flat_c]
+        free2 = free.reshape(-1, *free.shape[-2:])[flat_c]
+        share2 = share.reshape(-1, share.shape[-1])[flat_c]
+        r2 = r.reshape(-1, r.shape[-1])[flat_c]
+        tau2 = tau.reshape(-1, tau.shape[-1])[flat_c]
+        rows = np.arange(todo.size)
+        r0 = rise0.ravel()[todo]
+        lim = allowed.ravel()[todo]
+        b_p, b_dt = heat2[rows, k], dt2[rows, k]
+        prev = np.maximum(k - 1, 0)
+        start_state = np.where((k > 0)[:, None],
+                               zero2[rows, prev] + r0[:, None] * share2 * free2[rows, prev],
+                               r0[:, None] * share2)
+        lo, up = np.zeros(todo.size), b_dt.copy()
+        for _ in range(60):
+            mid = 0.5 * (lo + up)
+            above = np.sum(foster_advance(start_state, b_p, mid, r2, tau2), axis=-1) >= lim
+            up, lo = np.where(above, mid, up), np.where(above, lo, mid)
+        np.put(hi, todo, up)
+        np.put(b_t, todo, grid2[rows, k] - b_dt)
     t_cross = np.where(rise0 >= allowed, 0.0, np.where(crossed, b_t + hi, np.inf))
     t_amb = np.broadcast_to(t_amb, shape)
     i0, i_ss, rser, pulse_energy = (np.broadcast_to(x, shape) for x in (i0, i_ss, rser,
