@@ -7,14 +7,15 @@ A section is a dataclass whose field names carry their SI unit as a suffix (``_s
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field, fields, is_dataclass
+from dataclasses import dataclass, fields, is_dataclass
+from dataclasses import field as _field
 from typing import Any
 
 SEVERITIES = ("hazard", "fault", "warning", "note")
 SEVERITY_RANK = {s: i for i, s in enumerate(SEVERITIES)}
 
 # Order of the sections in outputs; every stage stores its section under one of these.
-SECTION_ORDER = ("timing", "drive", "air", "flash", "exposure", "optics", "led", "switch",
+SECTION_ORDER = ("timing", "drive", "field", "air", "flash", "exposure", "optics", "led", "switch",
                  "supply", "stuck_on", "trigger_link", "gate_link")
 
 
@@ -92,6 +93,7 @@ class Plan:
     rig: Any
     timing: Any = None
     drive: Any = None
+    field: Any = None
     air: Any = None
     flash: Any = None
     exposure: Any = None
@@ -102,8 +104,8 @@ class Plan:
     stuck_on: Any = None
     trigger_link: Any = None
     gate_link: Any = None
-    findings: list[Finding] = field(default_factory=list)
-    lock: Any = field(default=None, repr=False)  # timing.Lock: integers for the schedule
+    findings: list[Finding] = _field(default_factory=list)
+    lock: Any = _field(default=None, repr=False)  # timing.Lock: integers for the schedule
 
     @property
     def verdict(self) -> str:

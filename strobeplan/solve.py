@@ -6,9 +6,11 @@ import numpy as np
 
 from . import timing
 from .checks import run_checks
+from .design import Design
 from .plan import Plan
 from .stages import air as air_stage
 from .stages import exposure as exposure_stage
+from .stages import field as field_stage
 from .stages import flash as flash_stage
 from .stages import link as link_stage
 from .stages import optics as optics_stage
@@ -31,6 +33,7 @@ def solve(rig) -> Plan:
 def _solve(rig) -> Plan:
     plan = Plan(rig=rig)
     air_stage.build(rig, plan)
+    plan.field = field_stage.compute(rig, Design.of(rig), plan)
     flash_stage.build(rig, plan)
     link_stage.build(rig, plan)  # before timing: the trigger edge delays the exposure
     plan.lock = timing.build(rig, plan)
