@@ -39,11 +39,20 @@ TWO_PI = 2.0 * math.pi
 # --- pure helpers -------------------------------------------------------------------------
 
 
+CARRIER_TOLERANCE = 0.10  # the carrier may sit this fraction off the requested one [1]
+
+
 def choose_drive(clock: float, frequency: float, carrier: float | None = None,
-                 samples_per_cycle: int | None = None) -> tuple[int, int]:
+                 samples_per_cycle: int | None = None,
+                 carrier_tolerance: float = CARRIER_TOLERANCE) -> tuple[int, int]:
     """Integers (M, N_c) whose drive frequency clock/(M N_c) is closest to ``frequency``.
 
-    Ties in frequency go to the carrier closest to the requested one.
+    M (carrier periods per drive cycle) and N_c (ticks per carrier period) are searched
+    jointly: every M whose carrier M f can lie within ``carrier_tolerance`` of the requested
+    carrier, each with the N_c nearest clock/(M f), keeping the carrier clock/N_c inside the
+    tolerance. Ties in frequency go to the carrier closest to the requested one, then to the
+    smaller M. When no pair keeps the carrier inside the tolerance (a slow clock), the
+    nearest M is used, as with a fixed ``samples_per_cycle``.
 
     Parameters
     ----------
@@ -55,30 +64,39 @@ def choose_drive(clock: float, frequency: float, carrier: float | None = None,
         Requested PWM carrier. [Hz]
     samples_per_cycle : int, optional
         Carrier periods per drive cycle, fixing M.
+    carrier_tolerance : float, optional
+        Largest relative distance of the realised carrier from ``carrier``. [1]
 
     Returns
     -------
     (int, int)
         M carrier periods per drive cycle, N_c ticks per carrier period.
     """
+    def best_of(ms, bound):
+        best = None
+        for m in ms:
+            n0 = clock / (m * frequency)
+            for nc in {max(1, math.floor(n0)), max(1, math.ceil(n0))}:
+                c_err = abs(clock / nc - carrier) / carrier if carrier else 0.0
+                if c_err > bound:
+                    continue
+                key = (abs(clock / (m * nc) - frequency) / frequency, c_err, m)
+                if best is None or key < best[0]:
+                    best = (key, m, nc)
+        return best
+
     if samples_per_cycle:
-        ms = [int(samples_per_cycle)]
+        found = best_of([int(samples_per_cycle)], math.inf)
     elif carrier:
         m0 = carrier / frequency
-        ms = sorted({max(1, math.floor(m0)), max(1, math.ceil(m0))})
+        lo = max(1, math.floor(m0 * (1.0 - carrier_tolerance)))
+        hi = max(1, math.ceil(m0 * (1.0 + carrier_tolerance)))
+        found = best_of(range(lo, hi + 1), carrier_tolerance * (1.0 + 1e-12)) or best_of(
+            sorted({max(1, math.floor(m0)), max(1, math.ceil(m0))}), math.inf)
     else:
-        ms = [1]
-    best = None
-    for m in ms:
-        n0 = clock / (m * frequency)
-        for nc in {max(1, math.floor(n0)), max(1, math.ceil(n0))}:
-            realised = clock / (m * nc)
-            c_err = abs(clock / nc - carrier) / carrier if carrier else 0.0
-            key = (abs(realised - frequency) / frequency, c_err, m)
-            if best is None or key < best[0]:
-                best = (key, m, nc)
-    assert best is not None
-    return best[1], best[2]
+        found = best_of([1], math.inf)
+    assert found is not None
+    return found[1], found[2]
 
 
 def wrap_phase(phase: float) -> float:
@@ -223,6 +241,7 @@ class DriveSection(Section):
     pwm_resolution_bits: float | None
     filter_delay_s: float
     amplifier_delay_s: float
+    sample_hold_delay_s: float
     transducer_delay_s: float
     transducer_phase_deg: float
     detuning_db: float | None
@@ -314,6 +333,8 @@ def _chain(rig, frequency: float, speed: float) -> tuple[DriveSection, float]:
     m, nc = choose_drive(rig.controller.clock, rig.wave.frequency,
                          synth.carrier if synth else None,
                          synth.samples_per_cycle if synth else None)
+    d_sh = float(drive_model.sample_hold_delay(rig.controller.clock / nc)) if synth else 0.0
+    chain += d_sh
     carrier_att = None
     if synth is not None:
         fc = rig.controller.clock / nc
@@ -336,6 +357,7 @@ def _chain(rig, frequency: float, speed: float) -> tuple[DriveSection, float]:
         pwm_resolution_bits=math.log2(nc) if synth else None,
         filter_delay_s=d_f,
         amplifier_delay_s=d_a,
+        sample_hold_delay_s=d_sh,
         transducer_delay_s=d_t,
         transducer_phase_deg=math.degrees(phi_t),
         detuning_db=detune,

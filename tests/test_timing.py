@@ -167,7 +167,9 @@ def test_sweep_edges_in_range(clock, freq, steps, phase):
 
 
 def test_chain_delay_composition():
-    # Chain = filter + amplifier + transducer phase delays + distance/c + calibration.
+    # Chain = filter + amplifier + transducer phase delays + the PWM table's hold delay
+    # (half a carrier period, 0.625 us at 800 kHz; tests/test_drive_synthesis.py checks it
+    # against an FFT) + distance/c + calibration.
     raw = {
         "wave": {"frequency": "40 kHz"},
         "controller": {"clock": "100 MHz"},
@@ -179,7 +181,8 @@ def test_chain_delay_composition():
     plan = solve(rig_from_dict(raw))
     c = plan.air.speed_of_sound_m_s
     # RC at fc: 3.125 us (references.md); transducer at resonance: 0.
-    assert plan.timing.chain_delay_s == pytest.approx(3.125e-6 + 0.1 / c + 1e-6, rel=1e-9)
+    assert plan.timing.chain_delay_s == pytest.approx(3.125e-6 + 0.625e-6 + 0.1 / c + 1e-6,
+                                                      rel=1e-9)
 
 
 def test_phase_edge_worked_example():
