@@ -182,6 +182,42 @@ def dirichlet_smear(n: int, step: float) -> float:
     return abs(math.sin(n * half) / (n * math.sin(half)))
 
 
+def phasor_mean(first_phase: float, step: float, n: int) -> tuple[float, float]:
+    """Phase and magnitude of the mean of n unit phasors e^{j (first + k step)}, k < n.
+
+    An exposure that holds n flashes at wave phases first, first + step, ... shows the
+    wave at the argument of their mean phasor and with its magnitude as the contrast kept
+    (the smear). Closed form: e^{j (first + (n - 1) step / 2)} sin(n step/2) / (n sin(step/2)).
+
+    Parameters
+    ----------
+    first_phase : float
+        Phase seen by the first flash. [rad]
+    step : float
+        Phase advance from one flash to the next. [rad]
+    n : int
+        Flashes in the exposure (0 or 1: the first flash alone).
+
+    Returns
+    -------
+    (float, float)
+        Phase wrapped to [0, 2 pi) [rad]; magnitude 0..1 [1].
+
+    References
+    ----------
+    1. Oppenheim & Schafer (2010), sec. 2.7 (the Dirichlet kernel, a geometric sum).
+    """
+    if n <= 1:
+        return wrap_phase(first_phase), 1.0
+    half = 0.5 * wrap_error(step)  # a whole turn per flash is no step at all
+    s = math.sin(half)
+    ratio = 1.0 if abs(s) < 1e-15 else math.sin(n * half) / (n * s)
+    centre = first_phase + (n - 1) * half
+    if ratio < 0:
+        centre += math.pi
+    return wrap_phase(centre), abs(ratio)
+
+
 def slow_motion_step(apparent: float, clock: float, period_ticks: int, every: int) -> int:
     """Extra ticks s per flash period (every*N_d + s) for an apparent frequency.
 
