@@ -218,6 +218,17 @@ def phasor_mean(first_phase: float, step: float, n: int) -> tuple[float, float]:
     return wrap_phase(centre), abs(ratio)
 
 
+def flash_step(frequency: float, clock: float, period_ticks: int, flash_ticks: int,
+               slow_step: int | None, clock_tolerance: float = 0.0) -> float:
+    """Phase advance of the wave seen from one flash to the next. [rad]
+
+    Slow motion adds 2 pi s / N_d per flash; separate clocks slip by the tolerance times
+    the flash period (worst case, one sign). Both add, so one phasor sum holds both.
+    """
+    step = TWO_PI * (slow_step or 0) / period_ticks
+    return step + TWO_PI * clock_tolerance * frequency * flash_ticks / clock
+
+
 def slow_motion_step(apparent: float, clock: float, period_ticks: int, every: int) -> int:
     """Extra ticks s per flash period (every*N_d + s) for an apparent frequency.
 
@@ -282,6 +293,8 @@ class DriveSection(Section):
     transducer_phase_deg: float
     detuning_db: float | None
     travel_time_s: float
+    field_delay_s: float | None
+    field_phase_deg: float | None
     calibration_offset_s: float
     carrier_attenuation_db: float | None
 
@@ -304,6 +317,7 @@ class TimingSection(Section):
     phase_requested_deg: float
     phase_achieved_deg: float
     phase_error_deg: float
+    image_phase_deg: float
     phase_resolution_deg: float
     mode: str
     frame_period_ticks: int | None
@@ -341,9 +355,13 @@ class Lock:
     lead: float | None
     window: float | None
     slow_step: int | None
+    step: float = 0.0  # wave phase advance from one flash to the next [rad]
 
 
-def _chain(rig, frequency: float, speed: float) -> tuple[DriveSection, float]:
+def _chain(rig, frequency: float, speed: float, field=None) -> tuple[DriveSection, float]:
+    """The drive section and the chain delay: filter + amplifier + sample-and-hold +
+    transducer + the field's delay from the first emitter's surface velocity to the
+    pressure at the view (the travel time d/c when there is no field) + calibration. [s]"""
     em = rig.emitter
     synth = em.synthesis if em else None
     filt = synth.filter if synth else None
@@ -365,7 +383,9 @@ def _chain(rig, frequency: float, speed: float) -> tuple[DriveSection, float]:
     d_f = float(drive_model.phase_delay(phi_f, frequency))
     d_a = float(drive_model.phase_delay(phi_a, frequency))
     d_t = float(drive_model.phase_delay(phi_t, frequency))
-    chain = d_f + d_a + d_t + travel + rig.strobe.calibration_offset
+    has_field = field is not None and math.isfinite(field.delay_s)
+    acoustic = field.delay_s if has_field else travel
+    chain = d_f + d_a + d_t + acoustic + rig.strobe.calibration_offset
     m, nc = choose_drive(rig.controller.clock, rig.wave.frequency,
                          synth.carrier if synth else None,
                          synth.samples_per_cycle if synth else None)
@@ -398,6 +418,8 @@ def _chain(rig, frequency: float, speed: float) -> tuple[DriveSection, float]:
         transducer_phase_deg=math.degrees(phi_t),
         detuning_db=detune,
         travel_time_s=travel,
+        field_delay_s=field.delay_s if has_field else None,
+        field_phase_deg=field.phase_deg if has_field else None,
         calibration_offset_s=rig.strobe.calibration_offset,
         carrier_attenuation_db=carrier_att,
     )
@@ -418,8 +440,8 @@ def build(rig, plan) -> Lock:
     nd = m * nc
     f = clock / nd
     speed = plan.air.speed_of_sound_m_s
-    drive, chain = _chain(rig, f, speed)
-    flash_delay = plan.flash.delay_s + plan.flash.centroid_s
+    drive, chain = _chain(rig, f, speed, getattr(plan, "field", None))
+    flash_delay = plan.flash.fundamental_delay_s  # what the image shows, not the centroid
     light_length = plan.flash.light_length_s
     every = strobe.every
     flash_ticks = every * nd
@@ -448,7 +470,7 @@ def build(rig, plan) -> Lock:
     n_frame = first = None
     frame_rate = None
     width = strobe.pulse_width
-    light_delay = flash_delay - plan.flash.centroid_s
+    light_delay = plan.flash.delay_s
     if cam is not None:
         if mode == "slow_motion":
             frame_ticks = max(1, round(clock / cam.frame_rate))
@@ -474,18 +496,22 @@ def build(rig, plan) -> Lock:
 
     # Separate clocks: the strobe timer slips against the drive by tol per unit time.
     drift_rate = drift_exp = None
-    smear = 1.0
     if not rig.controller.shared_clock:
-        tol = rig.controller.clock_tolerance
-        drift_rate = 360.0 * f * tol
+        drift_rate = 360.0 * f * rig.controller.clock_tolerance
         if cam is not None:
             drift_exp = drift_rate * cam.exposure
-            smear *= dirichlet_smear(n_frame or 0, TWO_PI * tol * f * flash_ticks / clock)
-    if mode == "slow_motion" and cam is not None:
-        smear *= dirichlet_smear(n_frame or 0, TWO_PI * slow_step / nd)
+    step = flash_step(f, clock, nd, flash_ticks, slow_step, rig.controller.clock_tolerance
+                      if not rig.controller.shared_clock else 0.0)
+    if cam is not None:
+        image_phase, smear = phasor_mean(achieved, step, n_frame or 0)
+    else:
+        image_phase, smear = achieved, 1.0
 
-    # Sensitivity of the frozen phase to air temperature: d(phase)/dT = w d/c^2 dc/dT.
-    if rig.emitter is not None and rig.wave.speed is None:
+    field = getattr(plan, "field", None)
+    if field is not None:
+        per_k = field.phase_per_kelvin_deg
+    elif rig.emitter is not None and rig.wave.speed is None:
+        # d(phase)/dT = w d/c^2 dc/dT (travel time only, without a field model).
         a = rig.air
         dc_dt = (air_model.speed_of_sound(a.temperature + 0.5, a.relative_humidity, a.pressure,
                                           a.co2)
@@ -511,6 +537,7 @@ def build(rig, plan) -> Lock:
         phase_requested_deg=math.degrees(wrap_phase(strobe.phase)),
         phase_achieved_deg=math.degrees(achieved),
         phase_error_deg=math.degrees(err),
+        image_phase_deg=math.degrees(image_phase),
         phase_resolution_deg=360.0 * f / clock,
         mode=mode,
         frame_period_ticks=frame_ticks,
@@ -533,7 +560,7 @@ def build(rig, plan) -> Lock:
     return Lock(clock=clock, frequency=f, period_ticks=nd, flash_ticks=flash_ticks,
                 every=every, chain_delay=chain, flash_delay=flash_delay,
                 light_delay=light_delay, light_length=light_length, frame_ticks=frame_ticks,
-                lead=lead, window=window, slow_step=slow_step)
+                lead=lead, window=window, slow_step=slow_step, step=step)
 
 
 # --- schedule -----------------------------------------------------------------------------
@@ -550,6 +577,7 @@ class ScheduleRow:
     camera_trigger_ticks: int
     first_flash_ticks: int | None
     flashes: int | None
+    smear: float = 1.0
 
 
 @dataclass(frozen=True)
@@ -563,7 +591,7 @@ class Schedule:
 
     COLUMNS = ("frame", "target_phase_deg", "achieved_phase_deg", "phase_error_deg",
                "edge_ticks", "edge_time_s", "camera_trigger_ticks", "first_flash_ticks",
-               "flashes")
+               "flashes", "smear")
 
 
 MAX_ROWS = 100_000
@@ -603,11 +631,14 @@ def schedule(rig, plan, lock: Lock, steps: int | None = None) -> Schedule:
             phase_of_edge(edge_in_frame % nd, lock.frequency, clock, lock.chain_delay,
                           lock.flash_delay)
         edge = (edge_abs % nd) if t.mode == "slow_motion" else edge_in_frame % nd
-        if callable(target):
-            target = target(edge_abs)
+        # The image shows the phasor mean over the flashes of its exposure.
+        seen = n if n is not None else 1
+        achieved, smear = phasor_mean(achieved, lock.step, seen)
+        if callable(target):  # slow motion: the apparent wave at the exposure's middle
+            target = target(edge_abs + 0.5 * max(seen - 1, 0) * spacing)
         return ScheduleRow(k, math.degrees(target), math.degrees(achieved),
                            math.degrees(wrap_error(achieved - target)), edge, edge / clock,
-                           start + trig, edge_abs if (n is None or n) else None, n)
+                           start + trig, edge_abs if (n is None or n) else None, n, smear)
 
     if t.mode == "slow_motion":
         n_rows = steps or min(MAX_ROWS, max(1, math.ceil(

@@ -52,6 +52,7 @@ from typing import NamedTuple
 import numpy as np
 
 NEPER_PER_DB = np.log(10.0) / 20.0  # [Np/dB]
+_MAX_BLOCK = 1 << 19  # largest block of (point, rim node) pairs: ~20 MB of work arrays
 
 
 class Piston(NamedTuple):
@@ -204,8 +205,9 @@ def piston_pressure(points, centre, axis, radius, kappa, impedance=1.0, velocity
     nodes : int, optional
         Trapezoid intervals over half the rim (default `rim_nodes`).
     chunk : int, optional
-        Points per block; memory is about chunk * (nodes + 1) * 40 bytes (float32 work
-        arrays; the result keeps about 1e-6 relative precision).
+        Points per block (fewer when the rim needs many nodes: at most 2^19 point-node
+        pairs, ~20 MB, per block); float32 work arrays, the result keeps about 1e-6
+        relative precision.
 
     Returns
     -------
@@ -234,6 +236,7 @@ def piston_pressure(points, centre, axis, radius, kappa, impedance=1.0, velocity
     k = np.float32(kap.real)
     alpha = np.float32(-kap.imag)  # [Np/m]
     out = np.empty(pts.shape[0], dtype=complex)
+    chunk = max(1, min(int(chunk), _MAX_BLOCK // (n_half + 1)))
     for start in range(0, pts.shape[0], chunk):
         d = pts[start:start + chunk] - c
         z = d @ n

@@ -74,6 +74,8 @@ def _pistons(rig, frequency, kappa, impedance, wavelength):
                 e.reference_voltage
         else:
             u, known = 1.0, False
+        if not (math.isfinite(u) and u > 0):  # a rating the model cannot meet (absurd rig)
+            u, known = 1.0, False
         u *= e.amplitude * abs(h) * np.exp(1j * (e.phase + math.atan2(h.imag, h.real)
                                                  - math.atan2(h_ref.imag, h_ref.real)))
         out.append(field_model.Piston(np.asarray(e.position, float),

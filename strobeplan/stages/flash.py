@@ -32,6 +32,10 @@ class FlashSection(Section):
     edges_source: str
     centroid_s: float
     light_length_s: float
+    turn_off_delay_s: float
+    current_width_s: float
+    led_rise_s: float
+    fundamental_delay_s: float
 
 
 def edges(rig) -> tuple[float, float, float, str]:
@@ -77,9 +81,57 @@ def centroid(rig, width: float, rise: float, fall: float) -> tuple[float, float]
     return c, width + peak * fall + (3 * tau if w > 0 else 0.0)
 
 
+def gate_delays(rig) -> tuple[float, float]:
+    """(turn-on, turn-off) delays of the switch's current behind the gate edges. [s]
+
+    Zero without a switch and a driver, or when the gate-charge model has no finite answer.
+    """
+    from .power import gate_edges
+
+    d_on, d_off = gate_edges(rig)[:2]
+    if not (math.isfinite(d_on) and math.isfinite(d_off)):
+        return 0.0, 0.0
+    return d_on, d_off
+
+
+def led_rise(rig) -> float:
+    """The LED's own optical rise time, applied on top of the current's edges. [s]
+
+    With a switch and a driver the current edges come from the gate-charge model and the
+    LED's ``rise_time`` adds to them (a pole); without them ``rise_time`` already serves
+    as the current's edges (:func:`edges`) and is not counted twice.
+    """
+    led = rig.led
+    if led is None or led.rise_time is None:
+        return 0.0
+    if rig.switch is not None and rig.gate_driver is not None:
+        return led.rise_time
+    return 0.0
+
+
 def build(rig, plan) -> None:
+    """The light pulse after the timer edge: the current flows from the driver's
+    propagation plus the gate's turn-on delay until the gate closes plus its turn-off
+    delay, with its switching edges; the LED adds its rise and phosphor tail. The flash is
+    timed by the pulse's Fourier component at the wave frequency (``fundamental_delay_s``,
+    from the timer edge), which is what the image shows."""
+    from ..physics import exposure as exposure_model
+
     width = rig.strobe.pulse_width
     delay, rise, fall, source = edges(rig)
-    c, length = centroid(rig, width, rise, fall)
+    d_on, d_off = gate_delays(rig)
+    current = max(width + d_off - d_on, 0.0)
+    t_led = led_rise(rig)
+    c, length = centroid(rig, current, rise, fall)
+    c += t_led / exposure_model.LN9
+    length += 3.0 * t_led / exposure_model.LN9
+    w = rig.led.phosphor_fraction if rig.led else 0.0
+    tau = (rig.led.phosphor_decay or 0.0) if rig.led else 0.0
+    fundamental = float(exposure_model.fundamental_delay(
+        rig.wave.frequency, current, rise, fall, w if tau > 0 else 0.0, tau, t_led, delay))
+    if not math.isfinite(fundamental):  # no current at all: time it by its start
+        fundamental = delay
     plan.flash = FlashSection(width_s=width, delay_s=delay, rise_s=rise, fall_s=fall,
-                              edges_source=source, centroid_s=c, light_length_s=length)
+                              edges_source=source, centroid_s=c, light_length_s=length,
+                              turn_off_delay_s=d_off, current_width_s=current,
+                              led_rise_s=t_led, fundamental_delay_s=fundamental)
