@@ -315,6 +315,9 @@ class Camera(_Model):
     shutter: Literal["global", "rolling"] = "global"
     readout: Q("time", ge=0) | None = None
     trigger_latency: Q("time", ge=0) = 0.0
+    trigger_jitter: Q("time", ge=0, description="RMS jitter of the exposure start after "
+                      "the trigger; the window opens 3 sigma plus a tick before the first "
+                      "flash.") = 0.0
     trigger_input: TriggerInput | None = None
     object_pixel: Q("length", gt=0) | None = None
     bit_depth: Count(ge=1, le=24) = 8

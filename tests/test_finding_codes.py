@@ -17,6 +17,12 @@ from tests.test_power_stage import CASES as POWER_CASES
 
 # code -> (base example, {dotted.path: new value or None to delete})
 CASES: dict[str, tuple[str, dict]] = {
+    "field.standing_without_reflector": ("levitator-40k", {"reflector": None}),
+    "field.view_near_node": ("levitator-40k", {"emitter.distance_to_view": "62.15 mm"}),
+    "field.temperature_moves_phase": ("rangefinder-58k", {
+        "air.temperature_range": ["10 degC", "30 degC"]}),
+    "timing.trigger_jitter_flicker": ("levitator-40k", {"camera.trigger_jitter": "1 us",
+                                                      "camera.exposure": "1.003 ms"}),
     "timing.no_flash_in_exposure": ("levitator-40k", {"camera.exposure": "500 ns"}),
     "timing.rolling_window_too_short": ("rangefinder-58k", {"camera.readout": "2 ms"}),
     "timing.phase_step_below_resolution": ("rangefinder-58k", {"sweep.steps": 1000}),
