@@ -86,9 +86,12 @@ MEANINGS = {
     "controller.clock_tolerance": "Relative tolerance between the two clocks when not shared.",
     "strobe": "The flash.",
     "strobe.pulse_width": "Gate-on time of one flash.",
-    "strobe.phase": "Wave phase at the view at which the light's centroid should fall: 0 "
-                    "deg = the wave's rising zero crossing (the drive period starts at the "
-                    "drive's rising zero crossing or rising edge), 90 deg = the crest.",
+    "strobe.phase": "Phase of the acoustic pressure at the view point that the image should "
+                    "show (the light pulse's Fourier component at the wave frequency, not "
+                    "its centroid): 0 deg = the pressure's rising zero crossing, 90 deg = "
+                    "its crest; the reference is the first emitter's surface velocity, tied "
+                    "to the drive (whose period starts at its rising zero crossing or "
+                    "rising edge).",
     "strobe.every": "Flash on every N-th drive cycle.",
     "strobe.calibration_offset": "Measured extra delay of the wave (added to the chain).",
     "strobe.min_retention": "Contrast retention target at the wave frequency.",

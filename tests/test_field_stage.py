@@ -46,6 +46,7 @@ def test_rating_comes_back_at_the_reference_distance():
     plan = _plan({"emitter.spl_at_view": None, "emitter.resonance": "40 kHz",
                   "emitter.distance_to_view": "300 mm", "emitter.drive_voltage": "10 V"})
     assert plan.field.spl_at_view_db == pytest.approx(120.0, abs=0.05)
+    assert plan.optics.spl_estimate_db == pytest.approx(plan.field.spl_at_view_db)
     louder = _plan({"emitter.spl_at_view": None, "emitter.resonance": "40 kHz",
                     "emitter.distance_to_view": "300 mm", "emitter.drive_voltage": "20 V"})
     assert louder.field.spl_at_view_db - plan.field.spl_at_view_db == pytest.approx(
