@@ -154,9 +154,10 @@ def rim_nodes(radius, kappa, nodes=None):
 
     The integrand around the rim varies like e^{-j k a sin(t) cos(psi)}; the trapezoid rule
     over a period converges once the number of points exceeds its bandwidth (k a) by a
-    margin. The default, ceil(1.2 k a) + 10 intervals over [0, pi] (twice that around the
-    full rim), keeps the relative error near 1e-5 away from the edge of the geometric beam
-    (|x - a| > a/10) and under 0.2 % right at it, where the rim weight has a kink.
+    margin. The default, ceil(k a) + 6 intervals over [0, pi] (twice that around the full
+    rim), keeps the relative error near 1e-5 away from the edge of the geometric beam
+    (|x - a| > a/10) and under 0.3 % right at it, where the rim weight has a kink
+    (tests/physics/test_field.py compares it with a direct sum of the Rayleigh integral).
 
     Parameters
     ----------
@@ -179,7 +180,7 @@ def rim_nodes(radius, kappa, nodes=None):
     """
     if nodes is not None:
         return int(nodes)
-    return int(np.ceil(1.2 * abs(np.real(kappa)) * radius)) + 10
+    return int(np.ceil(abs(np.real(kappa)) * radius)) + 6
 
 
 def piston_pressure(points, centre, axis, radius, kappa, impedance=1.0, velocity=1.0,

@@ -69,7 +69,7 @@ def _rayleigh_brute(point, radius, k, n=500):
 ])
 def test_off_axis_matches_direct_rayleigh_sum(point):
     # The rim form against a direct quadrature of the Rayleigh integral (Kinsler et al.,
-    # sec. 7.4), in units of the radius; within 0.5 % (the rim form is worst, ~0.2 %, at the
+    # sec. 7.4), in units of the radius; within 0.5 % (the rim form is worst, ~0.25 %, at the
     # edge of the geometric beam).
     a, k = 5e-3, 2 * np.pi * 40e3 / C
     pt = np.array(point) * a
