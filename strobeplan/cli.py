@@ -39,7 +39,7 @@ EXIT_INPUT = 2
 EXIT_INTERNAL = 3
 EXIT_INTERRUPT = 130
 
-EXAMPLES = ("levitator-40k", "rangefinder-58k", "unsafe-bench")
+EXAMPLES = ("levitator-40k", "rangefinder-58k", "unsafe-bench", "opposed-pair-40k")
 
 
 class InputError(click.ClickException):

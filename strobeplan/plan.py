@@ -11,7 +11,8 @@ Celsius (``q("temperature", json="junction_peak_c")``).
 from __future__ import annotations
 
 import math
-from dataclasses import MISSING, dataclass, field, fields, is_dataclass
+from dataclasses import MISSING, dataclass, fields, is_dataclass
+from dataclasses import field as _field
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
@@ -21,6 +22,7 @@ if TYPE_CHECKING:
     from .stages.air import AirSection
     from .stages.banding import BandingSection
     from .stages.exposure import ExposureSection
+    from .stages.field import FieldSection
     from .stages.flash import FlashSection
     from .stages.image import EyeSection, ImageSection
     from .stages.link import GateLinkSection, TriggerLinkSection
@@ -52,7 +54,7 @@ def q(unit: str | None = None, *, json: str | None = None, default: Any = MISSIN
         kw["default"] = default
     if default_factory is not MISSING:
         kw["default_factory"] = default_factory
-    return field(metadata=meta, **kw)
+    return _field(metadata=meta, **kw)
 
 
 def scalar(x):
@@ -94,9 +96,9 @@ SEVERITIES = ("hazard", "fault", "warning", "note")
 SEVERITY_RANK = {s: i for i, s in enumerate(SEVERITIES)}
 
 # Order of the sections in outputs; every stage stores its section under one of these.
-SECTION_ORDER = ("timing", "drive", "timer", "air", "flash", "exposure", "banding", "optics",
-                 "image", "eye", "led", "switch", "supply", "stuck_on", "trigger_link",
-                 "gate_link")
+SECTION_ORDER = ("timing", "drive", "field", "timer", "air", "flash", "exposure", "banding",
+                 "optics", "image", "eye", "led", "switch", "supply", "stuck_on",
+                 "trigger_link", "gate_link")
 
 
 def jsonable(value: Any) -> Any:
@@ -178,6 +180,7 @@ class Plan:
     rig: Any
     design: Design | None = None
     air: AirSection | None = None
+    field: FieldSection | None = None
     flash: FlashSection | None = None
     trigger_link: TriggerLinkSection | None = None
     gate_link: GateLinkSection | None = None
@@ -193,8 +196,8 @@ class Plan:
     eye: EyeSection | None = None
     timer: TimerSection | None = None
     banding: BandingSection | None = None
-    findings: list[Finding] = field(default_factory=list)
-    skipped: dict[str, str] = field(default_factory=dict)
+    findings: list[Finding] = _field(default_factory=list)
+    skipped: dict[str, str] = _field(default_factory=dict)
 
     @property
     def lock(self):

@@ -76,6 +76,72 @@ def Number(**constraints):  # noqa: N802
     return Annotated[float, BeforeValidator(_plain_number), Field(**constraints)]
 
 
+def _vector(value, kind):
+    if not isinstance(value, (list, tuple)) or len(value) != 3:
+        what = f"3 {kind}s like ['0 mm', '0 mm', '30 mm']" if kind else "3 numbers like [0, 0, 1]"
+        raise ValueError(f"expected a list of {what}")
+    if kind:
+        try:
+            return tuple(units.parse(v, kind) for v in value)
+        except units.UnitError as exc:
+            raise ValueError(str(exc)) from None
+    return tuple(_plain_number(v) for v in value)
+
+
+def _point(value):
+    return _vector(value, "length")
+
+
+def _direction(value):
+    out = _vector(value, None)
+    if not math.hypot(*out) > 0:
+        raise ValueError("expected a direction, got the zero vector")
+    return out
+
+
+Point = Annotated[tuple[float, float, float], BeforeValidator(_point),
+                  Field(json_schema_extra={"text": "point: 3 lengths (e.g. [\"0 mm\", "
+                                                   "\"0 mm\", \"30 mm\"])"})]
+Direction = Annotated[tuple[float, float, float], BeforeValidator(_direction),
+                      Field(json_schema_extra={"text": "direction: 3 numbers (e.g. [0, 0, 1])"})]
+
+
+def _temperature_range(value):
+    if not isinstance(value, (list, tuple)) or len(value) != 2:
+        raise ValueError("expected two temperatures like ['15 degC', '30 degC']")
+    try:
+        lo, hi = (units.parse(v, "temperature") for v in value)
+    except units.UnitError as exc:
+        raise ValueError(str(exc)) from None
+    if not 223.15 < lo < hi < 353.15:
+        raise ValueError("expected a rising pair between -50 degC and 80 degC")
+    return (lo, hi)
+
+
+def _time_or_angle(value):
+    """("time", seconds) or ("angle", radians) from a quantity string."""
+    try:
+        return ("time", units.parse(value, "time"))
+    except units.UnitError:
+        pass
+    try:
+        return ("angle", units.parse(value, "angle"))
+    except units.UnitError:
+        raise ValueError(f"expected a time like '{units.kind_example('time')}' or an angle "
+                         f"like '12 deg', got {value!r}") from None
+
+
+def _time_field(value):
+    tag, out = _time_or_angle(value)
+    if tag == "angle":  # the rig-level validator converts it when wave.frequency is valid
+        raise ValueError("an angle here needs a valid wave.frequency")
+    return out
+
+
+def _as_list(value):
+    return [value] if isinstance(value, dict) else value
+
+
 class _Model(BaseModel):
     model_config = ConfigDict(extra="forbid", frozen=True)
 
@@ -92,6 +158,11 @@ class Wave(_Model):
 
 class Air(_Model):
     temperature: Q("temperature", gt=223.15, lt=353.15) = 293.15
+    temperature_range: Annotated[tuple[float, float], BeforeValidator(_temperature_range),
+                                 Field(json_schema_extra={"text": "2 temperatures"},
+                                       description="Lowest and highest air temperature "
+                                       "expected during a session, e.g. ['18 degC', '28 degC'] "
+                                       "(how far it moves the frozen phase).")] | None = None
     relative_humidity: Q("ratio", ge=0, le=1) = 0.5
     pressure: Q("pressure", gt=50e3, lt=120e3) = 101325.0
     co2: Q("ppm", ge=0, le=0.01) = 4.0e-4
@@ -113,7 +184,7 @@ class Synthesis(_Model):
 class Emitter(_Model):
     resonance: Q("frequency", gt=0)
     quality_factor: Number(gt=0, le=1e5)
-    distance_to_view: Q("length", gt=0, le=100)
+    distance_to_view: Q("length", gt=0, le=100) | None = None
     spl_at_reference: Q("sound_level", gt=0, lt=200) | None = None
     reference_distance: Q("length", gt=0) | None = None
     reference_voltage: Q("voltage", gt=0) | None = None
@@ -122,6 +193,25 @@ class Emitter(_Model):
     radius: Q("length", gt=0) | None = None
     static_capacitance: Q("capacitance", gt=0) | None = None
     synthesis: Synthesis | None = None
+    position: Point = (0.0, 0.0, 0.0)
+    axis: Direction = (0.0, 0.0, 1.0)
+    phase: Q("angle", ge=-2 * math.pi, le=2 * math.pi) = 0.0
+    amplitude: Number(ge=0, le=1e3) = 1.0
+
+
+class Reflector(_Model):
+    position: Point
+    normal: Direction
+    reflection: Number(ge=-1, le=1) = 1.0
+
+
+class View(_Model):
+    point: Point | None = None
+    centre: Point | None = None
+    width: Q("length", gt=0) | None = None
+    height: Q("length", gt=0) | None = None
+    light_axis: Direction = (1.0, 0.0, 0.0)
+    samples: Count(ge=2, le=4096) = 64
 
 
 class Timer(_Model):
@@ -166,7 +256,11 @@ class Strobe(_Model):
     pulse_width: Q("time", gt=0, description="Gate-on time of one flash.")
     phase: Q("angle", ge=-2 * math.pi, le=2 * math.pi) = 0.0
     every: Count(ge=1, le=1_000_000) = 1
-    calibration_offset: Q("time", ge=-1.0, le=1.0) = 0.0
+    calibration_offset: Annotated[float, BeforeValidator(_time_field), Field(
+        ge=-1.0, le=1.0,
+        json_schema_extra={"text": "time or angle (e.g. \"200 ns\" or \"12 deg\")"},
+        description="Measured offset added to the chain delay: a time ('200 ns') or an "
+        "angle of the wave ('12 deg', positive = the wave arrives later); default 0 s.")] = 0.0
     min_retention: Q("ratio", gt=0, lt=1) = 0.9
     continuous: bool = False
 
@@ -275,6 +369,9 @@ class Camera(_Model):
     shutter: Literal["global", "rolling"] = "global"
     readout: Q("time", ge=0) | None = None
     trigger_latency: Q("time", ge=0, le=1.0) = 0.0
+    trigger_jitter: Q("time", ge=0, description="RMS jitter of the exposure start after "
+                      "the trigger; the window opens 3 sigma plus a tick before the first "
+                      "flash.") = 0.0
     trigger_input: TriggerInput | None = None
     trigger: Literal["input", "none"] = "input"
     object_pixel: Q("length", gt=0) | None = None
@@ -350,7 +447,12 @@ class Rig(_Model):
     description: str = ""
     wave: Wave
     air: Air = Air()
-    emitter: Emitter | None = None
+    emitters: Annotated[list[Emitter], BeforeValidator(_as_list)] | None = Field(
+        default=None, alias="emitter", min_length=1, max_length=64,
+        description="One [emitter] table, or several [[emitter]] tables (an array); the "
+        "first is the phase reference.")
+    reflector: list[Reflector] | None = Field(default=None, max_length=16)
+    view: View | None = None
     controller: Controller
     strobe: Strobe
     sweep: Sweep | None = None
@@ -361,6 +463,49 @@ class Rig(_Model):
     camera: Camera | None = None
     trigger_link: TriggerLink | None = None
     optics: Optics | None = None
+
+    @property
+    def emitter(self) -> Emitter | None:
+        """The first emitter (the phase reference), or None."""
+        return self.emitters[0] if self.emitters else None
+
+    @property
+    def reflectors(self) -> list[Reflector]:
+        return list(self.reflector or [])
+
+    @model_validator(mode="before")
+    @classmethod
+    def _calibration_angle(cls, raw):
+        """An angle in strobe.calibration_offset becomes a time at the wave frequency."""
+        strobe = raw.get("strobe") if isinstance(raw, dict) else None
+        wave = raw.get("wave") if isinstance(raw, dict) else None
+        if not isinstance(strobe, dict) or "calibration_offset" not in strobe:
+            return raw
+        try:
+            tag, value = _time_or_angle(strobe["calibration_offset"])
+        except ValueError:
+            return raw
+        if tag == "angle":
+            try:
+                f = units.parse(wave["frequency"], "frequency")
+            except (units.UnitError, KeyError, TypeError):
+                return raw
+            if not (math.isfinite(f) and f > 0):
+                return raw
+            seconds = value / (2 * math.pi * f)
+            raw = {**raw, "strobe": {**strobe, "calibration_offset": f"{seconds!r} s"}}
+        return raw
+
+    @model_validator(mode="after")
+    def _view_distance(self):
+        """The first emitter's distance_to_view from [view].point when only that is given."""
+        em, view = self.emitter, self.view
+        if em is not None and em.distance_to_view is None and view is not None \
+                and view.point is not None:
+            d = math.dist(em.position, view.point)
+            if d > 0:
+                object.__setattr__(em, "distance_to_view", d)
+        return self
 
     @model_validator(mode="after")
     def _derived(self):
@@ -474,12 +619,24 @@ def _lookup(raw, loc):
     return node
 
 
+def _field_named(model, key):
+    """A model's field by its key in the rig file (its alias, if it has one)."""
+    fields = getattr(model, "model_fields", {})
+    if key in fields and fields[key].alias in (None, key):
+        return fields[key]
+    return next((f for f in fields.values() if f.alias == key), None)
+
+
+def _keys(model) -> list[str]:
+    return [f.alias or name for name, f in model.model_fields.items()]
+
+
 def _model_at(loc) -> type[BaseModel] | None:
     model: Any = Rig
     for part in loc:
         if isinstance(part, int):
             continue
-        field = getattr(model, "model_fields", {}).get(part)
+        field = _field_named(model, part)
         if field is None:
             return None
         model = _inner_model(field.annotation)
@@ -504,7 +661,7 @@ def _field_kind(loc) -> str | None:
     model = _model_at(loc[:-1])
     if model is None:
         return None
-    field = model.model_fields.get(loc[-1]) if isinstance(loc[-1], str) else None
+    field = _field_named(model, loc[-1]) if isinstance(loc[-1], str) else None
     if field is None:
         return None
     extra = field.json_schema_extra
@@ -570,13 +727,16 @@ def _one_error(err, raw, prefix: tuple = (), kind: str | None = None
     """One pydantic error as a RigError, and the key path a "did you mean" proposes."""
     loc = tuple(p for p in err["loc"] if not (isinstance(p, str) and p.startswith("function-")))
     loc = prefix + tuple(p for p in loc if p not in ("float", "int", "str", "bool", "list"))
+    if len(loc) > 1 and loc[0] == "emitter" and loc[1] == 0 and isinstance(
+            raw.get("emitter"), dict):
+        loc = ("emitter",) + loc[2:]  # a single [emitter] table has no index
     path = _path(loc)
     value = _lookup(raw, loc)
     kind = kind or (_field_kind(loc) if loc else None)
     etype = err["type"]
     if etype == "extra_forbidden":
         model = _model_at(loc[:-1])
-        names = list(model.model_fields) if model else []
+        names = _keys(model) if model else []
         guess = difflib.get_close_matches(str(loc[-1]), names, n=1, cutoff=0.5) \
             if len(str(loc[-1])) <= 100 else []
         hint = f"; did you mean '{guess[0]}'?" if guess else ""
@@ -604,7 +764,8 @@ def _one_error(err, raw, prefix: tuple = (), kind: str | None = None
             msg = f"expected a value {word} {shown}"
             break
     if etype in ("too_short", "too_long"):
-        msg = msg.replace("List should", "expected a list that has")
+        msg = msg.replace("List should", "expected a list that has").replace(
+            "Value should", "expected a list that should")
     if etype == "literal_error":
         msg = msg.replace("Input should be", "expected")
     if etype in ("dict_type", "model_type"):
@@ -614,6 +775,11 @@ def _one_error(err, raw, prefix: tuple = (), kind: str | None = None
     if etype in ("string_type", "bool_type", "bool_parsing"):
         msg = msg.replace("Input should be", "expected")
     return RigError(path, value, msg), None
+
+
+def _unit3(v):
+    n = math.hypot(*v)
+    return tuple(c / n for c in v)
 
 
 def _fail(raw, path: str, expected: str):
@@ -693,15 +859,45 @@ def cross_check(rig: Rig, raw: dict | None = None) -> None:
                   "(the exposure would open in a later frame)")
         if cam.frame_rate > f / rig.strobe.every:
             _fail(raw, "camera.frame_rate", "expected no faster than the flash rate")
-    if rig.emitter is not None:
-        e = rig.emitter
+    single = isinstance(raw.get("emitter"), dict)
+    for i, e in enumerate(rig.emitters or []):
+        key = "emitter" if single else f"emitter[{i}]"
         quad = ("spl_at_reference", "reference_distance", "reference_voltage", "drive_voltage")
         given = [k for k in quad if getattr(e, k) is not None]
         if given and len(given) != len(quad):
             missing = [k for k in quad if k not in given][0]
-            _fail(raw, f"emitter.{missing}",
+            _fail(raw, f"{key}.{missing}",
                   f"required with {given[0]} (the SPL reference needs all of "
                   f"{', '.join(quad)})")
+        if e.radius is None and (i > 0 or rig.reflector):
+            _fail(raw, f"{key}.radius",
+                  "required for the sound-field model (several emitters or a [[reflector]])")
+    em = rig.emitter
+    view_point = rig.view.point if rig.view is not None else None
+    if em is not None and em.distance_to_view is None:
+        _fail(raw, "emitter.distance_to_view" if single else "emitter[0].distance_to_view",
+              "required (the view's distance on the first emitter's axis) unless [view] "
+              "gives point")
+    if em is not None and view_point is None:
+        ax = _unit3(em.axis)
+        view_point = tuple(p + em.distance_to_view * a for p, a in zip(em.position, ax,
+                                                                        strict=True))
+    for i, refl in enumerate(rig.reflectors):
+        n = _unit3(refl.normal)
+        if view_point is not None:
+            side = sum((v - q) * c for v, q, c in zip(view_point, refl.position, n,
+                                                       strict=True))
+            if side <= 0:
+                _fail(raw, f"reflector[{i}].normal",
+                      "expected to point from the reflector towards the view point "
+                      "(the view lies behind this reflector)")
+        for j, e in enumerate(rig.emitters or []):
+            side = sum((p - q) * c for p, q, c in zip(e.position, refl.position, n,
+                                                       strict=True))
+            if side <= 0:
+                _fail(raw, f"reflector[{i}].position",
+                      f"expected the emitters in front of the reflector (emitter {j} is at "
+                      f"or behind its plane)")
     led = rig.led
     if led is not None:
         pts = led.forward_voltage

@@ -41,13 +41,32 @@ MEANINGS = {
     "emitter": "The ultrasonic transducer (Butterworth-Van Dyke model from resonance and Q).",
     "emitter.resonance": "Series resonance of the transducer, as mounted.",
     "emitter.quality_factor": "Mechanical quality factor Q of the transducer.",
-    "emitter.distance_to_view": "Acoustic path from the emitter face to the imaged region.",
+    "emitter.distance_to_view": "Acoustic path from the emitter face to the imaged region "
+                                "(the view point on the first emitter's axis unless [view] "
+                                "gives point).",
     "emitter.spl_at_reference": "Datasheet SPL (RMS) at reference_distance and voltage.",
     "emitter.reference_distance": "Distance of the datasheet SPL.",
     "emitter.reference_voltage": "Drive voltage of the datasheet SPL.",
     "emitter.drive_voltage": "Drive voltage in this rig (same measure as the reference).",
     "emitter.spl_at_view": "Measured SPL at the view; overrides the estimate (standing waves).",
-    "emitter.radius": "Radiating radius, for the near-field distance a^2/lambda.",
+    "emitter.radius": "Radiating (piston) radius: the sound-field model and the near-field "
+                      "distance a^2/lambda.",
+    "emitter.position": "Centre of the emitter's face.",
+    "emitter.axis": "Direction the face radiates into.",
+    "emitter.phase": "Drive phase relative to the first emitter.",
+    "emitter.amplitude": "Relative drive amplitude (scales the drive voltage).",
+    "reflector": "Plane reflectors (an array of tables, [[reflector]]), by image sources.",
+    "reflector.position": "A point on the reflector's plane.",
+    "reflector.normal": "Normal of the plane, pointing into the room (towards the view).",
+    "reflector.reflection": "Pressure reflection coefficient (1 = rigid).",
+    "view": "The imaged region and the point where strobe.phase is defined.",
+    "view.point": "Where strobe.phase is defined (default: on the first emitter's axis at "
+                  "distance_to_view).",
+    "view.centre": "Centre of the imaged region (preview, analyse).",
+    "view.width": "Width of the imaged region.",
+    "view.height": "Height of the imaged region.",
+    "view.light_axis": "Direction of the light through the test region.",
+    "view.samples": "Samples along the light axis (preview).",
     "emitter.static_capacitance": "Clamped capacitance C0 of the transducer.",
     "emitter.synthesis": "PWM synthesis of the drive; absent = plain square drive.",
     "emitter.synthesis.carrier": "PWM carrier frequency (>= 4x the wave frequency).",
@@ -83,9 +102,12 @@ MEANINGS = {
                                   "one of twice the bits.",
     "strobe": "The flash.",
     "strobe.pulse_width": "Gate-on time of one flash.",
-    "strobe.phase": "Wave phase at the view at which the light's centroid should fall: 0 "
-                    "deg = the wave's rising zero crossing (the drive period starts at the "
-                    "drive's rising zero crossing or rising edge), 90 deg = the crest.",
+    "strobe.phase": "Phase of the acoustic pressure at the view point that the image should "
+                    "show (the light pulse's Fourier component at the wave frequency, not "
+                    "its centroid): 0 deg = the pressure's rising zero crossing, 90 deg = "
+                    "its crest; the reference is the first emitter's surface velocity, tied "
+                    "to the drive (whose period starts at its rising zero crossing or "
+                    "rising edge).",
     "strobe.every": "Flash on every N-th drive cycle.",
     "strobe.calibration_offset": "Measured extra delay of the wave (added to the chain).",
     "strobe.min_retention": "Contrast retention target at the wave frequency.",
@@ -254,6 +276,14 @@ def _constraints(field, kind) -> str:
 
 
 def _type_text(field) -> str:
+    extra = field.json_schema_extra if isinstance(field.json_schema_extra, dict) else {}
+    if "text" in extra:
+        return extra["text"]
+    for arg in typing.get_args(field.annotation):
+        for meta in getattr(arg, "__metadata__", ()):
+            inner = getattr(meta, "json_schema_extra", None)
+            if isinstance(inner, dict) and "text" in inner:
+                return inner["text"]
     kind = field.json_schema_extra.get("kind") if isinstance(field.json_schema_extra, dict) \
         else None
     kind = kind or _kind_in(field.annotation)
@@ -280,6 +310,8 @@ def _default_text(field, kind) -> str:
         return "(defaults below)"
     if kind and isinstance(d, float):
         return units.render(d, kind)
+    if isinstance(d, tuple):
+        return "[" + ", ".join(f"{v:g}" for v in d) + "]"
     return repr(d)
 
 
@@ -296,6 +328,7 @@ def _description(field) -> str | None:
 def _walk(model: type[BaseModel], prefix: str, out: list[str]) -> None:
     rows, subs = [], []
     for name, field in model.model_fields.items():
+        name = field.alias or name
         kind = (field.json_schema_extra or {}).get("kind") if isinstance(
             field.json_schema_extra, dict) else None
         kind = kind or _kind_in(field.annotation)

@@ -17,6 +17,7 @@ from .plan import Plan
 from .stages import air as air_stage
 from .stages import banding as banding_stage
 from .stages import exposure as exposure_stage
+from .stages import field as field_stage
 from .stages import flash as flash_stage
 from .stages import image as image_stage
 from .stages import link as link_stage
@@ -29,6 +30,7 @@ from .stages import timer as timer_stage
 # the timing core; later stages read the timing (flashes per frame, duty) and one another.
 STAGES = (
     (air_stage.compute, "air"),
+    (field_stage.compute, "field"),  # the phase at the view: before the timing core
     (flash_stage.compute, "flash"),
     (link_stage.compute, None),
     (timing.drive_section, "drive"),
@@ -49,6 +51,7 @@ _NEEDS = {
     "supply": "needs [led] and [supply]",
     "stuck_on": "needs [led] and [supply]",
     "optics": "needs [emitter] with a datasheet SPL or emitter.spl_at_view",
+    "field": "needs [emitter] with radius and distance_to_view (or a [view] point)",
     "image": "needs the optical layout ([optics] layout, mirror, source, cutoff), the LED's "
              "optical output ([led] optical_power) and the camera sensor ([camera] pixel_pitch, "
              "quantum_efficiency, full_well)",

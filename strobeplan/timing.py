@@ -40,11 +40,20 @@ TWO_PI = 2.0 * math.pi
 # --- pure helpers -------------------------------------------------------------------------
 
 
+CARRIER_TOLERANCE = 0.10  # the carrier may sit this fraction off the requested one [1]
+
+
 def choose_drive(clock: float, frequency: float, carrier: float | None = None,
-                 samples_per_cycle: int | None = None) -> tuple[int, int]:
+                 samples_per_cycle: int | None = None,
+                 carrier_tolerance: float = CARRIER_TOLERANCE) -> tuple[int, int]:
     """Integers (M, N_c) whose drive frequency clock/(M N_c) is closest to ``frequency``.
 
-    Ties in frequency go to the carrier closest to the requested one.
+    M (carrier periods per drive cycle) and N_c (ticks per carrier period) are searched
+    jointly: every M whose carrier M f can lie within ``carrier_tolerance`` of the requested
+    carrier, each with the N_c nearest clock/(M f), keeping the carrier clock/N_c inside the
+    tolerance. Ties in frequency go to the carrier closest to the requested one, then to the
+    smaller M. When no pair keeps the carrier inside the tolerance (a slow clock), the
+    nearest M is used, as with a fixed ``samples_per_cycle``.
 
     Parameters
     ----------
@@ -56,30 +65,39 @@ def choose_drive(clock: float, frequency: float, carrier: float | None = None,
         Requested PWM carrier. [Hz]
     samples_per_cycle : int, optional
         Carrier periods per drive cycle, fixing M.
+    carrier_tolerance : float, optional
+        Largest relative distance of the realised carrier from ``carrier``. [1]
 
     Returns
     -------
     (int, int)
         M carrier periods per drive cycle, N_c ticks per carrier period.
     """
+    def best_of(ms, bound):
+        best = None
+        for m in ms:
+            n0 = clock / (m * frequency)
+            for nc in {max(1, math.floor(n0)), max(1, math.ceil(n0))}:
+                c_err = abs(clock / nc - carrier) / carrier if carrier else 0.0
+                if c_err > bound:
+                    continue
+                key = (abs(clock / (m * nc) - frequency) / frequency, c_err, m)
+                if best is None or key < best[0]:
+                    best = (key, m, nc)
+        return best
+
     if samples_per_cycle:
-        ms = [int(samples_per_cycle)]
+        found = best_of([int(samples_per_cycle)], math.inf)
     elif carrier:
         m0 = carrier / frequency
-        ms = sorted({max(1, math.floor(m0)), max(1, math.ceil(m0))})
+        lo = max(1, math.floor(m0 * (1.0 - carrier_tolerance)))
+        hi = max(1, math.ceil(m0 * (1.0 + carrier_tolerance)))
+        found = best_of(range(lo, hi + 1), carrier_tolerance * (1.0 + 1e-12)) or best_of(
+            sorted({max(1, math.floor(m0)), max(1, math.ceil(m0))}), math.inf)
     else:
-        ms = [1]
-    best = None
-    for m in ms:
-        n0 = clock / (m * frequency)
-        for nc in {max(1, math.floor(n0)), max(1, math.ceil(n0))}:
-            realised = clock / (m * nc)
-            c_err = abs(clock / nc - carrier) / carrier if carrier else 0.0
-            key = (abs(realised - frequency) / frequency, c_err, m)
-            if best is None or key < best[0]:
-                best = (key, m, nc)
-    assert best is not None
-    return best[1], best[2]
+        found = best_of([1], math.inf)
+    assert found is not None
+    return found[1], found[2]
 
 
 def wrap_phase(phase):
@@ -205,6 +223,55 @@ def dirichlet_smear(n, step):
     return scalar(np.where(flat, 1.0, ratio))
 
 
+def phasor_mean(first_phase: float, step: float, n: int) -> tuple[float, float]:
+    """Phase and magnitude of the mean of n unit phasors e^{j (first + k step)}, k < n.
+
+    An exposure that holds n flashes at wave phases first, first + step, ... shows the
+    wave at the argument of their mean phasor and with its magnitude as the contrast kept
+    (the smear). Closed form: e^{j (first + (n - 1) step / 2)} sin(n step/2) / (n sin(step/2)).
+
+    Parameters
+    ----------
+    first_phase : float
+        Phase seen by the first flash. [rad]
+    step : float
+        Phase advance from one flash to the next. [rad]
+    n : int
+        Flashes in the exposure (0 or 1: the first flash alone).
+
+    Returns
+    -------
+    (float, float)
+        Phase wrapped to [0, 2 pi) [rad]; magnitude 0..1 [1].
+
+    References
+    ----------
+    1. Oppenheim & Schafer (2010), sec. 2.7 (the Dirichlet kernel, a geometric sum).
+    """
+    first = np.asarray(first_phase, dtype=float)
+    n = np.asarray(0 if n is None else n, dtype=float)
+    half = 0.5 * np.asarray(wrap_error(step), dtype=float)  # a whole turn is no step at all
+    s = np.sin(half)
+    flat = np.abs(s) < 1e-15
+    with np.errstate(divide="ignore", invalid="ignore"):
+        ratio = np.where(flat, 1.0, np.sin(n * half) / np.where(flat, 1.0, n * s))
+    centre = first + (n - 1) * half + np.where(ratio < 0, math.pi, 0.0)
+    one = n <= 1
+    return (wrap_phase(np.where(one, first, centre)),
+            scalar(np.where(one, 1.0, np.abs(ratio))))
+
+
+def flash_step(frequency: float, clock: float, period_ticks: int, flash_ticks: int,
+               slow_step: int | None, clock_tolerance: float = 0.0) -> float:
+    """Phase advance of the wave seen from one flash to the next. [rad]
+
+    Slow motion adds 2 pi s / N_d per flash; separate clocks slip by the tolerance times
+    the flash period (worst case, one sign). Both add, so one phasor sum holds both.
+    """
+    step = TWO_PI * (slow_step or 0) / period_ticks
+    return step + TWO_PI * clock_tolerance * frequency * flash_ticks / clock
+
+
 def slow_motion_step(apparent: float, clock: float, period_ticks: int, every: int) -> int:
     """Extra ticks s per flash period (every*N_d + s) for an apparent frequency.
 
@@ -280,6 +347,28 @@ def free_running_frame(exposure: float, frame_rate: float, flash_ticks: int,
     return frame_rate, exposure, scalar(np.floor(exposure / period + 1e-9).astype(np.int64))
 
 
+def trigger_slack(jitter_rms: float, clock: float) -> float:
+    """How long before the first flash's light the exposure window opens: 3 sigma of the
+    camera's trigger jitter plus one tick (a 3-sigma normal margin keeps 99.87 % of the
+    frames from losing the flash). [s]"""
+    return 3.0 * jitter_rms + 1.0 / clock
+
+
+def window_end_margin(trigger: int, n: int, first: int, spacing: int, clock: float,
+                      light_delay: float, light_length: float, lead: float,
+                      window: float) -> float | None:
+    """Distance from the window's end to the nearest light edge: the end of the last flash
+    inside or the start of the next one outside. Jitter larger than this can drop or add
+    a flash (1/n flicker). None without flashes. [s]"""
+    n = np.asarray(0 if n is None else n)
+    w_end = np.asarray(trigger) / clock + lead + window
+    t0 = np.asarray(first) / clock + light_delay
+    dt = np.asarray(spacing) / clock
+    last_end = t0 + (n - 1) * dt + light_length
+    next_start = t0 + n * dt
+    return scalar(np.where(n > 0, np.minimum(w_end - last_end, next_start - w_end), np.nan))
+
+
 # --- sections -----------------------------------------------------------------------------
 
 
@@ -293,10 +382,13 @@ class DriveSection(Section):
     pwm_resolution_bits: float | None = q()
     filter_delay_s: float = q("time")
     amplifier_delay_s: float = q("time")
+    sample_hold_delay_s: float = q("time")
     transducer_delay_s: float = q("time")
     transducer_phase_deg: float = q("deg")
     detuning_db: float | None = q("dB")
     travel_time_s: float = q("time")
+    field_delay_s: float | None = q("time")
+    field_phase_deg: float | None = q("deg")
     calibration_offset_s: float = q("time")
     carrier_attenuation_db: float | None = q("dB")
 
@@ -319,6 +411,7 @@ class TimingSection(Section):
     phase_requested_deg: float = q("deg")
     phase_achieved_deg: float = q("deg")
     phase_error_deg: float = q("deg")
+    image_phase_deg: float = q("deg")
     phase_resolution_deg: float = q("deg")
     mode: str = q()
     frame_period_ticks: int | None = q("ticks")
@@ -328,6 +421,8 @@ class TimingSection(Section):
     window_s: float | None = q("time")
     flashes_per_frame: int | None = q()
     first_flash_ticks: int | None = q("ticks")
+    trigger_slack_s: float | None = q("time")
+    window_end_margin_s: float | None = q("time")
     duty_in_burst: float = q("ratio")
     duty_average: float = q("ratio")
     phase_per_kelvin_deg: float = q("deg/K")
@@ -357,9 +452,14 @@ class Lock:
     lead: float | None
     window: float | None
     slow_step: int | None
+    step: float = 0.0  # wave phase advance from one flash to the next [rad]
+    slack: float = 0.0  # the window opens this long before the first flash's light [s]
 
 
-def _chain(rig, frequency: float, speed: float) -> tuple[DriveSection, float]:
+def _chain(rig, frequency: float, speed: float, field=None) -> tuple[DriveSection, float]:
+    """The drive section and the chain delay: filter + amplifier + sample-and-hold +
+    transducer + the field's delay from the first emitter's surface velocity to the
+    pressure at the view (the travel time d/c when there is no field) + calibration. [s]"""
     em = rig.emitter
     synth = em.synthesis if em else None
     filt = synth.filter if synth else None
@@ -387,7 +487,11 @@ def _chain(rig, frequency: float, speed: float) -> tuple[DriveSection, float]:
     offset = rig.strobe.calibration_offset
     if abs(offset) * frequency >= 1.0:  # whole periods only move the phase by 2 pi k
         offset = reduce_delay(offset, rig.controller.clock, m * nc)
-    chain = d_f + d_a + d_t + travel + offset
+    has_field = field is not None and math.isfinite(field.delay_s)
+    acoustic = field.delay_s if has_field else travel
+    chain = d_f + d_a + d_t + acoustic + offset
+    d_sh = float(drive_model.sample_hold_delay(rig.controller.clock / nc)) if synth else 0.0
+    chain += d_sh
     carrier_att = None
     if synth is not None:
         fc = rig.controller.clock / nc
@@ -410,10 +514,13 @@ def _chain(rig, frequency: float, speed: float) -> tuple[DriveSection, float]:
         pwm_resolution_bits=math.log2(nc) if synth else None,
         filter_delay_s=d_f,
         amplifier_delay_s=d_a,
+        sample_hold_delay_s=d_sh,
         transducer_delay_s=d_t,
         transducer_phase_deg=math.degrees(phi_t),
         detuning_db=detune,
         travel_time_s=travel,
+        field_delay_s=field.delay_s if has_field else None,
+        field_phase_deg=field.phase_deg if has_field else None,
         calibration_offset_s=rig.strobe.calibration_offset,
         carrier_attenuation_db=carrier_att,
     )
@@ -451,8 +558,9 @@ def compute(rig, design, plan) -> TimingSection:
     nd = m * nc
     f = clock / nd
     speed = plan.air.speed_of_sound_m_s
-    _drive, chain = _chain(rig, f, speed)
-    flash_delay = np.asarray(plan.flash.delay_s + np.asarray(plan.flash.centroid_s))
+    _drive, chain = _chain(rig, f, speed, getattr(plan, "field", None))
+    # the flash is placed by what the image shows (the pulse's fundamental), not its centroid
+    flash_delay = np.asarray(plan.flash.fundamental_delay_s, dtype=float)
     light_length = np.asarray(plan.flash.light_length_s, dtype=float)
     light_delay = plan.flash.delay_s
     every = np.asarray(design.every, dtype=np.int64)
@@ -478,7 +586,8 @@ def compute(rig, design, plan) -> TimingSection:
         sweep_step = (sweep.span or TWO_PI) / sweep.steps
 
     cam = rig.camera
-    frame_ticks = lead = window = trigger = None
+    slack, end_margin = 0.0, None
+    frame_ticks = lead = window = trigger = slack = end_margin = None
     n_frame = first = None
     frame_rate = None
     if cam is not None:
@@ -498,10 +607,13 @@ def compute(rig, design, plan) -> TimingSection:
             link_delay = 0.0  # never reaches VIH: trigger_link.below_vih says so
         lead = cam.trigger_latency + readout + link_delay
         window = max(cam.exposure - readout, 0.0)  # a readout beyond the exposure: none
+        slack = trigger_slack(cam.trigger_jitter, clock)
         trigger, n_frame, first = (np.asarray(x) for x in align_camera(
-            edge, flash_ticks, clock, light_delay, light_length, lead, window))
+            edge, flash_ticks, clock, light_delay - slack, light_length + slack, lead, window))
+        end_margin = window_end_margin(trigger, n_frame, first, flash_ticks, clock,
+                                       light_delay, light_length, lead, window)
         if cam.trigger == "none":  # free-running: no trigger, no frame lock
-            frame_ticks = lead = trigger = first = None
+            frame_ticks = lead = trigger = first = end_margin = None
             frame_rate, window, n_frame = free_running_frame(cam.exposure, cam.frame_rate,
                                                              flash_ticks, clock)
             n_frame = np.asarray(n_frame)
@@ -513,18 +625,24 @@ def compute(rig, design, plan) -> TimingSection:
 
     # Separate clocks: the strobe timer slips against the drive by tol per unit time.
     drift_rate = drift_exp = None
-    smear = np.ones(np.broadcast_shapes(np.shape(width), np.shape(every)))
     if not rig.controller.shared_clock:
-        tol = rig.controller.clock_tolerance
-        drift_rate = 360.0 * f * tol
+        drift_rate = 360.0 * f * rig.controller.clock_tolerance
         if cam is not None:
             drift_exp = drift_rate * cam.exposure
-            smear = smear * dirichlet_smear(n_frame, TWO_PI * tol * f * flash_ticks / clock)
-    if mode == "slow_motion" and cam is not None:
-        smear = smear * dirichlet_smear(n_frame, TWO_PI * slow_step / nd)
+    step = flash_step(f, clock, nd, flash_ticks, slow_step, rig.controller.clock_tolerance
+                      if not rig.controller.shared_clock else 0.0)
+    if cam is not None:
+        image_phase, smear = phasor_mean(achieved, step, n_frame)
+    else:
+        image_phase, smear = achieved, 1.0
+    smear = np.broadcast_to(smear, np.broadcast_shapes(np.shape(width), np.shape(every),
+                                                       np.shape(smear))) + 0.0
 
-    # Sensitivity of the frozen phase to air temperature: d(phase)/dT = w d/c^2 dc/dT.
-    if rig.emitter is not None and rig.wave.speed is None:
+    field = getattr(plan, "field", None)
+    if field is not None:
+        per_k = field.phase_per_kelvin_deg
+    elif rig.emitter is not None and rig.wave.speed is None:
+        # d(phase)/dT = w d/c^2 dc/dT (travel time only, without a field model).
         a = rig.air
         dc_dt = (air_model.speed_of_sound(a.temperature + 0.5, a.relative_humidity, a.pressure,
                                           a.co2)
@@ -549,6 +667,7 @@ def compute(rig, design, plan) -> TimingSection:
         phase_requested_deg=math.degrees(wrap_phase(strobe.phase)),
         phase_achieved_deg=scalar(np.degrees(achieved)),
         phase_error_deg=scalar(np.degrees(err)),
+        image_phase_deg=scalar(np.degrees(image_phase)),
         phase_resolution_deg=360.0 * f / clock,
         mode=mode,
         frame_period_ticks=scalar(frame_ticks),
@@ -558,6 +677,8 @@ def compute(rig, design, plan) -> TimingSection:
         window_s=window,
         flashes_per_frame=scalar(n_frame),
         first_flash_ticks=scalar(first),
+        trigger_slack_s=slack if cam is not None else None,
+        window_end_margin_s=scalar(end_margin) if cam is not None else None,
         duty_in_burst=scalar(duty_burst),
         duty_average=scalar(duty_avg),
         phase_per_kelvin_deg=per_k,
@@ -574,7 +695,7 @@ def compute(rig, design, plan) -> TimingSection:
                              flash_delay=float(flash_delay), light_delay=light_delay,
                              light_length=float(light_length),
                              frame_ticks=scalar(frame_ticks), lead=lead, window=window,
-                             slow_step=scalar(slow_step))
+                             slow_step=scalar(slow_step), step=float(step), slack=slack)
     return section
 
 
@@ -592,6 +713,7 @@ class ScheduleRow:
     camera_trigger_ticks: int
     first_flash_ticks: int | None
     flashes: int | None
+    smear: float = 1.0
 
 
 @dataclass(frozen=True)
@@ -605,7 +727,7 @@ class Schedule:
 
     COLUMNS = ("frame", "target_phase_deg", "achieved_phase_deg", "phase_error_deg",
                "edge_ticks", "edge_time_s", "camera_trigger_ticks", "first_flash_ticks",
-               "flashes")
+               "flashes", "smear")
 
 
 MAX_ROWS = 100_000
@@ -634,8 +756,10 @@ def schedule(rig, plan, lock: Lock, steps: int | None = None) -> Schedule:
         """
         start = k * frame_ticks
         if lock.lead is not None:
-            trig, n, first = align_camera(edge_in_frame, spacing, clock, lock.light_delay,
-                                          lock.light_length, lock.lead, lock.window)
+            trig, n, first = align_camera(edge_in_frame, spacing, clock,
+                                          lock.light_delay - lock.slack,
+                                          lock.light_length + lock.slack, lock.lead,
+                                          lock.window)
         else:
             trig, n, first = 0, None, edge_in_frame
         edge_abs = start + first
@@ -644,11 +768,14 @@ def schedule(rig, plan, lock: Lock, steps: int | None = None) -> Schedule:
             phase_of_edge(edge_in_frame % nd, lock.frequency, clock, lock.chain_delay,
                           lock.flash_delay)
         edge = (edge_abs % nd) if t.mode == "slow_motion" else edge_in_frame % nd
-        if callable(target):
-            target = target(edge_abs)
+        # The image shows the phasor mean over the flashes of its exposure.
+        seen = n if n is not None else 1
+        achieved, smear = phasor_mean(achieved, lock.step, seen)
+        if callable(target):  # slow motion: the apparent wave at the exposure's middle
+            target = target(edge_abs + 0.5 * max(seen - 1, 0) * spacing)
         return ScheduleRow(k, math.degrees(target), math.degrees(achieved),
                            math.degrees(wrap_error(achieved - target)), edge, edge / clock,
-                           start + trig, edge_abs if (n is None or n) else None, n)
+                           start + trig, edge_abs if (n is None or n) else None, n, smear)
 
     if t.mode == "slow_motion":
         n_rows = steps or min(MAX_ROWS, max(1, math.ceil(

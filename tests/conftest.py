@@ -14,7 +14,7 @@ from click.testing import CliRunner
 
 ROOT = Path(__file__).resolve().parents[1]
 CONFIGS = ROOT / "configs"
-EXAMPLES = ("levitator-40k", "rangefinder-58k", "unsafe-bench")
+EXAMPLES = ("levitator-40k", "rangefinder-58k", "unsafe-bench", "opposed-pair-40k")
 
 
 def example(name: str) -> Path:

@@ -22,7 +22,7 @@ def test_doc_and_registry_list_the_same_codes():
     for r in RULES.values():
         assert r.trigger and r.fix  # every code says what triggers it and how to fix it
         assert r.code.split(".")[0] in {
-            "timing", "drive", "air", "exposure", "optics", "led", "switch", "supply",
+            "timing", "drive", "field", "air", "exposure", "optics", "led", "switch", "supply",
             "stuck_on", "trigger_link", "gate_link", "safety", "plan", "image", "eye",
             "timer", "banding"}
 

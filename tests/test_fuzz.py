@@ -165,8 +165,9 @@ def wild_magnitudes(draw):
         raw["camera"]["exposure"] = f"{log_between(1e-9, 1.0):.6g} s"
         raw["camera"]["frame_rate"] = f"{log_between(1.0, 1e5):.6g} Hz"
     if "emitter" in raw:
-        raw["emitter"]["resonance"] = f"{log_between(1.0, 1e8):.6g} Hz"
-        raw["emitter"].pop("synthesis", None) if draw(st.booleans()) else None
+        ems = raw["emitter"] if isinstance(raw["emitter"], list) else [raw["emitter"]]
+        ems[0]["resonance"] = f"{log_between(1.0, 1e8):.6g} Hz"
+        ems[0].pop("synthesis", None) if draw(st.booleans()) else None
     raw.pop("sweep", None) if draw(st.booleans()) else None
     return raw
 

@@ -172,7 +172,11 @@ def test_sweep_edges_in_range(clock, freq, steps, phase):
 
 
 def test_chain_delay_composition():
-    # Chain = filter + amplifier + transducer phase delays + distance/c + calibration.
+    # Chain = filter + amplifier + transducer phase delays + the PWM table's hold delay
+    # (half a carrier period, 0.625 us at 800 kHz; tests/test_drive_synthesis.py checks it
+    # against an FFT) + the field's delay from the surface velocity to the pressure at the
+    # view + calibration. The old chain used the travel time d/c instead of the field's
+    # delay and left out the hold delay; both were wrong (the radiation phase).
     raw = {
         "wave": {"frequency": "40 kHz"},
         "controller": {"clock": "100 MHz"},
@@ -183,18 +187,31 @@ def test_chain_delay_composition():
     }
     plan = solve(rig_from_dict(raw))
     c = plan.air.speed_of_sound_m_s
+    field_delay = plan.drive.field_delay_s
     # RC at fc: 3.125 us (docs/references.md, "Power stage"); transducer at resonance: 0.
-    assert plan.timing.chain_delay_s == pytest.approx(3.125e-6 + 0.1 / c + 1e-6, rel=1e-9)
+    assert plan.timing.chain_delay_s == pytest.approx(3.125e-6 + 0.625e-6 + field_delay + 1e-6,
+                                                      rel=1e-9)
+    # No radius given: a small source, whose far-field pressure leads its velocity by 90 deg
+    # (p = j rho c k U a^2 e^{-jkr} / 2r, Kinsler et al., sec. 7.4): d/c - T/4, mod T.
+    period = 1 / 40e3
+    expected = (0.1 / c - period / 4) % period
+    assert field_delay == pytest.approx(expected, abs=1e-3 * period)
 
 
 def test_phase_edge_worked_example():
     # Hand calculation: 100 MHz, 40 kHz (2500 ticks), no filter, at resonance, d = 0.1 m,
-    # ideal flash (zero delay, rectangle 1 us -> centroid 0.5 us), phase 90 deg:
-    # t = d/c + T/4 - 0.5 us, edge = round(t * 1e8) mod 2500.
+    # ideal flash (zero delay, rectangle 1 us -> its fundamental at 0.5 us), phase 90 deg.
+    # No radius: a small source, whose far-field pressure leads its surface velocity by
+    # 90 deg (p = j rho c k U a^2 e^{-jkr} / 2r, Kinsler et al., sec. 7.4), so the pressure
+    # at the view is sin(w (t - d/c) + 90 deg) and its crest comes at t = d/c:
+    # t = d/c - 0.5 us, edge = round(t * 1e8) mod 2500 (within a tick: the small source's
+    # near-field and absorption terms). The old expectation, d/c + T/4 - 0.5 us, left out
+    # the radiation lead and was a quarter period late.
     plan = solve(_rig(100e6, 40e3, phase_deg=90, distance=0.1, pulse=1e-6))
     c = plan.air.speed_of_sound_m_s
-    t = 0.1 / c + 0.25 / 40e3 - 0.5e-6
-    assert plan.timing.flash_edge_ticks == round(t * 1e8) % 2500
+    t = 0.1 / c - 0.5e-6
+    got, expected = plan.timing.flash_edge_ticks, round(t * 1e8) % 2500
+    assert min(abs(got - expected), 2500 - abs(got - expected)) <= 1
 
 
 def test_camera_window_counts_flashes():

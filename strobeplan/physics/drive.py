@@ -189,3 +189,38 @@ def attenuation_db(response):
     1. IEC 60027-3 (logarithmic quantities).
     """
     return -20.0 * np.log10(np.abs(response))
+
+
+def sample_hold_delay(carrier_frequency):
+    """Delay of the drive's fundamental caused by a PWM table updated once per carrier
+    period: half a carrier period, 1 / (2 f_c).
+
+    Derivation: table entry n holds the sine at t_n = n T_c (tick 0 at index 0) and sets the
+    duty d_n = (1 + m sin(w t_n)) / 2 of carrier period n. Averaged over that period the
+    output is d_n, held for T_c: a zero-order hold, H(f) = sinc(f T_c) e^{-j pi f T_c}, whose
+    phase delay is T_c / 2 (Oppenheim & Schafer, sec. 4.6). Where the pulse sits in its
+    period changes only the terms of order (w T_c)^2: a pulse centred in the period has its
+    centre at t_n + T_c/2 exactly; an edge-aligned pulse [t_n, t_n + d_n T_c] has its centre
+    at t_n + d_n T_c / 2, and the part of d_n^2 at the fundamental, m sin(w t_n) / 2, again
+    gives T_c / 2 (Holmes & Lipo, ch. 3, regular-sampled PWM). At 20 carrier periods per
+    cycle it is 9 deg of the wave.
+
+    Parameters
+    ----------
+    carrier_frequency : float or ndarray
+        PWM carrier (table update) rate. [Hz]
+
+    Returns
+    -------
+    float or ndarray
+        Delay of the fundamental behind the table's sine. [s]
+
+    References
+    ----------
+    1. A. V. Oppenheim, R. W. Schafer, Discrete-Time Signal Processing, 3rd ed. (2010),
+       sec. 4.6 (zero-order hold).
+    2. D. G. Holmes, T. A. Lipo, Pulse Width Modulation for Power Converters, Wiley-IEEE
+       (2003), ch. 3 (naturally and regularly sampled PWM).
+    """
+    out = 0.5 / np.asarray(carrier_frequency, dtype=float)
+    return out if np.ndim(out) else float(out)

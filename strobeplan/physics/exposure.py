@@ -732,3 +732,111 @@ def wavelength(speed, frequency):
     """
     speed, f = _arrays(speed, frequency)
     return _out(speed / f)
+
+
+LN9 = float(np.log(9.0))  # 10-90 % rise of a single pole is ln(9) time constants
+
+
+def led_rise_response(frequency, rise_time):
+    """The LED's own optical rise as a single pole: 1 / (1 + j 2 pi f tau), tau = t_r / ln 9.
+
+    Parameters
+    ----------
+    frequency : float or ndarray
+        Frequency. [Hz]
+    rise_time : float or ndarray
+        10-90 % optical rise time of the LED at a current step (0: instantaneous). [s]
+
+    Returns
+    -------
+    complex or ndarray
+        Response normalised to 1 at DC. [1]
+
+    References
+    ----------
+    1. A single-pole step response 1 - exp(-t/tau) goes from 10 % to 90 % in tau ln 9
+       (Bracewell 2000, the one-sided exponential; the 10-90 % definition is common
+       practice on LED datasheets).
+    """
+    f, tr = _arrays(frequency, rise_time)
+    return _out(1.0 / (1.0 + 2j * np.pi * f * tr / LN9))
+
+
+def light_spectrum(frequency, width, rise, fall, phosphor_fraction, phosphor_decay,
+                   led_rise=0.0, delay=0.0):
+    """Spectrum of the light pulse as seen from the timer edge, normalised to 1 at DC.
+
+    The current flows ``delay`` after the timer edge (driver propagation plus the gate's
+    turn-on delay) for ``width`` (the gate-on time plus the turn-off minus the turn-on
+    delay), with its switching edges; the LED adds its rise (a pole) and phosphor tail.
+
+    Parameters
+    ----------
+    frequency : float or ndarray
+        Frequency. [Hz]
+    width : float or ndarray
+        Duration of the current from its start to the start of its fall. [s]
+    rise : float or ndarray
+        Current ramp-up time. [s]
+    fall : float or ndarray
+        Current ramp-down time. [s]
+    phosphor_fraction : float or ndarray
+        Fraction of the light in the phosphor part. [1]
+    phosphor_decay : float or ndarray
+        Phosphor decay time. [s]
+    led_rise : float or ndarray, optional
+        LED 10-90 % optical rise time. [s]
+    delay : float or ndarray, optional
+        Timer edge to the start of the current. [s]
+
+    Returns
+    -------
+    complex or ndarray
+        H(f) / H(0), phase measured from the timer edge. [1]
+
+    References
+    ----------
+    1. Bracewell (2000) (convolution and shift theorems).
+    """
+    f, d = _arrays(frequency, delay)
+    spectrum = np.asarray(pulse_spectrum(f, width, rise, fall, phosphor_fraction,
+                                         phosphor_decay))
+    out = spectrum * np.asarray(led_rise_response(f, led_rise)) * np.exp(-2j * np.pi * f * d)
+    return _out(out)
+
+
+def fundamental_delay(frequency, width, rise, fall, phosphor_fraction, phosphor_decay,
+                      led_rise=0.0, delay=0.0):
+    """When the image sees the wave: the light pulse's phase delay at the wave frequency.
+
+    An image integrates the wave p(t) = Re(P e^{j w t}) under the light L(t - t_e) of a
+    flash whose timer edge is at t_e; the result is Re(P conj(H(f)) e^{j w t_e}) with H the
+    light's spectrum, i.e. the wave at the instant t_e - arg H(f) / w, times |H|. That
+    phase delay, not the light's centroid, is where the flash must be placed. It is
+    returned on the branch nearest the centroid (both agree as f -> 0).
+
+    Parameters
+    ----------
+    frequency : float or ndarray
+        Wave frequency (> 0). [Hz]
+    width, rise, fall, phosphor_fraction, phosphor_decay, led_rise, delay
+        As in `light_spectrum`. [s], [s], [s], [1], [s], [s], [s]
+
+    Returns
+    -------
+    float or ndarray
+        -arg H(f) / (2 pi f) after the timer edge. [s]
+
+    References
+    ----------
+    1. Bracewell (2000) (shift and moment theorems).
+    """
+    f, width, rise, fall, w, tau, tr, d = _arrays(frequency, width, rise, fall,
+                                                  phosphor_fraction, phosphor_decay,
+                                                  led_rise, delay)
+    w_eff = np.where(tau > 0, w, 0.0)
+    centroid = np.asarray(optical_centroid(width, rise, fall, w_eff, tau)) + tr / LN9 + d
+    h = np.asarray(light_spectrum(f, width, rise, fall, w_eff, tau, tr, d))
+    period = 1.0 / f
+    raw = -np.angle(h) / (2.0 * np.pi * f)
+    return _out(raw + period * np.round((centroid - raw) / period))

@@ -62,7 +62,7 @@ def compute(rig, design, plan) -> ExposureSection:
     """The exposure section; needs ``plan.timing`` (realised frequency, smear) and
     ``plan.flash``. The widest pulse meeting the target and the harmonics are figures for
     people, computed for a scalar design only (None over a grid)."""
-    width = design.pulse_width
+    width = plan.flash.current_width_s  # the current's duration (gate plus switch delays)
     rise, fall = plan.flash.rise_s, plan.flash.fall_s
     w, tau = phosphor(rig)
     f = plan.timing.drive_frequency_hz

@@ -36,6 +36,10 @@ class FlashSection(Section):
     edges_source: str = q()
     centroid_s: float = q("time")
     light_length_s: float = q("time")
+    turn_off_delay_s: float = q("time")
+    current_width_s: float = q("time")
+    led_rise_s: float = q("time")
+    fundamental_delay_s: float = q("time")
 
 
 def edges(rig) -> tuple[float, float, float, str]:
@@ -89,13 +93,59 @@ def phosphor(rig) -> tuple[float, float]:
     return (0.0, 0.0) if tau == 0.0 else (w, tau)
 
 
+def gate_delays(rig) -> tuple[float, float]:
+    """(turn-on, turn-off) delays of the switch's current behind the gate edges. [s]
+
+    Zero without a switch and a driver, or when the gate-charge model has no finite answer.
+    """
+    from .power import gate_edges
+
+    d_on, d_off = gate_edges(rig)[:2]
+    if not (math.isfinite(d_on) and math.isfinite(d_off)):
+        return 0.0, 0.0
+    return d_on, d_off
+
+
+def led_rise(rig) -> float:
+    """The LED's own optical rise time, applied on top of the current's edges. [s]
+
+    With a switch and a driver the current edges come from the gate-charge model and the
+    LED's ``rise_time`` adds to them (a pole); without them ``rise_time`` already serves
+    as the current's edges (:func:`edges`) and is not counted twice.
+    """
+    led = rig.led
+    if led is None or led.rise_time is None:
+        return 0.0
+    if rig.switch is not None and rig.gate_driver is not None:
+        return led.rise_time
+    return 0.0
+
+
 def compute(rig, design, plan) -> FlashSection:
-    """The flash section for the design's (realised, whole-tick) pulse width."""
-    width = design.pulse_width
+    """The light pulse after the timer edge, for the design's (whole-tick) gate width: the
+    current flows from the driver's propagation plus the gate's turn-on delay until the gate
+    closes plus its turn-off delay, with its switching edges; the LED adds its rise and
+    phosphor tail. The flash is timed by the pulse's Fourier component at the wave
+    frequency (``fundamental_delay_s``, from the timer edge), which is what the image
+    shows. ``width`` may be an array (every figure then follows it)."""
+    from ..physics import exposure as exposure_model
+
+    width = np.asarray(design.pulse_width, dtype=float)
     delay, rise, fall, source = edges(rig)
-    c, length = centroid(rig, width, rise, fall)
+    d_on, d_off = gate_delays(rig)
+    current = np.maximum(width + d_off - d_on, 0.0)
+    t_led = led_rise(rig)
+    c, length = centroid(rig, current, rise, fall)
+    c = np.asarray(c) + t_led / exposure_model.LN9
+    length = np.asarray(length) + 3.0 * t_led / exposure_model.LN9
+    w, tau = phosphor(rig)
+    fundamental = np.asarray(exposure_model.fundamental_delay(
+        rig.wave.frequency, current, rise, fall, w, tau, t_led, delay), dtype=float)
+    fundamental = np.where(np.isfinite(fundamental), fundamental, delay)  # no current: start
     clock = rig.controller.clock
-    return FlashSection(width_s=width, width_ticks=scalar(np.rint(np.asarray(width) * clock)
-                                                          .astype(np.int64)),
-                        requested_width_s=rig.strobe.pulse_width, delay_s=delay, rise_s=rise,
-                        fall_s=fall, edges_source=source, centroid_s=c, light_length_s=length)
+    return FlashSection(
+        width_s=scalar(width), width_ticks=scalar(np.rint(width * clock).astype(np.int64)),
+        requested_width_s=rig.strobe.pulse_width, delay_s=delay, rise_s=rise, fall_s=fall,
+        edges_source=source, centroid_s=scalar(c), light_length_s=scalar(length),
+        turn_off_delay_s=d_off, current_width_s=scalar(current), led_rise_s=t_led,
+        fundamental_delay_s=scalar(fundamental))

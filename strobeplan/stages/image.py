@@ -243,8 +243,9 @@ def _emitted_per_frame(rig, design, plan):
     s_last = np.where(pk > 0, np.asarray(last, dtype=float) / safe, 1.0)
 
     def flash(scale):  # Simpson over the pulse: peak, mean and end current
-        return design.pulse_width * (_flux(led, scale * pk) + 4.0 * _flux(led, scale * mean)
-                                     + _flux(led, scale * end)) / 6.0
+        width = plan.flash.current_width_s
+        return width * (_flux(led, scale * pk) + 4.0 * _flux(led, scale * mean)
+                        + _flux(led, scale * end)) / 6.0
 
     n = plan.timing.flashes_per_frame
     n = np.asarray(n if n is not None else 1, dtype=float)

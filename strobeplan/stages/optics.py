@@ -10,6 +10,7 @@ the realised drive frequency. Without ``[optics]`` only the acoustic figures are
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 from ..physics import acoustics, drive, schlieren
@@ -61,10 +62,16 @@ def compute(rig, design, plan) -> OpticsSection | None:
     alpha = plan.air.absorption_db_m
     speed = plan.air.speed_of_sound_m_s
     estimate = _datasheet_spl(em, f, alpha, em.distance_to_view)
+    how = "datasheet rating, spreading, absorption, detuning"
+    fld = getattr(plan, "field", None)
+    if fld is not None and fld.spl_at_view_db is not None and math.isfinite(
+            fld.spl_at_view_db):
+        # The field model: pistons from their ratings, reflectors, absorption, detuning.
+        estimate, how = fld.spl_at_view_db, "sound-field model (rated pistons, reflectors)"
     if em.spl_at_view is not None:
         spl, source = em.spl_at_view, "emitter.spl_at_view (given)"
     elif estimate is not None:
-        spl, source = estimate, "datasheet rating, spreading, absorption, detuning"
+        spl, source = estimate, how
     else:
         return None
     at_1m = _datasheet_spl(em, f, alpha, SAFETY_DISTANCE)

@@ -7,7 +7,9 @@ Models (strobeplan.physics.led / thermal / switching / supply):
 
 * The LED's forward voltage is fitted to its 1-3 datasheet points; the flash operating point
   integrates the storage capacitor's discharge over one pulse exactly (ESR, series resistor,
-  on-resistance, the boost recharging at ``supply.max_current``). Gate edges are neglected
+  on-resistance, the boost recharging at ``supply.max_current``), for as long as the current
+  flows (``flash.current_width_s``: the gate time plus the switch's turn-off minus turn-on
+  delay). Gate edges are neglected
   in the operating point (the flat top sets the peak; the edges are a few % of the pulse).
 * Heat per pulse = (1 - efficiency) x LED electrical energy, spread over the gate time.
   Pattern: a burst of ``flashes_per_frame`` flashes at the flash spacing every frame, or a
@@ -247,7 +249,8 @@ def compute(rig, design, plan) -> dict:
     led, sup, sw = rig.led, rig.supply, rig.switch
     fit = diode(rig)
     pat = flash_pattern(rig, plan.timing)
-    width = np.asarray(design.pulse_width, dtype=float)
+    # The current flows for the gate time plus the switch's turn-off minus turn-on delay.
+    width = np.asarray(plan.flash.current_width_s, dtype=float)
     v_sup = np.asarray(design.supply_voltage, dtype=float)
     r_ser = np.asarray(design.series_resistor, dtype=float)
     ron = sw.on_resistance if sw is not None else 0.0
