@@ -22,6 +22,7 @@ from strobeplan.errors import RigError
 from strobeplan.report import plots
 from strobeplan.rig import load_rig, loads_rig
 from strobeplan.solve import solve
+from strobeplan.stages import traces
 from tests.conftest import example, run_cli
 
 BASE = """
@@ -436,8 +437,9 @@ def test_thermal_trace_peak_is_the_exact_burst_peak(width_us, every, exposure_ms
     plan = solve(loads_rig(text))
     led = plan.led
     n = max(1, led.flashes_per_burst)
-    ends = plots._first_light(plan) + led.flash_spacing_s * np.arange(n) + plan.flash.width_s
-    trace = plots.junction_trace(plan, ends) - 273.15
+    width = plan.flash.current_width_s
+    ends = traces.first_light(plan) + led.flash_spacing_s * np.arange(n) + width
+    trace = traces.junction_trace(plan, ends) - 273.15
     rise = led.junction_peak_k - 273.15 - 25.0
     assert trace.max() == pytest.approx(led.junction_peak_k - 273.15, abs=1e-4 * max(rise, 1.0))
 

@@ -1,7 +1,8 @@
 """Plots of a solved plan: one ``plot_X(plan, ax=None) -> Figure`` per picture.
 
-Pattern: the plan holds the computed data; each function here only draws it,
-using the plan's sections and the physics functions (never a second copy of a model).
+Pattern: the plan holds the computed data; each function here only draws it, from the
+plan's sections and the curves of :mod:`strobeplan.stages.traces` (which sample the
+stages' models); no model is evaluated here.
 matplotlib is imported inside the functions and only its object-oriented API is used
 (``matplotlib.figure.Figure``, no pyplot state), so importing this module is cheap and
 nothing global changes. Every axis carries its unit with SI prefixes (``EngFormatter``)
@@ -24,6 +25,7 @@ import numpy as np
 from .. import timing
 from ..errors import MISSING, RigError
 from ..plan import ZERO_CELSIUS
+from ..stages import traces
 
 KINDS = ("timing", "pulse", "thermal", "tradeoff", "divider", "sweep", "image")
 
@@ -93,28 +95,6 @@ def _percent(axis):
     axis.set_major_formatter(PercentFormatter(xmax=1.0, decimals=0))
 
 
-def _pulse_params(plan):
-    """(width, rise, fall, phosphor fraction, phosphor decay) of the flash. [s, s, s, 1, s]
-
-    The exposure stage's reading of the rig and the flash section (one source of truth).
-    """
-    from ..stages.flash import phosphor
-
-    flash = _need(plan, "flash", "pulse")
-    w, tau = phosphor(plan.rig)
-    return flash.width_s, flash.rise_s, flash.fall_s, w, tau
-
-
-def _jitter(plan) -> float:
-    """Combined RMS timing jitter of the flash: the exposure section's, else the rig's. [s]"""
-    from ..stages.exposure import jitter_rms
-
-    e = plan.exposure
-    if e is not None and getattr(e, "jitter_rms_s", None) is not None:
-        return float(e.jitter_rms_s)
-    return jitter_rms(plan.rig)
-
-
 def _deg(x: float) -> str:
     return f"{x:.4g}\N{DEGREE SIGN}"
 
@@ -163,30 +143,6 @@ def flash_starts(plan) -> tuple[np.ndarray, np.ndarray]:
     w0, w1 = t.window_start_s, t.window_start_s + t.window_s
     inside = (starts >= w0 - 1e-12) & (starts + fl.light_length_s <= w1 + 1e-12)
     return starts, inside
-
-
-def _drive_period_curves(plan, n: int = 2001) -> dict[str, np.ndarray]:
-    """Curves over one drive period centred on the optical centroid: drive, wave at the
-    view, optical pulse (all [1]); times from the start of a drive period."""
-    from ..physics import exposure as ex
-
-    t, fl = plan.timing, plan.flash
-    f = t.drive_frequency_hz
-    period = t.drive_period_ticks * t.tick_s
-    centre = math.fmod(t.flash_edge_s + t.flash_delay_s, period)
-    time = np.linspace(centre - period / 2, centre + period / 2, n)
-    phase = 2.0 * np.pi * f * time
-    waveform = plan.drive.waveform if plan.drive is not None else "square"
-    if waveform == "square":
-        drive = np.where(np.mod(phase, 2 * np.pi) < np.pi, 1.0, -1.0)
-    else:  # sine-weighted PWM: its reference (the fundamental the filter passes)
-        drive = np.sin(phase)
-    wave = timing.wave_at_view(time, f, t.chain_delay_s)
-    width, rise, fall, w, tau = _pulse_params(plan)
-    gate_open = np.mod(t.flash_edge_s + fl.delay_s, period)
-    since_gate = np.mod(time - gate_open, period)
-    light = np.asarray(ex.optical_pulse(since_gate, width, rise, fall, w, tau), dtype=float)
-    return {"time": time, "drive": drive, "wave": wave, "light": light, "waveform": waveform}
 
 
 def _frame_panel(plan, ax):
@@ -250,7 +206,7 @@ def plot_timing(plan, ax=None):
     if ax_frame is not None:
         _frame_panel(plan, ax_frame)
 
-    c = _drive_period_curves(plan)
+    c = traces.drive_period_curves(plan)
     time = c["time"]
     drive_label = ("drive at the controller (square)" if c["waveform"] == "square"
                    else "drive at the controller (PWM reference)")
@@ -284,15 +240,6 @@ def plot_timing(plan, ax=None):
 # --- pulse --------------------------------------------------------------------------------
 
 
-def retention_curve(plan, frequency):
-    """Contrast retention at the given frequencies for the plan's flash (jitter, smear). [1]"""
-    from ..physics import exposure as ex
-
-    width, rise, fall, w, tau = _pulse_params(plan)
-    smear = plan.timing.smear if plan.timing is not None else 1.0
-    return ex.retention(frequency, width, rise, fall, w, tau, _jitter(plan), smear)
-
-
 def plot_pulse(plan, ax=None):
     """The optical pulse and its contrast retention against frequency.
 
@@ -300,21 +247,17 @@ def plot_pulse(plan, ax=None):
     opens. Bottom: retention |H(f)|/H(0) x jitter x smear on a log frequency axis, the
     wave's harmonics marked, and the retention target.
     """
-    from ..physics import exposure as ex
-
     t = _need(plan, "timing", "pulse")
     fl = _need(plan, "flash", "pulse")
-    width, rise, fall, w, tau = _pulse_params(plan)
+    width, rise, fall, w, tau = traces.pulse_params(plan)
     fig, ax_shape, ax_ret = _two_axes(ax)
 
     if ax_shape is not None:
         length = fl.light_length_s
         time = np.linspace(-0.1 * length, 1.3 * length, 1501)
-        current = ex.optical_pulse(time, width, rise, fall, 0.0, 0.0)
-        light = ex.optical_pulse(time, width, rise, fall, w, tau)
+        current, light, centroid = traces.pulse_curves(plan, time)
         ax_shape.plot(time, current, color=GREY, linestyle="--", label="LED current (relative)")
         ax_shape.plot(time, light, color=INK, linestyle="-", label="light output (relative)")
-        centroid = float(ex.optical_centroid(width, rise, fall, w, tau))
         ax_shape.axvline(centroid, color=INK, linestyle=":",
                          label=f"optical centroid ({_si(centroid, 'time')})")
         ax_shape.set_xlabel("time after the gate opens")
@@ -329,10 +272,10 @@ def plot_pulse(plan, ax=None):
     duration = max(fl.light_length_s, width)
     f_hi = max(4.0 / duration, 3.0 * n_harm * f0)
     freq = np.geomspace(0.1 * f0, f_hi, 1200)
-    ret = np.asarray(retention_curve(plan, freq), dtype=float)
+    ret = np.asarray(traces.retention_curve(plan, freq), dtype=float)
     ax_ret.plot(freq, ret, color=INK, linestyle="-", label="retention")
     harmonics = f0 * np.arange(1, n_harm + 1)
-    at_h = np.asarray(retention_curve(plan, harmonics), dtype=float)
+    at_h = np.asarray(traces.retention_curve(plan, harmonics), dtype=float)
     ax_ret.plot(harmonics, at_h, linestyle="none", marker="s", markerfacecolor="white",
                 color=INK, markeredgecolor=INK, label="wave harmonics")
     for k, (fh, r) in enumerate(zip(harmonics, at_h, strict=True), start=1):
@@ -356,49 +299,9 @@ def plot_pulse(plan, ax=None):
 # --- thermal ------------------------------------------------------------------------------
 
 
-def junction_trace(plan, time):
-    """Junction temperature in the periodic steady state of the plan's flash pattern.
-
-    Gathers the plan's flash pattern for
-    :func:`strobeplan.physics.thermal.periodic_burst_rise` (closed form).
-
-    Parameters
-    ----------
-    plan : Plan
-        A solved plan with ``led`` and ``timing`` sections.
-    time : ndarray
-        Times after the frame start, within one frame period. [s]
-
-    Returns
-    -------
-    ndarray
-        Junction temperature. [K]
-    """
-    from ..physics import thermal as th
-
-    led, rig = plan.led, plan.rig
-    width = plan.flash.width_s
-    spacing = led.flash_spacing_s
-    n = max(1, int(led.flashes_per_burst))
-    frame = led.frame_period_s if led.pattern == "burst" else spacing
-    first = _first_light(plan) if led.pattern == "burst" else 0.0
-    # Closed-form periodic sum: the work does not grow with the flashes per frame.
-    rise = th.periodic_burst_rise(time, led.heat_per_pulse_j / width, width, first, spacing,
-                                  n, frame, [t.resistance for t in rig.led.thermal],
-                                  [t.time_constant for t in rig.led.thermal])
-    return rig.led.ambient + rise
-
-
 # Most pulse edges drawn as extra samples per panel (the pulses nearest the burst's end,
 # where the peak is); the base grid adds 1500 samples. Bounds a plot's work and size.
 MAX_EDGE_SAMPLES = 3000
-
-
-def _first_light(plan) -> float:
-    """Start of the first flash's current after the frame start. [s]"""
-    t = plan.timing
-    first = t.first_flash_ticks if t.first_flash_ticks is not None else t.flash_edge_ticks
-    return first * t.tick_s + plan.flash.delay_s
 
 
 def plot_thermal(plan, ax=None):
@@ -415,7 +318,7 @@ def plot_thermal(plan, ax=None):
     n = max(1, int(led.flashes_per_burst))
     burst = led.pattern == "burst"
     frame = led.frame_period_s if burst else spacing  # the period of the heat pattern
-    t0 = _first_light(plan) if burst else 0.0
+    t0 = traces.first_light(plan) if burst else 0.0
     limit_c = led.junction_max_k - ZERO_CELSIUS
     peak_c = led.junction_peak_k - ZERO_CELSIUS
     mean_c = led.junction_mean_k - ZERO_CELSIUS
@@ -436,7 +339,7 @@ def plot_thermal(plan, ax=None):
         base = np.linspace(lo, hi, points)
         extra = np.concatenate([ends, ends - width, ends - 1e-3 * width])
         time = np.unique(np.concatenate([base, extra[(extra >= lo) & (extra <= hi)]]))
-        temp_c = junction_trace(plan, np.mod(time, frame)) - ZERO_CELSIUS
+        temp_c = traces.junction_trace(plan, np.mod(time, frame)) - ZERO_CELSIUS
         ax.plot(time, temp_c, color=INK, linestyle="-", label="junction (steady state)")
         ax.axhline(mean_c, color=GREY, linestyle=":",
                    label=f"mean {mean_c:.4g} \N{DEGREE SIGN}C")
@@ -699,23 +602,6 @@ def figure_bytes(fig, fmt: str, dpi: float = 150) -> bytes:
     return buf.getvalue()
 
 
-def image_response(plan, n: int = 401):
-    """(deflection, level) of the cutoff response: the mean signal in electrons per pixel per
-    frame against a steady deflection, over twice the measuring range each way. [rad, e-]"""
-    from ..physics import cutoff as cut_model
-
-    img, opt = plan.image, plan.rig.optics
-    unit = img.electrons_open
-    span = 2.0 * max(img.measuring_range_rad, abs(img.deflection_rad or 0.0))
-    eps = np.linspace(-span, span, n)
-    blur = cut_model.diffraction_blur(opt.light_wavelength, opt.cutoff_distance,
-                                      opt.mirror_diameter)
-    t = cut_model.transmission(opt.cutoff_distance * eps, img.source_image_m,
-                               opt.cutoff == "rod", opt.cut_fraction, opt.cutoff_width or 0.0,
-                               blur)
-    return eps, unit * np.asarray(t)
-
-
 def plot_image(plan, ax=None):
     """What the camera records: the cutoff's response and the grey-level budget.
 
@@ -735,7 +621,7 @@ def plot_image(plan, ax=None):
     cam = plan.rig.camera
     fig, top, bottom = _two_axes(ax)
     if top is not None:
-        eps, level = image_response(plan)
+        eps, level = traces.image_response(plan)
         share = np.minimum(level, img.full_well) / img.full_well
         top.plot(eps, share, color=INK, linestyle="-", label=f"{img.cutoff} cutoff")
         top.axhline(1.0, color=GREY, linestyle="--", label="full well")
