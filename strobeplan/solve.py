@@ -61,7 +61,8 @@ _NEEDS = {
 }
 
 
-def solve(rig, design: Design | None = None, *, checks: bool = True) -> Plan:
+def solve(rig, design: Design | None = None, *, checks: bool = True,
+          upto: str | None = None) -> Plan:
     """Compute every section the rig has inputs for, then run all rules.
 
     Parameters
@@ -74,6 +75,8 @@ def solve(rig, design: Design | None = None, *, checks: bool = True) -> Plan:
     checks : bool
         Run the rules into ``plan.findings`` (scalar designs; the search evaluates the rules
         itself over its grid).
+    upto : str, optional
+        Stop after the stage that fills this slot (e.g. "timing"), without the rules.
 
     Floating-point overflow in an absurd but valid rig becomes inf/nan in a figure (shown as
     null, with the checks saying why) rather than a warning on stderr.
@@ -89,6 +92,8 @@ def solve(rig, design: Design | None = None, *, checks: bool = True) -> Plan:
                     setattr(plan, name, section)
             else:
                 setattr(plan, slot, result)
+            if upto is not None and slot == upto:
+                return plan
         plan.skipped = {name: why for name, why in _NEEDS.items()
                         if getattr(plan, name) is None}
         if checks and design.is_scalar:

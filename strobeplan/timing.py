@@ -539,7 +539,8 @@ def drive_frequency(rig) -> float:
 def drive_section(rig, design, plan) -> DriveSection:
     """The drive stage: the emitter drive chain at the realised frequency (needs
     ``plan.air``). Independent of the design."""
-    return _chain(rig, drive_frequency(rig), plan.air.speed_of_sound_m_s)[0]
+    return _chain(rig, drive_frequency(rig), plan.air.speed_of_sound_m_s,
+                  getattr(plan, "field", None))[0]
 
 
 def compute(rig, design, plan) -> TimingSection:

@@ -89,7 +89,11 @@ def test_unsafe_bench_pulse_too_long():
     found = {f.code: f for f in plan.findings}
     assert "exposure.retention_low" in found
     f_drive = plan.timing.drive_frequency_hz
-    assert plan.exposure.retention == pytest.approx(abs(np.sinc(f_drive * 10e-6)), abs=1e-9)
+    # The current flows for the gate time plus the switch's turn-off minus turn-on delay
+    # (gate-charge model, switch section): that rectangle is what the image integrates.
+    w = 10e-6 + plan.switch.turn_off_delay_s - plan.switch.turn_on_delay_s
+    assert plan.flash.current_width_s == pytest.approx(w, rel=1e-12)
+    assert plan.exposure.retention == pytest.approx(abs(np.sinc(f_drive * w)), abs=1e-9)
     # The fix names the widest pulse: |sinc(f w)| = 0.9 at f w = 0.2504 (solved with
     # numpy below), 6.26 us at 40 kHz.
     grid = np.linspace(0.2, 0.3, 200001)
@@ -116,7 +120,8 @@ def test_retention_is_sinc_times_jitter_for_ideal_edges():
                                     "gate_driver.jitter_rms": "4 ns",
                                     "strobe.pulse_width": "2 us", **IDEAL_EDGES})
     f = plan.timing.drive_frequency_hz
-    expected = abs(np.sinc(f * 2e-6)) * math.exp(-2 * math.pi**2 * f**2 * (5e-9) ** 2)
+    w = 2e-6 + plan.switch.turn_off_delay_s - plan.switch.turn_on_delay_s  # the current's
+    expected = abs(np.sinc(f * w)) * math.exp(-2 * math.pi**2 * f**2 * (5e-9) ** 2)
     assert plan.exposure.retention == pytest.approx(expected, rel=1e-9)
     assert plan.exposure.jitter_rms_s == pytest.approx(5e-9)
 

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import dataclasses
 import math
 
 import numpy as np
@@ -10,7 +9,6 @@ import pytest
 
 from strobeplan.checks import RULES, load_all
 from strobeplan.design import Design
-from strobeplan.stages import image as image_stage
 from tests.conftest import plan_of
 
 H, C = 6.62607015e-34, 299792458.0  # SI 2019 exact
@@ -126,34 +124,28 @@ def test_object_pixel_override_within_tolerance_is_quiet():
 
 
 def test_stage_and_rules_on_an_array_design():
-    # The stage reads the design and the earlier sections with numpy: an array of pulse
-    # widths (and LED sections holding arrays) gives array fields equal, element by element,
-    # to the scalar computation; the rules return array conditions.
+    # The whole engine on an array of pulse widths (what tune does) gives, element by
+    # element, the figures of the scalar solve of each width; the rules return array
+    # conditions equal to check's findings.
+    from strobeplan.solve import solve
+
     load_all()
-    plan = plan_of("levitator-40k")
-    widths = np.array([0.1e-6, 0.5e-6, 1e-6])
-    design = Design.of(plan.rig).with_(pulse_width=widths)
-    arr = dataclasses.replace(plan)
-    arr.led = dataclasses.replace(plan.led, peak_current_a=np.full(3, plan.led.peak_current_a),
-                                  mean_current_a=np.full(3, plan.led.mean_current_a),
-                                  end_current_a=np.full(3, plan.led.end_current_a))
-    arr.image = image_stage.compute(plan.rig, design, arr)
-    assert arr.image.snr.shape == (3,)
+    rig = plan_of("levitator-40k").rig
+    clock = rig.controller.clock
+    widths = np.array([10, 50, 100]) / clock  # whole ticks
+    arr = solve(rig, Design.of(rig).with_(pulse_width=widths), checks=False)
+    assert np.shape(arr.image.snr) == (3,)
     for k, w in enumerate(widths):
-        one = image_stage.compute(plan.rig, Design.of(plan.rig).with_(pulse_width=w), plan)
-        assert arr.image.electrons_per_frame[k] == pytest.approx(one.electrons_per_frame)
-        assert arr.image.snr[k] == pytest.approx(one.snr)
-    # light scales with the pulse width here (same currents): 10x shorter, 10x fewer e-
-    assert arr.image.electrons_per_frame[0] * 10 == pytest.approx(
-        arr.image.electrons_per_frame[2])
-    hit = RULES["image.too_dark"].func(arr)
-    assert np.asarray(hit.when).tolist() == [True, False, False]
-    for code in ("image.snr_low", "image.overexposed", "image.cutoff_saturated",
-                 "led.optical_exceeds_electrical"):
-        when = np.asarray(RULES[code].func(arr).when)
-        assert when.shape in ((), (3,)) and when.dtype == bool, code
-    arr.eye = image_stage.compute_eye(plan.rig, design, arr)
-    assert np.shape(arr.eye.time_to_limit_s) == (3,)
+        one = solve(rig, Design.of(rig).with_(pulse_width=float(w)))
+        assert arr.image.electrons_per_frame[k] == pytest.approx(one.image.electrons_per_frame,
+                                                                 rel=1e-9)
+        assert arr.image.snr[k] == pytest.approx(one.image.snr, rel=1e-9)
+        fired = {f.code for f in one.findings if f.code.startswith("image.")}
+        for code in ("image.too_dark", "image.snr_low", "image.overexposed"):
+            hit = RULES[code].func(arr)
+            when = np.broadcast_to(np.asarray(hit.when if hit else False), (3,))
+            assert bool(when[k]) == (code in fired), (code, k)
+    assert np.shape(arr.eye.time_to_limit_s) in ((), (3,))
 
 
 def test_report_cautions_cite_the_eye_estimate():

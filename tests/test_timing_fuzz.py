@@ -24,9 +24,8 @@ from hypothesis import strategies as st
 from strobeplan import timing
 from strobeplan.checks import run_checks
 from strobeplan.errors import RigError
-from strobeplan.plan import Plan
 from strobeplan.rig import rig_from_dict
-from strobeplan.stages import air, flash, link
+from strobeplan.solve import solve
 from tests.conftest import EXAMPLES, patched
 
 RIGS_PER_TEST = 700  # four tests: 2,800 rigs drawn
@@ -82,11 +81,7 @@ def timing_rig(draw, base: str):
 
 
 def _timing_plan(rig):
-    plan = Plan(rig=rig)
-    air.build(rig, plan)
-    flash.build(rig, plan)
-    link.build(rig, plan)
-    plan.lock = timing.build(rig, plan)
+    plan = solve(rig, upto="timing")  # the stages the timing needs, not the power stage
     plan.findings = run_checks(plan, only=("timing.",))
     return plan
 

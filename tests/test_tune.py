@@ -310,7 +310,10 @@ def test_nothing_feasible_names_the_rule(tmp_path):
     assert r.exit_code == 1
     data = json.loads(r.stdout)
     assert data["best"] is None
-    assert data["excluded"]["led.thermal_margin_low"] == data["candidates"]
+    # every candidate has a margin under 150 K: a thin margin (or a junction over its limit)
+    thin = data["excluded"].get("led.thermal_margin_low", 0)
+    over = data["excluded"].get("led.junction_over_limit", 0)
+    assert thin > 0 and thin + over >= data["candidates"]
     assert "change (led.thermal_margin_low):" in data["explanation"]
     assert "largest thermal margin on the grid" in data["explanation"]
     assert not out.exists()

@@ -224,16 +224,16 @@ def pulse_below_tick(plan):
               "less than others (a 1/n brightness flicker)",
       fix="shorten or lengthen camera.exposure by half a flash period, or use a camera with "
           "a steadier trigger",
-      example=("levitator-40k", {"camera.trigger_jitter": "1 us", "camera.exposure": "1.003 ms"}))
+      example=("levitator-40k", {"camera.trigger_jitter": "1 us",
+                                 "camera.exposure": "1.003 ms"}))
 def trigger_jitter_flicker(plan):
     t, cam = plan.timing, plan.rig.camera
     if cam is None or cam.trigger_jitter <= 0 or t.window_end_margin_s is None:
         return None
-    if t.window_end_margin_s >= 3.0 * cam.trigger_jitter:
-        return None
     n = t.flashes_per_frame
+    margin = np.asarray(t.window_end_margin_s, dtype=float)
     return Hit(lambda: f"the exposure ends {render(t.window_end_margin_s, 'time')} from a "
                        f"flash edge, within 3 sigma of the trigger jitter "
                        f"({render(cam.trigger_jitter, 'time')} RMS): frames flicker by "
                        f"1/{n}", value=t.window_end_margin_s, limit=3.0 * cam.trigger_jitter,
-               unit="s")
+               unit="s", when=margin < 3.0 * cam.trigger_jitter)

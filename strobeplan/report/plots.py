@@ -313,7 +313,7 @@ def plot_thermal(plan, ax=None):
     _need(plan, "timing", "thermal")
     rig = plan.rig
     fig, ax_frame, ax_zoom = _two_axes(ax)
-    width = plan.flash.width_s
+    width = plan.flash.current_width_s  # the current's duration (gate plus switch delays)
     spacing = led.flash_spacing_s
     n = max(1, int(led.flashes_per_burst))
     burst = led.pattern == "burst"

@@ -83,6 +83,7 @@ def compute(rig, design, plan) -> ExposureSection:
         harmonics = f * np.arange(1, rig.wave.harmonics + 1)
         by_harmonic = [float(r) for r in
                        model.retention(harmonics, width, rise, fall, w, tau, sigma, smear)]
+        retention = by_harmonic[0]  # the same number in both places of the JSON
         widest = float(model.max_pulse_width(f, target, rise, fall, w, tau, sigma, smear))
         widest = widest if np.isfinite(widest) else None
         energy = float(model.energy_duration(width, rise, fall, w, tau, 0.9))
