@@ -156,8 +156,11 @@ def test_user_strings_stay_escaped(tmp_path):
 
 @pytest.mark.slow
 def test_byte_identical_rebuild(pages):
+    from strobeplan.tune import tune
+
     path, plan = pages["unsafe-bench"]
-    again = report_html(plan, rig_text=example("unsafe-bench").read_text(encoding="utf-8"))
+    again = report_html(plan, rig_text=example("unsafe-bench").read_text(encoding="utf-8"),
+                        tune_result=tune(plan.rig))
     assert again.encode("utf-8") == path.read_bytes()
 
 
