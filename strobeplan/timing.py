@@ -268,7 +268,7 @@ def flash_step(frequency: float, clock: float, period_ticks: int, flash_ticks: i
     Slow motion adds 2 pi s / N_d per flash; separate clocks slip by the tolerance times
     the flash period (worst case, one sign). Both add, so one phasor sum holds both.
     """
-    step = TWO_PI * (slow_step or 0) / period_ticks
+    step = TWO_PI * np.asarray(0 if slow_step is None else slow_step) / period_ticks
     return step + TWO_PI * clock_tolerance * frequency * flash_ticks / clock
 
 
