@@ -29,7 +29,7 @@ if TYPE_CHECKING:
     from .stages.optics import OpticsSection
     from .stages.power import LedSection, StuckOnSection, SupplySection, SwitchSection
     from .stages.timer import TimerSection
-    from .timing import DriveSection, TimingSection
+    from .stages.timing import DriveSection, TimingSection
 
 from .physics.air import ZERO_CELSIUS  # [K] 0 degC, written once (physics/air.py)
 

@@ -24,6 +24,7 @@ from .stages import link as link_stage
 from .stages import optics as optics_stage
 from .stages import power as power_stage
 from .stages import timer as timer_stage
+from .stages import timing as timing_stage
 
 # (stage function, the slot it fills, or None when it returns a dict of slots). Order
 # matters: air and flash and the trigger link (its edge's delay to the camera's VIH) feed
@@ -33,8 +34,8 @@ STAGES = (
     (field_stage.compute, "field"),  # the phase at the view: before the timing core
     (flash_stage.compute, "flash"),
     (link_stage.compute, None),
-    (timing.drive_section, "drive"),
-    (timing.compute, "timing"),
+    (timing_stage.drive_section, "drive"),
+    (timing_stage.compute, "timing"),
     (timer_stage.compute, "timer"),
     (exposure_stage.compute, "exposure"),
     (banding_stage.compute, "banding"),

@@ -192,7 +192,7 @@ def test_text_labels_and_units():
 
     from strobeplan.report.text import label_and_value
     from strobeplan.stages.power import LedSection
-    from strobeplan.timing import DriveSection, TimingSection
+    from strobeplan.stages.timing import DriveSection, TimingSection
 
     def spec(cls, name):
         return next(f for f in fields(cls) if f.name == name)

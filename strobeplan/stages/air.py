@@ -26,7 +26,7 @@ class AirSection(Section):
 def compute(rig, design, plan) -> AirSection:
     """The air section (needs nothing earlier; the drive frequency comes from the timer
     synthesis, which depends on the rig alone)."""
-    from ..timing import drive_frequency
+    from .timing import drive_frequency
 
     a = rig.air
     if rig.wave.speed is not None:
