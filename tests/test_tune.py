@@ -172,8 +172,8 @@ def test_memory_is_bounded_by_the_chunk(levitator):
     import tracemalloc
 
     rig, base = levitator
-    grid = tuner.default_grid(rig, base, widths=120, series="E96", max_every=4)
-    assert grid.size > 60_000
+    grid = tuner.default_grid(rig, base, widths=30, series="E96", max_every=4)
+    assert grid.size > 30_000
     peaks = []
     for chunk in (1 << 12, grid.size):
         tracemalloc.start()
