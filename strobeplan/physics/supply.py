@@ -565,21 +565,20 @@ def stuck_on_transient(supply_voltage, capacitance, esr, series_resistor, on_res
             flat_c = np.ravel_multi_index(cpos, pad)
         else:
             flat_c = np.zeros(todo.size, dtype=np.intp)
-        heat2 = heat.reshape(-1, heat.shape[-1])[flat_c]
-        dt2 = dt.reshape(-1, dt.shape[-1])[flat_c]
-        grid2 = grid.reshape(-1, grid.shape[-1])[flat_c]
-        zero2 = zero.reshape(-1, *zero.shape[-2:])[flat_c]
-        free2 = free.reshape(-1, *free.shape[-2:])[flat_c]
+        steps = heat.shape[-1]
         share2 = share.reshape(-1, share.shape[-1])[flat_c]
         r2 = r.reshape(-1, r.shape[-1])[flat_c]
         tau2 = tau.reshape(-1, tau.shape[-1])[flat_c]
-        rows = np.arange(todo.size)
         r0 = rise0.ravel()[todo]
         lim = allowed.ravel()[todo]
-        b_p, b_dt = heat2[rows, k], dt2[rows, k]
+        # only the crossing interval's entries (no per-candidate copies of the whole grid)
+        b_p = heat.reshape(-1, steps)[flat_c, k]
+        b_dt = dt.reshape(-1, steps)[flat_c, k]
+        b_grid = grid.reshape(-1, steps)[flat_c, k]
         prev = np.maximum(k - 1, 0)
-        start_state = np.where((k > 0)[:, None],
-                               zero2[rows, prev] + r0[:, None] * share2 * free2[rows, prev],
+        zero_prev = zero.reshape(-1, steps, zero.shape[-1])[flat_c, prev]
+        free_prev = free.reshape(-1, steps, free.shape[-1])[flat_c, prev]
+        start_state = np.where((k > 0)[:, None], zero_prev + r0[:, None] * share2 * free_prev,
                                r0[:, None] * share2)
         lo, up = np.zeros(todo.size), b_dt.copy()
         for _ in range(60):
@@ -587,7 +586,7 @@ def stuck_on_transient(supply_voltage, capacitance, esr, series_resistor, on_res
             above = np.sum(foster_advance(start_state, b_p, mid, r2, tau2), axis=-1) >= lim
             up, lo = np.where(above, mid, up), np.where(above, lo, mid)
         np.put(hi, todo, up)
-        np.put(b_t, todo, grid2[rows, k] - b_dt)
+        np.put(b_t, todo, b_grid - b_dt)
     t_cross = np.where(rise0 >= allowed, 0.0, np.where(crossed, b_t + hi, np.inf))
     t_amb = np.broadcast_to(t_amb, shape)
     i0, i_ss, rser, pulse_energy = (np.broadcast_to(x, shape) for x in (i0, i_ss, rser,
