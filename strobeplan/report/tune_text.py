@@ -33,6 +33,10 @@ def result_text(result, frontier_rows: int = 12) -> str:
              f"{result.feasible} feasible (check does not fail them and none of "
              f"{', '.join(AVOID)} fires; retention >= {result.min_retention:.4g}, thermal "
              f"margin >= {result.min_margin:.3g} K)"]
+    if not result.objective.startswith("image SNR") and result.plan is not None \
+            and "image" in result.plan.skipped:
+        needs = result.plan.skipped["image"]
+        lines.append(f"  (ranked by light per frame: the image's SNR {needs})")
     b = result.best
     if b is None:
         lines.append("no feasible design")

@@ -15,7 +15,6 @@ Oracles:
 
 import math
 import re
-import shutil
 import subprocess
 
 import numpy as np
@@ -27,6 +26,7 @@ from scipy.integrate import solve_ivp
 from scipy.optimize import brentq
 
 from strobeplan.physics import led, supply
+from tests.conftest import need_program
 
 ZERO_C = 273.15  # [K]
 
@@ -207,9 +207,7 @@ def _ngspice_stuck(p, times, horizon, tmp_path):
     """Debian ngspice: the gate held on from t = 0 (the switch as its on-resistance), the
     boost a current source at its limit; the LED current at ``times`` and the series
     resistor's energy above the steady dissipation up to ``horizon``."""
-    exe = shutil.which("ngspice")
-    if exe is None:
-        pytest.skip("ngspice not installed (Debian package ngspice; .ci/run installs it)")
+    exe = need_program("ngspice", "ngspice")  # skipped with the reason; a failure in CI
     n = p["n_vt"] / float(led.thermal_voltage(298.15))
     i_ss = supply.stuck_on_state(p["supply_voltage"], p["current_limit"],
                                  p["series_resistor"], p["on_resistance"], p["n_vt"],
