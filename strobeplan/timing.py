@@ -196,30 +196,6 @@ def reduce_delay(delay: float, clock: float, period_ticks: int) -> float:
     return 0.0 if reduced >= period_ticks / clock else reduced  # a hair below: rounds up
 
 
-def dirichlet_smear(n, step):
-    """Contrast kept when n equal flashes land at phases spaced by ``step`` (Dirichlet).
-
-    Parameters
-    ----------
-    n : int or ndarray
-        Flashes averaged in one image.
-    step : float or ndarray
-        Phase advance between consecutive flashes. [rad]
-
-    Returns
-    -------
-    float or ndarray
-        |sin(n step/2) / (n sin(step/2))|, 1 for n <= 1 or step = 0. [1]
-    """
-    n = np.asarray(n, dtype=float)
-    half = 0.5 * np.asarray(step, dtype=float)
-    den = n * np.sin(half)
-    flat = (n <= 1) | (np.abs(np.sin(half)) < 1e-15)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        ratio = np.abs(np.sin(n * half) / np.where(flat, 1.0, den))
-    return scalar(np.where(flat, 1.0, ratio))
-
-
 def phasor_mean(first_phase: float, step: float, n: int) -> tuple[float, float]:
     """Phase and magnitude of the mean of n unit phasors e^{j (first + k step)}, k < n.
 

@@ -107,14 +107,14 @@ def test_choose_drive_exact_and_rounded():
     assert (m, n) == (1, 276)
 
 
-def test_dirichlet_smear_limits():
+def test_phasor_mean_smear_limits():
     # Mean of n phasors spread evenly over a full turn is zero; n = 1 keeps everything.
-    assert timing.dirichlet_smear(8, 2 * math.pi / 8) == pytest.approx(0.0, abs=1e-12)
-    assert timing.dirichlet_smear(1, 1.0) == 1.0
+    assert timing.phasor_mean(0.0, 2 * math.pi / 8, 8)[1] == pytest.approx(0.0, abs=1e-12)
+    assert timing.phasor_mean(0.0, 1.0, 1)[1] == 1.0
     # Brute force: |mean(exp(j k d))|.
     d = 0.07
     brute = abs(np.mean(np.exp(1j * d * np.arange(17))))
-    assert timing.dirichlet_smear(17, d) == pytest.approx(brute, rel=1e-12)
+    assert timing.phasor_mean(0.0, d, 17)[1] == pytest.approx(brute, rel=1e-12)
 
 
 def _rig(clock, freq, every=1, phase_deg=0.0, distance=0.1, pulse=None, sweep=None,

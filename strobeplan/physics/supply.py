@@ -128,55 +128,6 @@ def recharge_time(capacitance, voltage_drop, current_limit):
                         0.0)
 
 
-class BurstDroop(NamedTuple):
-    """Capacitor sag across a burst [V]: before_last (below the set point when the last
-    flash starts) and at_end (at the end of the last flash)."""
-
-    before_last: np.ndarray
-    at_end: np.ndarray
-
-
-def burst_droop(charge, capacitance, recharge_current, width, spacing, n_pulses):
-    """Capacitor sag across a burst, the boost recharging at its limit between flashes.
-
-    Each flash draws ``charge`` of which the boost supplies ``Ib*tp`` during the flash;
-    between flashes (``spacing - width``) the boost returns ``Ib*(s - tp)`` but never above
-    the set point. The net loss per flash period is ``max(Q - Ib*s, 0)/C``, so before the
-    last of ``n`` flashes the sag is ``(n - 1)`` times that. The charge per flash is held
-    at its full-voltage value: a sagging capacitor drives less current, so this
-    over-estimates the sag (conservative).
-
-    Parameters
-    ----------
-    charge : float or ndarray
-        Charge through the LED per flash at full voltage. [C]
-    capacitance : float or ndarray
-        Storage capacitance. [F]
-    recharge_current : float or ndarray
-        Boost current limit. [A]
-    width : float or ndarray
-        Flash width. [s]
-    spacing : float or ndarray
-        Start-to-start spacing of the flashes in a burst. [s]
-    n_pulses : int or ndarray
-        Flashes per burst. [1]
-
-    Returns
-    -------
-    BurstDroop
-        Sag before the last flash and at the end of the burst. [V]
-
-    References
-    ----------
-    1. Charge balance ``C dV = (Ib - I) dt`` per flash period.
-    """
-    q, c, ib = _f(charge), _f(capacitance), _f(recharge_current)
-    per_flash = np.maximum(q - ib * spacing, 0.0) / c
-    single = np.maximum(q - ib * _f(width), 0.0) / c
-    before = (np.maximum(_f(n_pulses), 1.0) - 1.0) * per_flash
-    return BurstDroop(before, before + single)
-
-
 class BurstSag(NamedTuple):
     """Flash-by-flash burst: before_last [V] and at_end [V] (capacitor sag below the set
     point), first_current and last_current [A] (peak current of the first and last flash)."""

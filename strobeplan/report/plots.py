@@ -618,7 +618,6 @@ def plot_image(plan, ax=None):
                        "quantum_efficiency, full_well and read_noise")
     from ..stages.image import TOO_DARK
 
-    cam = plan.rig.camera
     fig, top, bottom = _two_axes(ax)
     if top is not None:
         eps, level = traces.image_response(plan)
@@ -641,12 +640,12 @@ def plot_image(plan, ax=None):
             else ""
         top.set_title(f"Cutoff response{note}")
         top.legend(loc="best", fontsize="small")
-    q = cam.full_well / 2.0 ** cam.bit_depth / math.sqrt(12.0)
     rows = [("background", img.electrons_per_frame),
             ("wave signal", img.signal_electrons or 0.0),
             ("noise (total)", img.noise_electrons),
-            ("shot noise", math.sqrt(max(img.electrons_per_frame, 0.0))),
-            ("read noise", cam.read_noise), ("quantisation", q),
+            ("shot noise", img.shot_noise_electrons),
+            ("read noise", img.read_noise_electrons),
+            ("quantisation", img.quantisation_noise_electrons),
             ("full well", img.full_well)]
     names = [r[0] for r in rows]
     values = np.maximum([float(r[1]) for r in rows], 1e-3)

@@ -91,6 +91,9 @@ class ImageSection(Section):
     sensor_saturated: bool | None = q(default=None)
     signal_electrons: float | None = q("e-", default=None)
     noise_electrons: float | None = q("e-", default=None)
+    shot_noise_electrons: float | None = q("e-", default=None)
+    read_noise_electrons: float | None = q("e-", default=None)
+    quantisation_noise_electrons: float | None = q("e-", default=None)
     snr: float | None = q(default=None)
     snr_binned: float | None = q(default=None)
     binning: int | None = q(default=None)
@@ -321,6 +324,11 @@ def _light_budget(rig, design, plan, section, img_w, img_h, lens_pass, retention
                              < TOO_DARK * cam.full_well)
     section.sensor_saturated = _flag(peak_level >= cam.full_well)
     section.noise_electrons = _val(noise)
+    # the parts of that noise (EMVA 1288): shot, read and quantisation, for the budget
+    section.shot_noise_electrons = _val(np.sqrt(np.maximum(mean_e, 0.0)))
+    section.read_noise_electrons = cam.read_noise
+    section.quantisation_noise_electrons = _val(cam_model.quantisation_noise(cam.full_well,
+                                                                             cam.bit_depth))
     section.binning = cam.binning
     section.average_frames = cam.average_frames
     section.min_snr = opt.min_snr

@@ -130,29 +130,6 @@ def test_foster_advance_chained_against_solve_ivp():
     assert_allclose(many.sum(axis=-1), np.array([1.0, 2.0, 3.0]) * R.sum(), rtol=1e-15)
 
 
-def test_step_time_to_rise_against_solve_ivp_event():
-    power, target = 5.0, 3.0  # final rise 5 K; 3 K is reached
-    ev = lambda _t, y: y.sum() - target  # noqa: E731
-    ev.terminal = True
-    sol = solve_ivp(lambda _t, y: (power * R - y) / TAU, (0.0, 1.0), np.zeros(4),
-                    method="Radau", rtol=1e-11, atol=1e-14, events=ev)
-    assert_allclose(th.step_time_to_rise(power, target, R, TAU), sol.t_events[0][0], rtol=1e-6)
-
-
-def test_step_time_to_rise_never_and_zero():
-    out = th.step_time_to_rise(np.array([1.0, 1.0, 1.0]), np.array([-1.0, 1.0, 2.0]), R, TAU)
-    # Rth = 1 K/W: 1 W never exceeds 1 K (asymptote), let alone 2 K
-    assert out[0] == 0.0 and np.isinf(out[1]) and np.isinf(out[2])
-
-
-@BOUNDED
-@given(p=st.floats(0.01, 100), frac=st.floats(0.001, 0.999))
-def test_step_time_to_rise_inverts_zth(p, frac):
-    rise = frac * p * R.sum()
-    t = th.step_time_to_rise(p, rise, R, TAU)
-    assert_allclose(p * th.zth(t, R, TAU), rise, rtol=1e-10)
-
-
 @BOUNDED
 @given(log_width=st.floats(-7, -3), duty=st.floats(1e-4, 1.0))
 def test_exact_never_exceeds_shortcut(log_width, duty):
@@ -178,21 +155,6 @@ def test_burst_peak_monotone(p, log_width, n, spacing_factor, k):
     assert th.burst_peak(p * k, width, spacing, n, frame, R, TAU) >= base * (1 - 1e-12)
     assert th.burst_peak(p, width * k, spacing, n, frame, R, TAU) >= base * (1 - 1e-12)
     assert th.burst_peak(p, width, spacing, n + 1, frame, R, TAU) >= base * (1 - 1e-12)
-
-
-def test_burst_trace_peak_matches_exact_burst_peak():
-    # The sampled steady-state trace (superposition) peaks at the exact closed form of burst_peak;
-    # network of docs/references.md, "Power stage" (R = [0.05, 0.2, 0.5, 0.25] K/W, tau = [10 us,
-    # 100 us, 1 ms, 10 ms]); 8 pulses of 10 us every 100 us, frames of 5 ms.
-    r = [0.05, 0.2, 0.5, 0.25]
-    tau = [10e-6, 100e-6, 1e-3, 10e-3]
-    starts = 1e-4 * np.arange(8)
-    end_last = starts[-1] + 10e-6
-    time = np.concatenate([np.linspace(0, 5e-3, 4001), [end_last]])
-    trace = th.burst_trace(time, 10.0, 10e-6, starts, 5e-3, r, tau)
-    exact = th.burst_peak(10.0, 10e-6, 1e-4, 8, 5e-3, r, tau)
-    assert trace.max() == pytest.approx(exact, rel=1e-4)
-    assert time[np.argmax(trace)] == pytest.approx(end_last, abs=2e-6)
 
 
 def _brute_burst(t, power, width, starts, frame, r, tau):
