@@ -210,6 +210,7 @@ class View(_Model):
     centre: Point | None = None
     width: Q("length", gt=0) | None = None
     height: Q("length", gt=0) | None = None
+    depth: Q("length", gt=0) | None = None
     light_axis: Direction = (1.0, 0.0, 0.0)
     samples: Count(ge=2, le=4096) = 64
 

@@ -65,6 +65,8 @@ MEANINGS = {
     "view.centre": "Centre of the imaged region (preview, analyse).",
     "view.width": "Width of the imaged region.",
     "view.height": "Height of the imaged region.",
+    "view.depth": "Span of the light's path through the sound field, centred on the view "
+                  "(default: the larger of width and height).",
     "view.light_axis": "Direction of the light through the test region.",
     "view.samples": "Samples along the light axis (preview).",
     "emitter.static_capacitance": "Clamped capacitance C0 of the transducer.",
