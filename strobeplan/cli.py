@@ -329,6 +329,9 @@ def report(rig, output):
 @click.option("--min-margin", default=None, metavar="KELVIN",
               help="Smallest thermal margin to the junction limit, e.g. 10K  "
                    "[default: led.min_margin]")
+@click.option("--max-blur", default=None, metavar="PX",
+              help="Largest motion of a travelling wave during the flash, in pixels at the "
+                   "object, e.g. 2  [default: camera.max_blur, 2]")
 @click.option("--series", type=click.Choice(["E3", "E6", "E12", "E24", "E48", "E96", "E192"],
                                             case_sensitive=False),
               default="E24", show_default=True, help="E-series of the series resistor.")
@@ -345,7 +348,7 @@ def report(rig, output):
 @click.option("--json", "as_json", is_flag=True, help="Print the result JSON (and nothing else).")
 @click.option("--write-rig", "write_rig", type=click.Path(), default=None, metavar="FILE",
               help="Write the tuned rig (the input with the chosen values) to FILE.")
-def tune(rig, min_retention, min_margin, series, resistor_range, max_every, supply_range,
+def tune(rig, min_retention, min_margin, max_blur, series, resistor_range, max_every, supply_range,
          supply_steps, widths, as_json, write_rig):
     """Search pulse width, series resistor, `every` (and supply voltage) for the most light
     per frame that still freezes the wave and keeps every part within its ratings.
@@ -369,7 +372,8 @@ def tune(rig, min_retention, min_margin, series, resistor_range, max_every, supp
         model = loads_rig(data, where=where)  # refuses non-UTF-8 text with one line
         text = data.decode("utf-8").removeprefix("\ufeff")
         limits, grid_options = tuner.search_options(
-            model, min_retention=min_retention, min_margin=min_margin, series=series,
+            model, min_retention=min_retention, min_margin=min_margin, max_blur=max_blur,
+            series=series,
             resistor_range=resistor_range, max_every=max_every, supply_range=supply_range,
             supply_steps=supply_steps, widths=widths)
         bar = _LazyBar(time.perf_counter())
@@ -381,7 +385,7 @@ def tune(rig, min_retention, min_margin, series, resistor_range, max_every, supp
             from .io import write_atomic
 
             write_atomic(write_rig, tuned_rig_text(text, result.best, limits.min_retention,
-                                                   limits.min_margin), rig)
+                                                   limits.min_margin, limits.max_blur), rig)
     if as_json:
         click.echo(json.dumps(result.to_json(), indent=2))
     else:

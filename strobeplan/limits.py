@@ -23,6 +23,7 @@ OPTIONS: dict[str, str | tuple[str, dict[str, float]]] = {
     "--edge-limit": ("time", {"gt": 0.0, "le": 1.0}),
     "--min-retention": "strobe.min_retention",
     "--min-margin": ("temperature_difference", {"ge": 0.0, "lt": 300.0}),
+    "--max-blur": "camera.max_blur",
     "--resistor-range": "supply.series_resistor",
     "--supply-range": "supply.voltage",
 }
@@ -77,6 +78,11 @@ def option_value(option: str, text: str) -> float:
 
     kind = option_kind(option)
     value: Any = text
+    if kind is None and isinstance(text, str):  # a plain number as typed on the command line
+        try:
+            value = float(text)
+        except ValueError:
+            pass
     if kind == "resistance" and isinstance(text, str):
         try:
             units.parse(text, kind)

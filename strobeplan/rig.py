@@ -376,6 +376,7 @@ class Camera(_Model):
     trigger_input: TriggerInput | None = None
     trigger: Literal["input", "none"] = "input"
     object_pixel: Q("length", gt=0) | None = None
+    max_blur: Number(gt=0, le=1000) = 2.0
     bit_depth: Count(ge=1, le=24) = 8
     pixel_pitch: Q("length", gt=0, lt=1e-3) | None = None
     width_px: Count(ge=1) | None = None

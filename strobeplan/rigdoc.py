@@ -204,6 +204,9 @@ MEANINGS = {
     "camera.lens": "The camera lens behind the cutoff, focused on the test region.",
     "camera.lens.focal_length": "Lens focal length.",
     "camera.lens.f_number": "Lens f-number (its pupil must pass the source image).",
+    "camera.max_blur": "Largest motion of a travelling wave during the flash, in pixels at "
+                        "the object (default 2 px, common practice: about the sampling "
+                        "limit of two pixels per feature); tune's --max-blur overrides it.",
     "camera.binning": "Side of the square of pixels summed for the stated SNR (default 1).",
     "camera.average_frames": "Frames averaged for the stated SNR (default 1).",
     "camera.trigger": "'input': the controller triggers each frame; 'none': free-running "

@@ -89,13 +89,14 @@ def edit_rig_text(text: str, values: dict[tuple[str, str], str]) -> str:
 
 
 def tuned_rig_text(text: str, candidate, min_retention: float | None = None,
-                   min_margin: float | None = None) -> str:
+                   min_margin: float | None = None, max_blur: float | None = None) -> str:
     """The user's TOML with a tuned candidate's values (comments and layout kept).
 
     ``strobe.pulse_width``, ``strobe.every``, ``supply.series_resistor`` and
-    ``supply.voltage`` are rewritten when they change; ``min_retention`` / ``min_margin``
-    (given when the search's targets differ from the rig's) go to ``strobe.min_retention``
-    and ``led.min_margin``. The result is re-read and compared with the candidate.
+    ``supply.voltage`` are rewritten when they change; ``min_retention`` / ``min_margin`` /
+    ``max_blur`` (given when the search's targets differ from the rig's) go to
+    ``strobe.min_retention``, ``led.min_margin`` and ``camera.max_blur``.
+    The result is re-read and compared with the candidate.
     """
     from .rig import loads_rig
 
@@ -115,6 +116,8 @@ def tuned_rig_text(text: str, candidate, min_retention: float | None = None,
         values[("strobe", "min_retention")] = f'"{min_retention * 100:.6g} %"'
     if min_margin is not None:
         values[("led", "min_margin")] = f'"{min_margin:.6g} K"'
+    if max_blur is not None:
+        values[("camera", "max_blur")] = f"{max_blur:.6g}"
     new = edit_rig_text(text, values)
     rig = loads_rig(new)
     got = (rig.strobe.pulse_width, rig.strobe.every, rig.supply.series_resistor,

@@ -27,11 +27,14 @@ class Limits:
 
     min_retention: float | None = None
     min_margin: float | None = None
+    max_blur: float | None = None
 
     def apply(self, rig):
         """The rig with these targets written in (``strobe.min_retention``,
-        ``led.min_margin``); the rig itself when both are None."""
+        ``led.min_margin``, ``camera.max_blur``); the rig itself when all are None."""
         update = {}
+        if self.max_blur is not None and rig.camera is not None:
+            update["camera"] = rig.camera.model_copy(update={"max_blur": float(self.max_blur)})
         if self.min_retention is not None:
             update["strobe"] = rig.strobe.model_copy(
                 update={"min_retention": float(self.min_retention)})
@@ -130,6 +133,7 @@ class TuneResult:
     refined_from: float | None = None  # [s] the grid's best width before the refinement
     rejected_by_check: list[dict] = field(default_factory=list)
     plan: Any = None  # the solved Plan of the best rig
+    max_blur: float | None = None  # [px] camera.max_blur of the search (None: no camera)
 
     def to_json(self) -> dict:
         from .plan import jsonable
@@ -143,7 +147,8 @@ class TuneResult:
             "candidates": self.candidates, "feasible": self.feasible, "seconds": self.seconds,
             "objective": self.objective,
             "light_unit": "A s (LED current integrated over the optical pulse, per frame)",
-            "limits": {"min_retention": self.min_retention, "min_margin_k": self.min_margin},
+            "limits": {"min_retention": self.min_retention, "min_margin_k": self.min_margin,
+                       "max_blur_px": self.max_blur},
             "avoided_warnings": list(AVOID),
             "grid": {"pulse_width_min_s": float(g.widths[0]),
                      "pulse_width_max_s": float(g.widths[-1]),
@@ -202,7 +207,7 @@ def default_grid(rig, plan, *, widths: int = 160, series: str = "E24",
                 voltages=v, series=series)
 
 
-def search_options(rig, *, min_retention=None, min_margin=None, series="E24",
+def search_options(rig, *, min_retention=None, min_margin=None, max_blur=None, series="E24",
                    resistor_range=("0.1 ohm", "100 ohm"), max_every=8, supply_range=None,
                    supply_steps=13, widths=160) -> tuple[Limits, dict]:
     """Validate the search options (texts with units, as typed) into Limits and the keyword
@@ -217,6 +222,7 @@ def search_options(rig, *, min_retention=None, min_margin=None, series="E24",
 
     ret = None if min_retention is None else option_value("--min-retention", min_retention)
     margin = None if min_margin is None else option_value("--min-margin", min_margin)
+    blur = None if max_blur is None else option_value("--max-blur", max_blur)
     grid = {"widths": int(widths), "series": series.upper(),
             "resistor_range": option_range("--resistor-range", resistor_range),
             "max_every": int(max_every), "supply_steps": int(supply_steps)}
@@ -229,6 +235,6 @@ def search_options(rig, *, min_retention=None, min_margin=None, series="E24",
                                      max_every=grid["max_every"],
                                      supply_range=grid.get("supply_range"),
                                      supply_steps=grid["supply_steps"]))
-    return Limits(min_retention=ret, min_margin=margin), grid
+    return Limits(min_retention=ret, min_margin=margin, max_blur=blur), grid
 
 

@@ -15,8 +15,9 @@ verdict is therefore ``check``'s verdict of the rig with that design written in.
 is *feasible* when its verdict is not "fail" and it trips none of the warnings in
 :data:`AVOID` (legal, but not what a practitioner would choose: a thin thermal margin, an
 extrapolated pulse rating, a capacitor that does not recharge between bursts, a blurred
-wave). ``--min-retention`` and ``--min-margin`` set the rig's own ``strobe.min_retention``
-and ``led.min_margin`` for the search (and for the written rig), so they are one limit too.
+wave). ``--min-retention``, ``--min-margin`` and ``--max-blur`` set the rig's own
+``strobe.min_retention``, ``led.min_margin`` and ``camera.max_blur`` for the search (and for
+the written rig), so they are one limit too.
 
 Objective (:func:`objective`): the wave's signal-to-noise ratio per pixel per frame
 (``image.snr``) when the rig models the camera, else the light per frame
@@ -271,7 +272,8 @@ def tune(rig, limits: Limits | None = None, grid: Grid | None = None, *,
         excluded=excluded, only_excluded=only, best_reached=reached, explanation=explanation,
         grid=grid, min_retention=rig.strobe.min_retention, min_margin=rig.led.min_margin,
         cloud=cloud, objective=goal or "light per frame [A s]", refined_from=refined_from,
-        rejected_by_check=rejected, plan=best_plan)
+        rejected_by_check=rejected, plan=best_plan,
+        max_blur=rig.camera.max_blur if rig.camera is not None else None)
 
 
 def _pick(rig, grid: Grid, flat: int) -> Candidate:

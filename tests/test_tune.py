@@ -361,3 +361,57 @@ def test_bad_options_exit_2_without_traceback(args):
     r = run_cli("tune", LEVITATOR, *args)
     assert r.exit_code == 2
     assert "Traceback" not in r.output
+
+
+def test_best_is_the_clearest_feasible_image_of_a_brute_force_subsample():
+    # Oracle: the scalar path. Every candidate of a small rangefinder grid (travelling wave:
+    # the blur limit binds) is written into the rig and solved; among those check does not
+    # fail and that trip none of AVOID, the one with the highest image SNR per pixel per
+    # frame (ties to the larger thermal margin) must be tune's choice.
+    rig = load_rig(example("rangefinder-58k"))
+    base = solve(rig)
+    g = tuner.default_grid(rig, base, widths=9, resistor_range=(0.5, 33.0), max_every=2)
+    grid = tuner.Grid(g.widths, g.resistors[::8], g.everys, g.voltages, g.series)
+    keys = []
+    for k in range(grid.size):
+        plan = solve(tuner.candidate_rig(rig, _candidate(grid.at(k))))
+        codes = {f.code for f in plan.findings}
+        ok = plan.verdict != "fail" and not codes & set(tuner.AVOID)
+        keys.append((plan.image.snr, plan.led.thermal_margin_k) if ok else None)
+    ok = [k for k in range(grid.size) if keys[k] is not None]
+    assert 0 < len(ok) < grid.size
+    best = max(ok, key=lambda k: keys[k])
+    result = tuner.tune(rig, grid=grid, refine=False)
+    assert result.objective.startswith("image SNR")
+    b = result.best
+    assert (b.pulse_width_s, b.series_resistor_ohm, b.every, b.supply_voltage_v) == \
+        grid.at(best)
+    assert b.score == pytest.approx(keys[best][0], rel=1e-9)
+
+
+def test_max_blur_is_the_rigs_limit_for_the_search(tmp_path):
+    # The rangefinder (travelling wave, 58 kHz): with the default 2 px the blur binds; a
+    # looser --max-blur admits longer, brighter flashes, and the written rig carries the
+    # limit (camera.max_blur) so that check agrees with the search.
+    strict = json.loads(run_cli("tune", example("rangefinder-58k"), "--widths", "40",
+                                "--max-every", "2", "--json").stdout)
+    out = tmp_path / "tuned.toml"
+    r = run_cli("tune", example("rangefinder-58k"), "--widths", "40", "--max-every", "2",
+                "--max-blur", "8", "--json", "--write-rig", out)
+    assert r.exit_code == 0, r.output
+    loose = json.loads(r.stdout)
+    assert strict["limits"]["max_blur_px"] == 2.0 and loose["limits"]["max_blur_px"] == 8.0
+    assert "exposure.blur_over_pixel" in strict["best"]["limited_by"]
+    assert loose["feasible"] > strict["feasible"]
+    assert loose["best"]["score"] > strict["best"]["score"]
+    assert load_rig(out).camera.max_blur == 8.0
+    plan = json.loads(run_cli("check", out, "--json").stdout)
+    assert plan["exposure"]["blur_pixels"] <= 8.0
+    assert plan["exposure"]["blur_pixels"] > 2.0  # the looser limit was used
+    assert "exposure.blur_over_pixel" not in {f["code"] for f in plan["findings"]}
+
+
+@pytest.mark.parametrize("value", ["0", "-1", "abc", "nan"])
+def test_max_blur_bad_values_exit_2(value):
+    r = run_cli("tune", example("rangefinder-58k"), "--max-blur", value)
+    assert r.exit_code == 2 and "--max-blur" in r.output and "Traceback" not in r.output

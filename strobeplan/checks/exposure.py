@@ -4,14 +4,15 @@ from __future__ import annotations
 
 import numpy as np
 
+from ..rig import Camera
 from ..units import render
 from .registry import Hit, rule
 
 # A gate pulse shorter than this many phosphor decay times is shaped by the phosphor.
 PHOSPHOR_RATIO = 3.0
-# Blur above this many pixels is a visible smear of a travelling wave (common practice:
-# the eye and edge detectors resolve about a pixel; two leave margin).
-BLUR_PIXEL_LIMIT = 2.0
+# Blur above camera.max_blur pixels is a visible smear of a travelling wave (default 2,
+# common practice: the eye and edge detectors resolve about a pixel; two leave margin).
+BLUR_PIXEL_LIMIT = Camera.model_fields["max_blur"].default
 
 
 @rule("exposure.retention_low", "fault",
@@ -63,20 +64,21 @@ def phosphor_dominates(plan):
 
 @rule("exposure.blur_over_pixel", "warning",
       trigger=f"travelling wave whose motion during the flash (speed of sound x optical "
-              f"duration) exceeds {BLUR_PIXEL_LIMIT:g} camera pixels at the object "
-              "(camera.object_pixel)",
-      fix="shorten strobe.pulse_width (blur scales with the optical duration) or accept a "
-          "coarser camera.object_pixel",
+              f"duration) exceeds camera.max_blur (default {BLUR_PIXEL_LIMIT:g}) camera "
+              "pixels at the object (camera.object_pixel)",
+      fix="shorten strobe.pulse_width (blur scales with the optical duration), accept a "
+          "coarser camera.object_pixel or a larger camera.max_blur",
       example=("rangefinder-58k", {}))
 def blur_over_pixel(plan):
     e = plan.exposure
     if e is None or plan.rig.wave.kind != "travelling" or e.blur_pixels is None:
         return None
     pixel = plan.rig.camera.object_pixel
-    width_for_limit = BLUR_PIXEL_LIMIT * pixel / plan.air.speed_of_sound_m_s
+    limit = plan.rig.camera.max_blur
+    width_for_limit = limit * pixel / plan.air.speed_of_sound_m_s
     return Hit(lambda: f"the wave moves {render(e.blur_distance_m, 'length')} "
                f"({e.blur_pixels:.3g} px) during the {render(e.optical_duration_s, 'time')} "
-               "flash", value=e.blur_pixels, limit=BLUR_PIXEL_LIMIT, unit="px",
+               "flash", value=e.blur_pixels, limit=limit, unit="px",
                hint=lambda: f"an optical duration of at most {render(width_for_limit, 'time')} "
-                            f"keeps the blur within {BLUR_PIXEL_LIMIT:g} px",
-               when=~(np.asarray(e.blur_pixels) <= BLUR_PIXEL_LIMIT))
+                            f"keeps the blur within {limit:g} px",
+               when=~(np.asarray(e.blur_pixels) <= limit))

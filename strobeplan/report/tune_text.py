@@ -32,7 +32,8 @@ def result_text(result, frontier_rows: int = 12) -> str:
     lines = [f"[tune] {result.candidates} candidates in {result.seconds:.2f} s, "
              f"{result.feasible} feasible (check does not fail them and none of "
              f"{', '.join(AVOID)} fires; retention >= {result.min_retention:.4g}, thermal "
-             f"margin >= {result.min_margin:.3g} K)"]
+             f"margin >= {result.min_margin:.3g} K"
+             + (f", blur <= {result.max_blur:.3g} px)" if result.max_blur is not None else ")")]
     if not result.objective.startswith("image SNR") and result.plan is not None \
             and "image" in result.plan.skipped:
         needs = result.plan.skipped["image"]
