@@ -6,8 +6,23 @@ import pytest
 from strobeplan.physics import photobiology as pb
 
 
+def test_blue_light_table_as_transcribed_in_luxpy():
+    # IEC 62471:2006 Table 4.2, B(lambda) at 380-495 nm in 5 nm steps, as transcribed in the
+    # luxpy package (PyPI, 1.12: toolboxes/photbiochem/blue_light_hazard_IEC62471_IECTR62778,
+    # `_get_BLH`); the same 24 values, and 10^((450 - 500)/50) = 0.1 at 500 nm.
+    # (luxpy itself is not imported: its import fails under numpy 2.)
+    nm = np.arange(380, 500, 5)
+    luxpy = [0.01, 0.013, 0.025, 0.05, 0.1, 0.2, 0.4, 0.8, 0.9, 0.95, 0.98, 1, 1, 0.97,
+             0.94, 0.9, 0.8, 0.7, 0.62, 0.55, 0.45, 0.4, 0.22, 0.16]
+    np.testing.assert_allclose(pb.blue_light_weight(nm * 1e-9), luxpy, rtol=1e-12)
+    assert pb.blue_light_weight(500e-9) == pytest.approx(0.1, rel=1e-12)
+    # luxpy interpolates linearly between the tabulated points (cie_interp kind='linear')
+    assert pb.blue_light_weight(437.5e-9) == pytest.approx(1.0)
+    assert pb.blue_light_weight(442.5e-9) == pytest.approx(0.985)
+
+
 @pytest.mark.parametrize("nm, b", [
-    # IEC 62471:2006 Table 4.2 (tabulated values, from memory: see the module's references)
+    # IEC 62471:2006 Table 4.2 (tabulated values; confirmed against luxpy's transcription)
     (400, 0.10), (420, 0.90), (435, 1.0), (440, 1.0), (450, 0.94), (460, 0.80),
     (470, 0.62), (480, 0.45), (490, 0.22),
     # formula 10^((450 - lambda)/50) for 500-600 nm: 550 nm -> 0.01; 0.001 at 600-700 nm
@@ -18,7 +33,8 @@ def test_blue_light_weight(nm, b):
 
 
 @pytest.mark.parametrize("nm, r", [
-    # IEC 62471:2006 Table 4.2: R = 10 B for 380-495 nm, 1 for 500-700 nm,
+    # IEC 62471:2006 Table 4.2 (R(lambda) from memory, not confirmed against a second
+    # transcription): R = 10 B for 380-495 nm, 1 for 500-700 nm,
     # 10^((700 - lambda)/500) for 700-1050 nm (800 nm -> 0.631), 0.2 for 1050-1150 nm
     (440, 10.0), (470, 6.2), (600, 1.0), (800, 10 ** (-0.2)), (1100, 0.2), (1300, 0.02),
 ])
