@@ -405,7 +405,8 @@ def result_objective(plan, result):
 
 
 def plot_tradeoff(plan, ax=None, result=None):
-    """Light per frame against retention over the tune space (``strobeplan tune``).
+    """tune's objective (the image SNR per pixel per frame, else the light per frame) against
+    retention over the tune space (``strobeplan tune``).
 
     ``result`` is the :class:`strobeplan.tune.TuneResult` to draw (it carries the evaluated
     cloud): every point is the brightest candidate of one (pulse width, every) cell that
