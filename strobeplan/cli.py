@@ -350,12 +350,14 @@ def report(rig, output):
               help="Write the tuned rig (the input with the chosen values) to FILE.")
 def tune(rig, min_retention, min_margin, max_blur, series, resistor_range, max_every, supply_range,
          supply_steps, widths, as_json, write_rig):
-    """Search pulse width, series resistor, `every` (and supply voltage) for the most light
-    per frame that still freezes the wave and keeps every part within its ratings.
+    """Search pulse width, series resistor, `every` (and supply voltage) for the clearest
+    image that still freezes the wave and keeps every part within its ratings.
 
-    Light per frame is in A s: the LED current integrated over the optical pulse, times the
-    flashes per frame (light is taken proportional to current). Exit 0 when a design is
-    found (it is verified with `check`), 1 when nothing is feasible (the reason is printed).
+    The objective is the wave's SNR per pixel per frame (the image chain, with the LED's
+    droop) when the rig models the camera, else the light per frame in A s (the LED
+    current integrated over the optical pulse, times the flashes per frame). Exit 0 when a
+    design is found (it is verified with `check`), 1 when nothing is feasible (the reason
+    is printed).
     """
     import json
     import time
