@@ -256,6 +256,41 @@ def _view_sources(rig):
     return pressure_at, view_point(rig)
 
 
+def project(pressure, grid: ViewGrid, u_nodes, v_nodes, s_pos, s_w, progress=None):
+    """Line-of-sight integral Q of a complex field on the lattice, and the largest |p|.
+
+    ``pressure(points (..., 3)) -> complex (...)``; the lattice is (v_nodes, u_nodes) in the
+    picture's plane through the grid's centre, ``s_pos`` along the light with the trapezoid
+    weights ``s_w``. One v row at a time (bounded memory); ``progress(i)`` after row i.
+    Returns (Q (nv, nu) [Pa m], peak |p| over the lattice points inside the view [Pa]).
+    """
+    x_pix, y_pix = grid.offsets()
+    inside_u = (u_nodes >= x_pix.min() - 1e-12) & (u_nodes <= x_pix.max() + 1e-12)
+    plane = (grid.centre + u_nodes[:, None, None] * grid.u
+             + s_pos[None, :, None] * grid.light_axis)  # (nu, S, 3)
+    q_lat = np.empty((v_nodes.size, u_nodes.size), dtype=complex)
+    peak = 0.0
+    for i, yv in enumerate(v_nodes):
+        p = pressure(plane + yv * grid.v)
+        q_lat[i] = p @ s_w
+        if y_pix.min() - 1e-12 <= yv <= y_pix.max() + 1e-12:
+            peak = max(peak, float(np.abs(p[inside_u]).max(initial=0.0)))
+        if progress is not None:
+            progress(i + 1)
+    return q_lat, peak
+
+
+def pixel_maps(q_lat, u_nodes, v_nodes, grid: ViewGrid, shift=0.0):
+    """(Q, dQ/dv) at the pixel centres (optionally shifted by ``shift`` along u) from the
+    lattice, by sixth-order Lagrange interpolation."""
+    x_pix, y_pix = grid.offsets()
+    wu = los.interpolation_matrix(u_nodes, x_pix + shift, ORDER)
+    wv = los.interpolation_matrix(v_nodes, y_pix, ORDER)
+    dv = los.interpolation_matrix(v_nodes, y_pix, ORDER, derivative=True)
+    right = q_lat @ wu.T
+    return wv @ right, dv @ right
+
+
 def render_preview(rig, plan=None, *, frames=None, noise=True, seed=0, progress=None
                    ) -> Preview:
     """Draw the frames the camera will record over the planned sweep.
@@ -307,27 +342,19 @@ def render_preview(rig, plan=None, *, frames=None, noise=True, seed=0, progress=
     seconds, memory, points = estimate_work(grid, lam, n_src, n_rows, offset)
     _require_within(grid, seconds, memory, n_rows)
 
-    # Field on the lattice, one v row at a time (bounded memory, progress).
     u_nodes, v_nodes, s_pos, s_w = _lattice(grid, lam, offset)
     total = v_nodes.size + n_rows
-    q_lat = np.empty((v_nodes.size, u_nodes.size), dtype=complex)
-    peak_p = 0.0
-    x_pix, y_pix = grid.offsets()
-    inside_u = (u_nodes >= x_pix.min() - 1e-12) & (u_nodes <= x_pix.max() + 1e-12)
-    plane = (grid.centre + u_nodes[:, None, None] * grid.u
-             + s_pos[None, :, None] * grid.light_axis)  # (nu, S, 3)
     walls = [(np.asarray(r.position, float), np.asarray(r.normal, float) /
               np.linalg.norm(r.normal)) for r in rig.reflectors]
-    for i, yv in enumerate(v_nodes):
-        pts = plane + yv * grid.v
+
+    def pressure(pts):
         p = pressure_at(rig, pts, f, speed=speed)[0]
         for q0, nrm in walls:  # no sound behind a reflector (the images model the room)
             p = np.where((pts - q0) @ nrm < 0.0, 0.0, p)
-        q_lat[i] = p @ s_w
-        if y_pix.min() - 1e-12 <= yv <= y_pix.max() + 1e-12:
-            peak_p = max(peak_p, float(np.abs(p[inside_u]).max(initial=0.0)))
-        if progress is not None:
-            progress(i + 1, total)
+        return p
+
+    q_lat, peak_p = project(pressure, grid, u_nodes, v_nodes, s_pos, s_w,
+                            None if progress is None else (lambda i: progress(i, total)))
     p_view = complex(pressure_at(rig, view, f, speed=speed)[0])
     scale, level_source = _level_scale(rig, plan, p_view)
     q_lat *= scale
@@ -340,11 +367,10 @@ def render_preview(rig, plan=None, *, frames=None, noise=True, seed=0, progress=
     a = rig.air
     k_gd = float(refraction.gladstone_dale(light, a.temperature, a.pressure,
                                            a.relative_humidity, a.co2 * 1e6))
-    dv = los.interpolation_matrix(v_nodes, y_pix, ORDER, derivative=True)
 
     def one_pass(shift):
-        wu = los.interpolation_matrix(u_nodes, x_pix + shift, ORDER)
-        return los.deflection_map(dv @ q_lat @ wu.T, k_gd, speed)
+        return los.deflection_map(pixel_maps(q_lat, u_nodes, v_nodes, grid, shift)[1], k_gd,
+                                  speed)
 
     deflection = los.double_pass(one_pass, offset) if double else one_pass(0.0)
     peak_eps = float(np.abs(deflection).max(initial=0.0))
@@ -373,6 +399,9 @@ def render_preview(rig, plan=None, *, frames=None, noise=True, seed=0, progress=
                                    out, full, peak_p, lam, offset, double, u_nodes, v_nodes,
                                    points, n_src, k_gd, level_source, phases, gains, noise,
                                    seed)
+    summary["pressure_phase_at_view_deg"] = math.degrees(theta)
+    summary["frame_phase_reference"] = ("frame k shows Re(gain_k E exp(j (phase_k - 90 deg - "
+                                        "pressure_phase_at_view_deg)))")
     return Preview(frames=out, phases_deg=phases, grid=grid, deflection=deflection,
                    summary=summary, findings=findings, bit_depth=o.bit_depth,
                    rig_name=rig.name)
