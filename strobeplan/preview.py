@@ -55,9 +55,9 @@ ORDER = los.DEFAULT_ORDER
 MAX_FRAMES = 720
 """Most frames one preview draws."""
 FIELD_POINT_SECONDS = 6e-7
-"""Cost of one piston at one lattice point (bench/bench_preview.py measures it)."""
+"""Cost of one piston at one lattice point (bench/bench_preview.py measured 4.5e-7 s)."""
 PIXEL_FRAME_SECONDS = 1.5e-7
-"""Cost of one pixel of one frame with noise (bench/bench_preview.py measures it)."""
+"""Cost of one pixel of one frame with noise (bench/bench_preview.py measured 1.1e-7 s)."""
 MAX_WORK = 240.0
 """Largest estimated preview run accepted. [s]"""
 MAX_BYTES = 2.0e9
@@ -164,15 +164,15 @@ def estimate_work(grid: ViewGrid, wavelength: float, sources: int, frames: int,
     return seconds, memory, points
 
 
-def _require_within(grid, seconds, memory, frames):
+def _require_within(grid, seconds, memory, frames, max_seconds=MAX_WORK):
     from .workload import WorkloadError, duration_text
 
-    if seconds <= MAX_WORK and memory <= MAX_BYTES:
+    if seconds <= max_seconds and memory <= MAX_BYTES:
         return
     raise WorkloadError(
         f"preview: {grid.nx} x {grid.ny} pixels x {frames} frames with {grid.samples} "
         f"samples along the light would take about {duration_text(seconds)} and "
-        f"{memory / 1e9:.1f} GB (limits {duration_text(MAX_WORK)}, {MAX_BYTES / 1e9:.0f} "
+        f"{memory / 1e9:.1f} GB (limits {duration_text(max_seconds)}, {MAX_BYTES / 1e9:.0f} "
         "GB); narrow it with --frames, [view].width/height, [view].samples or "
         "[view].depth")
 
@@ -291,8 +291,19 @@ def pixel_maps(q_lat, u_nodes, v_nodes, grid: ViewGrid, shift=0.0):
     return wv @ right, dv @ right
 
 
-def render_preview(rig, plan=None, *, frames=None, noise=True, seed=0, progress=None
-                   ) -> Preview:
+def reduced_grid(grid: ViewGrid, max_pixels: int) -> ViewGrid:
+    """The grid with whole-number coarser pixels so that neither side exceeds max_pixels."""
+    import dataclasses
+
+    factor = max(1, -(-max(grid.nx, grid.ny) // int(max_pixels)))
+    if factor == 1:
+        return grid
+    return dataclasses.replace(grid, pixel_m=grid.pixel_m * factor,
+                               nx=max(1, grid.nx // factor), ny=max(1, grid.ny // factor))
+
+
+def render_preview(rig, plan=None, *, frames=None, noise=True, seed=0, progress=None,
+                   max_pixels=None, max_seconds=MAX_WORK) -> Preview:
     """Draw the frames the camera will record over the planned sweep.
 
     Parameters
@@ -309,6 +320,11 @@ def render_preview(rig, plan=None, *, frames=None, noise=True, seed=0, progress=
         Seed of the noise (same seed, same bytes).
     progress : callable, optional
         Called as progress(done, total) while the field and the frames are computed.
+    max_pixels : int, optional
+        Coarser pixels (a whole multiple) so that no side exceeds this (a reduced preview,
+        as the HTML report draws; each pixel keeps one camera pixel's light and noise).
+    max_seconds : float
+        Refuse (WorkloadError) a preview estimated to take longer. [s]
 
     Returns
     -------
@@ -326,6 +342,8 @@ def render_preview(rig, plan=None, *, frames=None, noise=True, seed=0, progress=
         raise PreviewError("preview: the plan has no timing; check the rig with "
                            "'strobeplan check' first")
     grid = view_grid(rig, plan)
+    if max_pixels is not None:
+        grid = reduced_grid(grid, max_pixels)
     f = float(rig.wave.frequency)
     speed = float(plan.air.speed_of_sound_m_s)
     lam = speed / f
@@ -340,7 +358,7 @@ def render_preview(rig, plan=None, *, frames=None, noise=True, seed=0, progress=
     pressure_at, view = _view_sources(rig)
     n_src = pressure_at(rig, view, f, speed=speed)[3]
     seconds, memory, points = estimate_work(grid, lam, n_src, n_rows, offset)
-    _require_within(grid, seconds, memory, n_rows)
+    _require_within(grid, seconds, memory, n_rows, max_seconds)
 
     u_nodes, v_nodes, s_pos, s_w = _lattice(grid, lam, offset)
     total = v_nodes.size + n_rows
@@ -563,7 +581,7 @@ def _gif_bytes(frames8, fps=12.0) -> bytes:
 
 
 def contact_sheet(preview: Preview, max_frames: int | None = None, tile: int | None = None):
-    """The contact sheet as an 8-bit RGB array: tiles with phase labels and a scale bar."""
+    """The contact sheet as an 8-bit grey array: tiles with phase labels and a scale bar."""
     from PIL import Image, ImageDraw, ImageFont
 
     frames = preview.frames
@@ -577,8 +595,8 @@ def contact_sheet(preview: Preview, max_frames: int | None = None, tile: int | N
     cols = min(len(idx), 6)
     rows = -(-len(idx) // cols)
     label_h, pad = 14, 4
-    sheet = Image.new("RGB", (cols * (width + pad) + pad,
-                              rows * (height + label_h + pad) + pad + 24), (255, 255, 255))
+    sheet = Image.new("L", (cols * (width + pad) + pad,
+                            rows * (height + label_h + pad) + pad + 24), 255)
     draw = ImageDraw.Draw(sheet)
     font = ImageFont.load_default()
     for n, k in enumerate(idx):
@@ -586,9 +604,8 @@ def contact_sheet(preview: Preview, max_frames: int | None = None, tile: int | N
             (width, height), Image.Resampling.BILINEAR)
         x0 = pad + (n % cols) * (width + pad)
         y0 = pad + (n // cols) * (height + label_h + pad)
-        sheet.paste(im.convert("RGB"), (x0, y0 + label_h))
-        draw.text((x0, y0), f"#{k}  {preview.phases_deg[k]:.1f} deg", fill=(0, 0, 0),
-                  font=font)
+        sheet.paste(im, (x0, y0 + label_h))
+        draw.text((x0, y0), f"#{k}  {preview.phases_deg[k]:.1f} deg", fill=0, font=font)
     # Scale bar: a round length near a quarter of a tile's width.
     metres_per_px = preview.grid.pixel_m / scale
     target = 0.25 * width * metres_per_px
@@ -596,8 +613,8 @@ def contact_sheet(preview: Preview, max_frames: int | None = None, tile: int | N
     bar = max(m * exp for m in (1, 2, 5) if m * exp <= target)
     bar_px = int(round(bar / metres_per_px))
     y = sheet.height - 14
-    draw.rectangle([pad, y, pad + bar_px, y + 4], fill=(0, 0, 0))
-    draw.text((pad + bar_px + 6, y - 6), f"{bar * 1e3:g} mm", fill=(0, 0, 0), font=font)
+    draw.rectangle([pad, y, pad + bar_px, y + 4], fill=0)
+    draw.text((pad + bar_px + 6, y - 6), f"{bar * 1e3:g} mm", fill=0, font=font)
     return np.asarray(sheet)
 
 
