@@ -97,31 +97,31 @@ class PreviewRule:
 
 
 PREVIEW_RULES = (
-    PreviewRule("preview.cutoff_saturated", "warn",
+    PreviewRule("preview.cutoff_saturated", "warning",
                 "The wave saturates the cutoff in part of the view (the source image moves "
                 "wholly onto or off the knife or rod; the picture clips there)",
                 "lower the drive (SPL), cut less of the source image, widen the source or "
                 "shorten the focal length f2"),
-    PreviewRule("preview.below_snr", "warn",
+    PreviewRule("preview.below_snr", "warning",
                 "Most of the view is below the SNR threshold (the wave will not stand out "
                 "of the noise)",
                 "more light (current, pulse width, flashes per frame), a larger source, "
                 "binning or averaging frames, or a more sensitive cutoff"),
-    PreviewRule("preview.double_image", "warn",
+    PreviewRule("preview.double_image", "warning",
                 "The double-pass image overlaps itself: its two copies, offset by the "
                 "source-cutoff separation, add with a shift and blur or cancel the wave",
                 "use a beamsplitter on the axis (source_separation = 0) or put the test "
                 "region close to the mirror (smaller test_distance)"),
-    PreviewRule("preview.light_sampling", "warn",
+    PreviewRule("preview.light_sampling", "warning",
                 "The sampling along the light axis is too coarse for the sound wavelength "
                 "(the line-of-sight integral aliases)",
                 "raise [view].samples or shorten [view].depth"),
-    PreviewRule("preview.view_sampling", "warn",
+    PreviewRule("preview.view_sampling", "warning",
                 "The pixels are too coarse for the sound wavelength (the picture aliases the "
                 "wave)",
                 "a longer camera lens, or a narrower [view] with the object pixel of the "
                 "image chain"),
-    PreviewRule("preview.no_image_chain", "info",
+    PreviewRule("preview.no_image_chain", "note",
                 "No image chain (an [optics] layout and a camera with lens and pixel "
                 "pitch): the preview is a normalised knife-edge picture without a light "
                 "budget or noise",
