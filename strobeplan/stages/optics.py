@@ -13,7 +13,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
-from ..physics import acoustics, drive, refraction, schlieren
+from ..physics import acoustics, drive, schlieren
 from ..plan import Section, q, scalar
 
 # Distance from the emitter at which the ultrasound-exposure caution is evaluated. [m]
@@ -94,10 +94,7 @@ def compute(rig, design, plan) -> OpticsSection | None:
     opt = rig.optics
     if opt is not None:
         rho = schlieren.density_amplitude(p, speed)
-        a = rig.air  # K = (n - 1)/rho of the rig's moist air (Ciddor 1996) at the light
-        k_gd = refraction.gladstone_dale(opt.light_wavelength, a.temperature, a.pressure,
-                                         a.relative_humidity, a.co2 * 1e6)
-        n1 = schlieren.index_amplitude(rho, k_gd)
+        n1 = schlieren.index_amplitude(rho, schlieren.gladstone_dale(opt.light_wavelength))
         eps = float(schlieren.deflection(opt.passes, opt.sound_path,
                                          schlieren.wavenumber(f, speed), n1))
         contrast = float(schlieren.knife_edge_contrast(opt.cutoff_distance, eps,
