@@ -546,13 +546,15 @@ def to_8bit(frame, bit_depth):
     return np.round(frame.astype(np.float64) * (255.0 / full)).astype(np.uint8)
 
 
-def _png_bytes(image) -> bytes:
+def _png_bytes(image, level=1) -> bytes:
+    """PNG bytes of an 8-bit array (zlib level 1 for the frames: noisy frames compress little
+    and level 6 is four times slower)."""
     import io
 
     from PIL import Image
 
     buf = io.BytesIO()
-    Image.fromarray(image).save(buf, format="PNG", optimize=False)
+    Image.fromarray(image).save(buf, format="PNG", optimize=False, compress_level=level)
     return buf.getvalue()
 
 

@@ -377,8 +377,8 @@ def _preview(plan) -> str:
                             max_pixels=PREVIEW_PIXELS, max_seconds=PREVIEW_SECONDS)
     except StrobeplanError as exc:
         return f'<p class="missing">No preview: {_e(str(exc))}</p>'
-    png = base64.b64encode(_png_bytes(contact_sheet(pv, tile=min(PREVIEW_PIXELS,
-                                                                 pv.grid.nx)))).decode()
+    sheet = contact_sheet(pv, tile=min(PREVIEW_PIXELS, pv.grid.nx))
+    png = base64.b64encode(_png_bytes(sheet, level=9)).decode()
     s = pv.summary
     notes = "".join(f"<li>{_e(f.code)}: {_e(f.message)}</li>" for f in pv.findings)
     return (f'<figure id="preview-sheet"><img alt="synthetic schlieren frames over the sweep" '

@@ -4,6 +4,8 @@ import warnings
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from strobeplan.physics import lineofsight as los
 from strobeplan.physics import schlieren
@@ -98,3 +100,19 @@ def test_trapezoid_weights_integrate_a_line():
     s, w = los.trapezoid_weights(5, 0.04)
     # trapezoid rule is exact for linear functions (Stoer & Bulirsch 2002, sec. 3.1)
     assert w.sum() == pytest.approx(0.04) and (w * (s + 0.02)).sum() == pytest.approx(8e-4)
+
+
+@settings(max_examples=40, deadline=None)
+@given(st.floats(1e-4, 1e-2), st.integers(8, 40), st.floats(0.0, 1.0), st.integers(0, 5))
+def test_interpolation_reproduces_polynomials(h, n, where, degree):
+    # Lagrange interpolation on six nodes is exact for polynomials of degree <= 5, and so is
+    # its derivative (Stoer & Bulirsch 2002, sec. 2.1: uniqueness of the interpolant)
+    nodes = h * np.arange(n)
+    x = np.array([where * nodes[-1]])
+    scale = nodes[-1]
+    w = los.interpolation_matrix(nodes, x)
+    d = los.interpolation_matrix(nodes, x, derivative=True)
+    f = (nodes / scale) ** degree
+    assert w @ f == pytest.approx((x / scale) ** degree, abs=1e-9)
+    exact_d = degree * (x / scale) ** max(degree - 1, 0) / scale if degree else 0.0
+    assert d @ f == pytest.approx(exact_d, abs=1e-6 / h)
