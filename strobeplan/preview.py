@@ -418,6 +418,11 @@ def render_preview(rig, plan=None, *, frames=None, noise=True, seed=0, progress=
                                    points, n_src, k_gd, level_source, phases, gains, noise,
                                    seed)
     summary["pressure_phase_at_view_deg"] = math.degrees(theta)
+    sigma = o.resolution / 2.3548
+    summary["blur_fwhm_m"] = o.resolution
+    summary["blur_contrast_at_sound_wavelength"] = (
+        math.exp(-0.5 * (2 * math.pi * sigma / lam) ** 2)
+        if sigma / grid.pixel_m >= 0.3 else 1.0)
     summary["frame_phase_reference"] = ("frame k shows Re(gain_k E exp(j (phase_k - 90 deg - "
                                         "pressure_phase_at_view_deg)))")
     return Preview(frames=out, phases_deg=phases, grid=grid, deflection=deflection,
