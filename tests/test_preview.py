@@ -261,3 +261,22 @@ def test_lattice_interpolation_against_direct_evaluation():
     h = lam / 200
     d_exact = (direct(h) - direct(-h)) / (2 * h)
     assert np.max(np.abs(dq[:, ::4] - d_exact)) < 1e-2 * np.max(np.abs(d_exact))
+
+
+def test_report_embeds_a_reduced_contact_sheet():
+    import base64
+    import io
+    import re
+
+    from PIL import Image
+
+    from strobeplan.report.html import PREVIEW_PIXELS, report_html
+
+    plan = solve(rig_from_dict(patched("opposed-pair-40k", {})))
+    page = report_html(plan, plots=())
+    m = re.search(r'id="preview-sheet"><img [^>]*src="data:image/png;base64,([^"]+)"', page)
+    assert m, "the report has no embedded contact sheet"
+    sheet = Image.open(io.BytesIO(base64.b64decode(m.group(1))))
+    # 12 frames in rows of 6 tiles of at most PREVIEW_PIXELS px (plus 4 px gaps)
+    assert sheet.width <= 6 * (PREVIEW_PIXELS + 4) + 4 and sheet.mode == "L"
+    assert "12 frames over the sweep" in page
