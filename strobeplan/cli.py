@@ -324,6 +324,45 @@ def report(rig, output):
 
 @cli.command()
 @click.argument("rig", type=click.Path(allow_dash=True))
+@click.option("-o", "--output", "outdir", type=click.Path(), required=True,
+              help="Folder for the frames, loop.gif, contact_sheet.png and preview.json "
+                   "(created if missing).")
+@click.option("--frames", type=click.IntRange(1, 720), default=None, metavar="N",
+              help="Frames over the sweep's span  [default: the schedule's rows]")
+@click.option("--seed", type=click.IntRange(0, 2**63 - 1), default=0, show_default=True,
+              help="Seed of the camera noise (the same seed writes the same bytes).")
+@click.option("--noise/--no-noise", default=True, show_default=True,
+              help="Shot, read and quantisation noise.")
+def preview(rig, outdir, frames, seed, noise):
+    """Draw the frames the camera will record over the sweep (synthetic schlieren)."""
+    import time
+
+    from .preview import prepare_dir, render_preview, write_preview
+    from .safetext import clean
+
+    with user_errors():
+        prepare_dir(outdir, rig)
+    plan, _ = _solve_with_text(rig)
+    bar = _LazyBar(time.perf_counter(), "preview")
+    try:
+        with user_errors():
+            result = render_preview(plan.rig, plan, frames=frames, noise=noise, seed=seed,
+                                    progress=bar.update)
+            written = write_preview(result, outdir, rig)
+    finally:
+        bar.close()
+    s = result.summary
+    click.echo(f"{len(result.frames)} frames of {s['width_px']} x {s['height_px']} px "
+               f"({s['pixel_m'] * 1e3:.3g} mm pixels); peak {s['peak_pressure_pa']:.4g} Pa, "
+               f"deflection {s['peak_deflection_rad']:.3g} rad; grey levels "
+               f"{s['grey_min']}..{s['grey_max']} of {2 ** s['bit_depth'] - 1}")
+    for f in result.findings:
+        click.echo(f"{f.severity.upper()} {f.code}: {clean(f.message)}")
+    click.echo(f"wrote {len(written)} files to {clean(str(outdir))}", err=True)
+
+
+@cli.command()
+@click.argument("rig", type=click.Path(allow_dash=True))
 @click.option("--min-retention", default=None, metavar="RATIO",
               help="Retention target, e.g. 90%  [default: strobe.min_retention]")
 @click.option("--min-margin", default=None, metavar="KELVIN",
@@ -407,8 +446,9 @@ def tune(rig, min_retention, min_margin, max_blur, series, resistor_range, max_e
 class _LazyBar:
     """click's progress bar on stderr, shown only once a search has run for 1 s on a TTY."""
 
-    def __init__(self, started: float):
+    def __init__(self, started: float, label: str = "tune"):
         self.started = started
+        self.label = label
         self.bar = None
         self.done = 0
 
@@ -419,7 +459,7 @@ class _LazyBar:
             if time.perf_counter() - self.started < 1.0 or not sys.stderr.isatty():
                 self.done = done
                 return
-            self.bar = click.progressbar(length=total, label="tune", file=sys.stderr,
+            self.bar = click.progressbar(length=total, label=self.label, file=sys.stderr,
                                          show_eta=True)
             self.bar.__enter__()
             self.bar.update(self.done)

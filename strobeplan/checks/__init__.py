@@ -60,4 +60,17 @@ def findings_markdown() -> str:
             change = ", ".join(f"`{k} = {v!r}`" if v is not None else f"`{k}` removed"
                                for k, v in patch.items()) or "as bundled"
             lines += [f"Example: `{base}` with {change}", ""]
-    return "\n".join(lines)
+    return "\n".join(lines + _preview_markdown())
+
+
+def _preview_markdown() -> list[str]:
+    """The findings ``strobeplan preview`` draws from its picture (not reachable by check)."""
+    from ..preview import PREVIEW_RULES
+
+    lines = ["# Findings from the picture (`strobeplan preview`)", "",
+             "These need the rendered frames, so `check` never reports them; `preview` prints",
+             "them and writes them to preview.json (tests/test_preview.py triggers each).", ""]
+    for r in PREVIEW_RULES:
+        lines += [f"### `{r.code}`", "", f"Severity: **{r.severity}**", "",
+                  f"Trigger: {r.title}.", "", f"Fix: {r.fix}.", ""]
+    return lines

@@ -292,3 +292,43 @@ def min_detectable_spl(spl, snr, threshold=5.0, order=1):
     safe = np.where(s > 0, s, np.nan)
     return _out(np.where(s > 0, _a(spl) + 20.0 / _a(order) * np.log10(_a(threshold) / safe),
                          np.inf))
+
+
+def digitise(electrons, read_noise, full_well, bit_depth, rng=None):
+    """Grey levels of a frame from its mean electrons, with shot and read noise when seeded.
+
+    Shot noise is Poisson in the electrons, read noise Gaussian; the sum is clipped to
+    0..full well and quantised by rounding to 2^bits - 1 full scale (which adds the
+    quantisation noise step/sqrt(12)). Without ``rng`` the mean grey levels, rounded.
+
+    Parameters
+    ----------
+    electrons : ndarray
+        Mean photo- and dark electrons per pixel. [e-]
+    read_noise : float
+        Read noise (RMS). [e-]
+    full_well : float
+        Electrons at full scale. [e-]
+    bit_depth : int
+        ADC bits. [1]
+    rng : numpy.random.Generator, optional
+        Noise source (a seeded generator gives the same frame every run).
+
+    Returns
+    -------
+    ndarray of uint16
+        Grey levels 0..2^bits - 1. [DN]
+
+    References
+    ----------
+    1. EMVA 1288 (2021), sec. 2 (the linear camera model: Poisson photons, Gaussian read
+       noise, uniform quantisation).
+    """
+    e = np.maximum(_a(electrons), 0.0)
+    if rng is not None:
+        e = rng.poisson(e).astype(np.float64)
+        if read_noise:
+            e += rng.normal(0.0, float(read_noise), e.shape)
+    full = 2.0 ** int(bit_depth) - 1.0
+    dn = np.rint(np.clip(e / float(full_well), 0.0, 1.0) * full)
+    return dn.astype(np.uint16)

@@ -358,6 +358,41 @@ def _rig_text(plan, rig_text: str | None) -> str:
 # --- page ---------------------------------------------------------------------------------
 
 
+PREVIEW_PIXELS = 256  # the report's contact sheet: at most this many pixels across a frame
+PREVIEW_FRAMES = 12   # and this many frames over the sweep
+PREVIEW_SECONDS = 3.0  # the report draws no preview whose estimate is longer
+
+
+def _preview(plan) -> str:
+    """A reduced preview's contact sheet, embedded as a PNG data URI (or why it is missing)."""
+    import base64
+
+    from ..errors import StrobeplanError
+    from ..preview import _png_bytes, contact_sheet, render_preview
+
+    if plan.rig.emitter is None or plan.timing is None:
+        return '<p class="missing">No preview: the rig has no emitter.</p>'
+    try:
+        pv = render_preview(plan.rig, plan, frames=PREVIEW_FRAMES, noise=False,
+                            max_pixels=PREVIEW_PIXELS, max_seconds=PREVIEW_SECONDS)
+    except StrobeplanError as exc:
+        return f'<p class="missing">No preview: {_e(str(exc))}</p>'
+    sheet = contact_sheet(pv, tile=min(PREVIEW_PIXELS, pv.grid.nx))
+    png = base64.b64encode(_png_bytes(sheet, level=9)).decode()
+    s = pv.summary
+    notes = "".join(f"<li>{_e(f.code)}: {_e(f.message)}</li>" for f in pv.findings)
+    return (f'<figure id="preview-sheet"><img alt="synthetic schlieren frames over the sweep" '
+            f'src="data:image/png;base64,{png}">'
+            f"<figcaption><strong>Synthetic frames.</strong> {s['frames']} frames over the "
+            f"sweep, {s['width_px']} x {s['height_px']} px of "
+            f"{s['pixel_m'] * 1e3:.3g} mm (reduced, mean grey levels without noise), phase "
+            f"labels in degrees; peak "
+            f"{s['peak_pressure_pa']:.4g} Pa, deflection {s['peak_deflection_rad']:.3g} rad, "
+            f"grey levels {s['grey_min']}..{s['grey_max']} "
+            f"(<code>strobeplan preview RIG -o DIR</code> draws them at full size)"
+            "</figcaption></figure>" + (f'<ul class="missing">{notes}</ul>' if notes else ""))
+
+
 def report_html(plan, rig_text: str | None = None, plots=PLOT_ORDER, tune_result=None) -> str:
     """The whole report as one self-contained HTML page.
 
@@ -402,7 +437,8 @@ def report_html(plan, rig_text: str | None = None, plots=PLOT_ORDER, tune_result
         "</header>",
         '<nav aria-label="contents"><ul>'
         '<li><a href="#findings">Findings</a></li><li><a href="#cautions">Safety</a></li>'
-        '<li><a href="#plots">Plots</a></li><li><a href="#plan">Plan</a></li>'
+        '<li><a href="#plots">Plots</a></li><li><a href="#preview">Preview</a></li>'
+        '<li><a href="#plan">Plan</a></li>'
         '<li><a href="#schedule">Schedule</a></li><li><a href="#rig">Rig file</a></li>'
         "</ul></nav>",
         '<section id="findings"><h2>Findings</h2>',
@@ -422,7 +458,8 @@ def report_html(plan, rig_text: str | None = None, plots=PLOT_ORDER, tune_result
         parts.append('<p class="missing">Not drawn:</p><ul class="missing">'
                      + "".join(f"<li>{_e(k)}: {_e(why)}</li>" for k, why in missing)
                      + "</ul>")
-    parts += ["</section>", '<section id="plan"><h2>Plan</h2>']
+    parts += ["</section>", '<section id="preview"><h2>Preview</h2>', _preview(plan),
+              "</section>", '<section id="plan"><h2>Plan</h2>']
     parts += [_section_table(name, section) for name, section in plan.sections()]
     parts += ["</section>", '<section id="schedule"><h2>Schedule (first rows)</h2>',
               _schedule(plan), "</section>",
