@@ -164,9 +164,9 @@ def test_opposed_pair_fringes_at_the_geometric_positions():
         "optics.source_separation": "20 mm", "view.width": "30 mm", "view.height": "20 mm",
         "view.depth": "30 mm"}),
     ("preview.light_sampling", "levitator-40k", {"view.samples": 4}),
-    ("preview.view_sampling", "opposed-pair-40k", {"view.width": "800 mm",
+    ("preview.view_sampling", "opposed-pair-40k", {"optics": None, "view.width": "800 mm",
                                                    "view.depth": "5 mm", "view.samples": 2}),
-    ("preview.no_image_chain", "opposed-pair-40k", {}),
+    ("preview.no_image_chain", "opposed-pair-40k", {"optics": None}),
 ])
 def test_each_preview_finding_triggers(code, base, patch):
     _, _, pv = _render(base, patch, frames=2, noise=False)
