@@ -358,7 +358,8 @@ def _rig_text(plan, rig_text: str | None) -> str:
 # --- page ---------------------------------------------------------------------------------
 
 
-def report_html(plan, rig_text: str | None = None, plots=PLOT_ORDER, tune_result=None) -> str:
+def report_html(plan, rig_text: str | None = None, plots=PLOT_ORDER, tune_result=None,
+                measured=None) -> str:
     """The whole report as one self-contained HTML page.
 
     Parameters
@@ -372,6 +373,9 @@ def report_html(plan, rig_text: str | None = None, plots=PLOT_ORDER, tune_result
         the reason instead).
     tune_result : strobeplan.tune.TuneResult, optional
         The design search of the rig, for the trade-off plot.
+    measured : strobeplan.analyse.Analysis, optional
+        Captured frames analysed (``report --frames``): a "Measured against planned"
+        section (strobeplan/report/measured.py).
 
     Returns
     -------
@@ -424,6 +428,11 @@ def report_html(plan, rig_text: str | None = None, plots=PLOT_ORDER, tune_result
                      + "</ul>")
     parts += ["</section>", '<section id="plan"><h2>Plan</h2>']
     parts += [_section_table(name, section) for name, section in plan.sections()]
+    if measured is not None:
+        from .measured import measured_html
+
+        parts += ["</section>", '<section id="measured"><h2>Measured against planned</h2>',
+                  measured_html(measured)]
     parts += ["</section>", '<section id="schedule"><h2>Schedule (first rows)</h2>',
               _schedule(plan), "</section>",
               '<section id="rig"><h2>Rig file</h2>', _rig_text(plan, rig_text), "</section>",
