@@ -287,6 +287,7 @@ def demodulate(frames, phases, orders=(1, 2), dark=None) -> Stack:
             if dark is not None and dark.shape != shape:
                 raise FrameError(f"--dark: {dark.shape[1]} x {dark.shape[0]} pixels, expected "
                                  f"{shape[1]} x {shape[0]} like the frames")
+            _check_workload(n, grey.size)
             first = grey - dark if dark is not None else grey.copy()
             npix = first.size
             moments = np.zeros((p, npix))
@@ -554,7 +555,11 @@ def analyse_frames(rig, frames_or_paths, phases_deg=None, *, plan=None, dark=Non
         else:
             count = len(items)
     _require_workload(count, items)
-    if phases_deg is not None:
+    sidecar = None if phases_deg is not None else _sidecar_phases(items, count)
+    if sidecar is not None:
+        phases_deg, phases_from = sidecar
+        phases = np.radians(np.asarray(phases_deg, dtype=float))
+    elif phases_deg is not None:
         phases = np.radians(np.asarray(phases_deg, dtype=float))
         if phases.size != count:
             raise FrameError(f"--phases: {phases.size} values for {count} frames")
@@ -720,6 +725,27 @@ def analyse_frames(rig, frames_or_paths, phases_deg=None, *, plan=None, dark=Non
                     pressure_abel=abel_map, findings=findings)
 
 
+SIDECAR = "preview.json"  # written beside frame_000.tif... by `strobeplan preview`
+
+
+def _sidecar_phases(items, count):
+    """Phases from a preview.json (key ``phases_deg``) beside the first frame, when it holds
+    one per frame: (phases [deg], where) or None."""
+    import json
+
+    if isinstance(items, np.ndarray) or not items or isinstance(items[0], np.ndarray):
+        return None
+    side = Path(items[0]).parent / SIDECAR
+    try:
+        data = json.loads(side.read_text(encoding="utf-8"))
+        phases = [float(x) for x in data["phases_deg"]]
+    except (OSError, ValueError, KeyError, TypeError):
+        return None
+    if len(phases) != count or not all(math.isfinite(x) for x in phases):
+        return None
+    return phases, f"{side.name} beside the frames"
+
+
 def _median_phase_noise(snr, good):
     if not good.any():
         return None
@@ -752,17 +778,23 @@ def _count_pictures(paths) -> int:
 
 
 def _require_workload(count, items):
-    from . import workload
-
     if isinstance(items, np.ndarray):
-        pixels = int(np.prod(items.shape[1:]))
+        _check_workload(count, int(np.prod(items.shape[1:])))
     elif items and isinstance(items[0], np.ndarray):
-        pixels = int(items[0].size)
-    else:
-        return  # checked per frame size below (decoding the first frame costs the same)
-    est = workload.estimate({"frames": (count, "FRAMES"), "pixels": (pixels, "frame size")},
-                            rate=PIXEL_FRAMES_PER_SECOND)
-    workload.require_within(est, MAX_PIXEL_FRAMES, job="analyse")
+        _check_workload(count, int(items[0].size))
+    # files: checked once the first frame is decoded (demodulate)
+
+
+def _check_workload(count, pixels):
+    """Refuse a stack above the budget before the work (README "Limits")."""
+    from .workload import duration_text
+
+    total = float(count) * float(pixels)
+    if total > MAX_PIXEL_FRAMES:
+        raise FrameError(f"{count} frames of {pixels} pixels are {total:.3g} frame-pixels "
+                         f"({duration_text(total / PIXEL_FRAMES_PER_SECOND)}), above the "
+                         f"budget of {MAX_PIXEL_FRAMES:.3g}; analyse fewer or smaller frames "
+                         "(crop or bin them)")
 
 
 def _as_picture(value, name, shape=None):
@@ -869,6 +901,10 @@ def _at_view(rig, plan, grid, contrast, good, k_u, k_v, kind, sens, sens_how, ro
 
     # --- deflection and pressure through the cutoff's calibration -----------------------
     opt = rig.optics
+    if rod:
+        notes.append("rod stop: a dark-field image has no background level to take the "
+                     "contrast against, so the deflection and pressure are not measured")
+        return view_block, calib, None, None
     if lens is not None:
         sens, sens_how = _lens_sensitivity(lens, grid, stack, background), "calibration lens"
     if sens is None or opt is None:
@@ -878,24 +914,15 @@ def _at_view(rig, plan, grid, contrast, good, k_u, k_v, kind, sens, sens_how, ro
     passes = opt.passes
     length = opt.sound_path
     kk = schlieren.gladstone_dale(opt.light_wavelength)
-    if rod:
-        # the second harmonic's contrast is -i R E^2 (R = sens, per rad^2): |E| = sqrt(|Z2|/R)
-        eps_view = math.sqrt(abs(alpha2) / sens) if sens > 0 else math.nan
-        eps_sigma = eps_view * d_sigma
-        p_amp = demod.pressure_from_deflection(eps_view, passes, length, kk, abs(k_v), speed)
-        deflection = {"method": sens_how, "view_rad": eps_view, "view_uncertainty_rad":
-                      eps_sigma, "sensitivity_per_rad2": sens}
-    else:
-        grad = abs(alpha) + abs(beta)  # the largest contrast of the pattern
-        eps_peak = grad / sens
-        eps_sigma = math.sqrt(max(cov[0, 0] + cov[1, 1], 0.0)) / sens
-        eps_view = abs(alpha + beta) / sens
-        p_amp = abs(p_rel) * speed**2 / (sens * passes * length * kk)
-        deflection = {"method": sens_how, "peak_rad": eps_peak,
-                      "peak_uncertainty_rad": eps_sigma, "view_rad": eps_view,
-                      "view_uncertainty_rad": eps_sigma, "sensitivity_per_rad": sens}
-    p_sigma = p_amp * math.sqrt((eps_sigma / max(eps_peak if not rod else eps_view, 1e-300))
-                                ** 2 + (d_sigma if rod else 0.0) ** 2)
+    grad = abs(alpha) + abs(beta)  # the largest contrast of the pattern
+    eps_peak = grad / sens
+    eps_sigma = math.sqrt(max(cov[0, 0] + cov[1, 1], 0.0)) / sens
+    eps_view = abs(alpha + beta) / sens
+    p_amp = abs(p_rel) * speed**2 / (sens * passes * length * kk)
+    deflection = {"method": sens_how, "peak_rad": eps_peak,
+                  "peak_uncertainty_rad": eps_sigma, "view_rad": eps_view,
+                  "view_uncertainty_rad": eps_sigma, "sensitivity_per_rad": sens}
+    p_sigma = p_amp * eps_sigma / max(eps_peak, 1e-300)
     planned_p = None
     if plan.optics is not None and getattr(plan.optics, "spl_at_view_db", None) is not None:
         planned_p = math.sqrt(2) * 20e-6 * 10 ** (plan.optics.spl_at_view_db / 20)
@@ -1036,7 +1063,7 @@ def summary_text(analysis: Analysis) -> str:
         lines.append(f"  wave ({w['kind']}, {w['method']}): wavelength "
                      f"{w['wavelength_m'] * 1e3:.4f} +- {w['wavelength_uncertainty_m'] * 1e3:.4f} "
                      f"mm (plan {w['planned_wavelength_m'] * 1e3:.4f} mm)")
-        t_unc = w["air_temperature_uncertainty_k"]
+        t_unc = w["air_temperature_uncertainty_k"] or math.nan
         lines.append(f"  speed of sound {w['speed_of_sound_m_s']:.2f} +- "
                      f"{w['speed_of_sound_uncertainty_m_s']:.2f} m/s (plan "
                      f"{w['planned_speed_of_sound_m_s']:.2f}); air at "

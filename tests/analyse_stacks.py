@@ -14,12 +14,13 @@ import numpy as np
 
 def plane_stack(rig, plan, grid, phases, *, kind="travelling", offset_s=0.0, contrast=0.05,
                 noise=0.0, background=20000.0, seed=0, direction=None, wavelength=None,
-                antinode_shift=0.0, dtype=np.uint16, harmonic3=0.0):
+                antinode_shift=0.0, dtype=np.uint16, harmonic3=0.0, rod=False):
     """(N, ny, nx) frames of a plane (or standing) wave on ``grid`` at ``phases`` [rad].
 
     The pressure's phase at the view is 0 at phase 0 when ``offset_s`` = 0; a positive
     ``offset_s`` makes the wave arrive later (the rig's calibration_offset convention).
-    ``contrast`` is the peak contrast of the travelling wave's gradient term.
+    ``contrast`` is the peak contrast of the travelling wave's gradient term. ``rod``: a
+    dark-field stop, whose contrast is ``contrast`` times the squared (normalised) gradient.
     """
     from strobeplan.stages.field import view_point
 
@@ -43,6 +44,8 @@ def plane_stack(rig, plan, grid, phases, *, kind="travelling", offset_s=0.0, con
     top = np.iinfo(dtype).max
     for i, phi in enumerate(phases):
         c = contrast * np.imag(grad * np.exp(1j * (phi - lag)))
+        if rod:
+            c = contrast * np.imag(grad * np.exp(1j * (phi - lag))) ** 2
         if harmonic3:
             c = c + harmonic3 * contrast * np.imag((grad / abs(kv) * k) ** 3
                                                    * np.exp(3j * (phi - lag)))

@@ -57,6 +57,22 @@ def test_wavelength_phase_and_injected_offset(lev, kind, offset_ns):
     assert a["calibration"]["uncertainty_s"] > 0
 
 
+def test_plane_wave_pressure_through_the_cutoff_calibration(lev):
+    """A stack whose contrast is the cutoff's slope times the plan's own deflection
+    (eps = passes L K k p / c^2, Settles 2001; docs/references.md, "Acoustics and
+    schlieren") gives back the plan's pressure amplitude at the view (2 %)."""
+    rig, plan, grid, phases = lev
+    from strobeplan.analyse import _cutoff
+
+    _, sens, how = _cutoff(rig, plan)
+    assert how == "geometry"
+    eps = plan.optics.deflection_rad
+    frames = plane_stack(rig, plan, grid, phases, contrast=sens * eps, noise=30.0)
+    p = analyse_frames(rig, frames, plan=plan).summary["pressure"]
+    assert p["plane_wave_at_view_pa"] == pytest.approx(p["planned_at_view_pa"], rel=0.02)
+    assert p["plane_wave_uncertainty_pa"] < 0.02 * p["plane_wave_at_view_pa"]
+
+
 def test_oblique_wave_direction(lev):
     rig, plan, grid, phases = lev
     d = np.asarray(grid.v) * 0.8 + np.asarray(grid.u) * 0.6
@@ -95,6 +111,45 @@ def test_aliasing_finding_from_a_strong_third_harmonic(lev):
             assert 3 in a.summary["aliasing"]["aliased_orders"]
     assert "analyse.aliasing" in codes[4]
     assert "analyse.aliasing" not in codes[8]
+
+
+def test_rod_stop_measures_the_wave_from_its_second_harmonic():
+    """A dark-field stop responds to eps^2: the image shows the wave at twice its spatial
+    frequency (Settles 2001, sec. 3.5); the wavelength and the phase (modulo 180 deg) are
+    still measured."""
+    from strobeplan.rig import rig_from_dict
+    from tests.conftest import patched
+
+    rig = rig_from_dict(patched("levitator-40k", {"optics.cutoff": "rod",
+                                                  "optics.cutoff_width": "1.2 mm"}))
+    plan = solve(rig)
+    grid = replace(view_grid(rig, plan), nx=160, ny=128)
+    phases = np.radians([r.achieved_phase_deg for r in build_schedule(plan).rows])
+    frames = plane_stack(rig, plan, grid, phases, rod=True, contrast=0.5, noise=20.0,
+                         background=2000.0, offset_s=1.5e-6)
+    a = analyse_frames(rig, frames, plan=plan).summary
+    lam = plan.air.speed_of_sound_m_s / plan.timing.drive_frequency_hz
+    assert a["demodulation"]["signal_order"] == 2
+    assert a["wave"]["wavelength_m"] == pytest.approx(lam, rel=0.01)
+    err = _offset_deg(plan, a["calibration"]["offset_s"] - 1.5e-6)
+    assert abs((err + 180) % 360 - 180) < 2.0
+    assert a["pressure"] is None
+
+
+def test_preview_sidecar_gives_the_phases(lev, tmp_path):
+    """A folder written by `strobeplan preview` (frame_000.tif ... and preview.json with
+    phases_deg) analyses directly, whatever its frame count."""
+    rig, plan, grid, _ = lev
+    phases_deg = np.arange(12) * 30.0 + 5.0
+    frames = plane_stack(rig, plan, grid, np.radians(phases_deg), noise=50.0, offset_s=1e-6)
+    folder = _write_frames(tmp_path / "preview", frames)
+    (folder / "preview.json").write_text(json.dumps({"phases_deg": list(phases_deg)}))
+    r = run_cli("analyse", example("levitator-40k"), str(folder / "frame_*.tif"), "--json")
+    assert r.exit_code == 0, r.output
+    j = json.loads(r.stdout)
+    assert "preview.json" in j["frames"]["phases_from"]
+    err = _offset_deg(plan, j["calibration"]["offset_s"] - 1e-6)
+    assert abs((err + 180) % 360 - 180) < 2.0
 
 
 def test_plan_reports_the_minimum_steps_for_its_cutoff():
@@ -289,6 +344,7 @@ def test_bad_inputs_exit_2_with_one_line(stack_dir, tmp_path):
         analyse_frames(load_rig(rig), frames[:2], [0, 180])
 
 
+@pytest.mark.slow  # the report runs the design search for its trade-off plot (~4 s)
 def test_report_adds_measured_against_planned(stack_dir, tmp_path):
     folder, _ = stack_dir
     out = tmp_path / "r.html"

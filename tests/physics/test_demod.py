@@ -53,7 +53,7 @@ def test_complex_harmonic_phase_convention():
 @pytest.mark.parametrize("steps", [8, 12, 36])
 def test_phase_noise_matches_the_standard_result(steps):
     """Brophy (1990): sigma_phi = sigma_I sqrt(2/N) / A for uncorrelated intensity noise
-    (docs/references.md, "Phase stepping"); the spread over seeds within 15 %."""
+    (docs/references.md, "Phase stepping and analyse"); the spread over seeds within 15 %."""
     amp, sigma = 40.0, 4.0
     phases = np.linspace(0, 2 * math.pi, steps, endpoint=False) + 0.3
     expected = demod.phase_sigma_equal_steps(sigma, amp, steps)
