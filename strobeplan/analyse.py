@@ -347,7 +347,7 @@ class Analysis:
 
     @property
     def calibration_offset_s(self):
-        return self.summary.get("calibration", {}).get("offset_s")
+        return (self.summary.get("calibration") or {}).get("offset_s")
 
 
 def _finding(code, severity, message):

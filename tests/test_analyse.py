@@ -275,6 +275,22 @@ def test_cli_outputs_and_write_rig(stack_dir, tmp_path):
     assert _listing(folder) == before
 
 
+def test_no_wave_writes_no_rig(tmp_path):
+    # blank frames: no pixel passes the SNR mask, so there is no offset to write (exit 2,
+    # one line) and nothing at all is written
+    folder = tmp_path / "blank"
+    _write_frames(folder, np.zeros((8, 40, 50), np.uint16))
+    out, new_rig = tmp_path / "out", tmp_path / "new.toml"
+    r = run_cli("analyse", example("levitator-40k"), folder, "--phases",
+                ",".join(str(45 * i) for i in range(8)), "-o", out, "--write-rig", new_rig)
+    assert "no calibration offset was measured" in _one_line_error(r)
+    assert not out.exists() and not new_rig.exists()
+    r = run_cli("analyse", example("levitator-40k"), folder, "--phases",
+                ",".join(str(45 * i) for i in range(8)), "--json")
+    assert r.exit_code == 0
+    assert [f["code"] for f in json.loads(r.stdout)["findings"]] == ["analyse.no_wave"]
+
+
 def test_colour_png_frames_are_reduced_to_luma(lev, tmp_path):
     rig, plan, grid, phases = lev
     grey = plane_stack(rig, plan, grid, phases, noise=0.0, offset_s=1e-6, dtype=np.uint8,
