@@ -858,9 +858,13 @@ def _at_view(rig, plan, grid, contrast, good, k_u, k_v, kind, sens, sens_how, ro
                                  "horizontal): the cutoff barely sees it, so its phase and "
                                  "pressure at the view are not measured; turn the knife edge"))
         return view_block, None, None, None
+    if rod and kind == "standing":
+        notes.append("rod stop and a standing wave: the square of the deflection mixes the two "
+                     "counter-waves, so the phase at the view is not measured (use a knife)")
+        return view_block, None, None, None
     if rod:
-        # eps^2 shows as Im[-i kappa E^2 / 2 exp(2 i phi)]: E from the square root of the
-        # second harmonic's two-wave fit (travelling waves), sign resolved towards the plan
+        # eps^2 shows as Im[-i R E^2 exp(2 i phi)] (R > 0): E from the square root of the
+        # second harmonic's fit at twice the wave vector, sign resolved towards the plan
         alpha2, beta2, cov, rms = demod.two_wave_fit(zz, x, y, 2 * k_u, 2 * k_v)
         alpha = np.sqrt(1j * alpha2)  # E^2 = i Z2 / R, R > 0: the phase of E up to pi
         beta = 0.0
