@@ -73,6 +73,23 @@ def test_plane_wave_pressure_through_the_cutoff_calibration(lev):
     assert p["plane_wave_uncertainty_pa"] < 0.02 * p["plane_wave_at_view_pa"]
 
 
+def test_schardin_lens_calibration(lev):
+    """A frame of a lens of focal length F (deflection -y/F, Settles 2001 ch. 10) sets the
+    sensitivity: the contrast's slope across it gives back S = 4000 per rad."""
+    rig, plan, grid, phases = lev
+    focal, s_true = 200.0, 4000.0  # a weak lens: contrast within +-0.25 over the frame
+    _, y = grid.offsets()
+    lens = 20000.0 * (1 + s_true * (-y[:, None] / focal) * np.ones((1, grid.nx)))
+    frames = plane_stack(rig, plan, grid, phases, noise=30.0, contrast=0.02)
+    a = analyse_frames(rig, frames, plan=plan, flat=np.full(frames.shape[1:], 20000.0),
+                       lens=(np.clip(np.rint(lens), 0, 65535).astype(np.uint16), focal)
+                       ).summary
+    assert a["deflection"]["method"] == "calibration lens"
+    assert a["deflection"]["sensitivity_per_rad"] == pytest.approx(s_true, rel=0.01)
+    # the travelling wave's peak contrast 0.02 is a deflection of 0.02 / S
+    assert a["deflection"]["peak_rad"] == pytest.approx(0.02 / s_true, rel=0.02)
+
+
 def test_oblique_wave_direction(lev):
     rig, plan, grid, phases = lev
     d = np.asarray(grid.v) * 0.8 + np.asarray(grid.u) * 0.6
