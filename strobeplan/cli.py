@@ -311,14 +311,23 @@ def _solve_with_text(rig_path: str):
 @click.argument("rig", type=click.Path(allow_dash=True))
 @click.option("-o", "--output", type=click.Path(allow_dash=True), required=True,
               help="The HTML file to write (atomically); - for standard output.")
-def report(rig, output):
+@click.option("--frames", multiple=True, metavar="FILES",
+              help="Captured frames (files, folders or globs; repeat the option): adds a "
+                   "\"measured against planned\" section (strobeplan analyse).")
+def report(rig, output, frames):
     """Write one self-contained HTML report: verdict, findings, plots, tables, the rig."""
     from .report.html import report_html
 
     _check_output(output, rig)
     plan, text = _solve_with_text(rig)
     with user_errors():
-        page = report_html(plan, rig_text=text, tune_result=_search_for_plot(plan))
+        measured = None
+        if frames:
+            from .analyse import analyse_frames
+
+            measured = analyse_frames(plan.rig, list(frames), plan=plan)
+        page = report_html(plan, rig_text=text, tune_result=_search_for_plot(plan),
+                           measured=measured)
     _write_or_echo(page, output, rig)
 
 
@@ -359,6 +368,108 @@ def preview(rig, outdir, frames, seed, noise):
     for f in result.findings:
         click.echo(f"{f.severity.upper()} {f.code}: {clean(f.message)}")
     click.echo(f"wrote {len(written)} files to {clean(str(outdir))}", err=True)
+
+
+@cli.command()
+@click.argument("rig", type=click.Path(allow_dash=True))
+@click.argument("frames", nargs=-1, required=True)
+@click.option("-o", "--output", "outdir", type=click.Path(), default=None, metavar="DIR",
+              help="Write analyse.json, the maps (PNG with colour bars, 32-bit TIFF) to DIR "
+                   "(created if missing). Without it nothing is written.")
+@click.option("--phases", default=None, metavar="LIST",
+              help="The wave phase of each frame, comma-separated (deg unless a unit is "
+                   "given)  [default: the rig's schedule]")
+@click.option("--dark", default=None, metavar="FILE", help="Dark frame, subtracted.")
+@click.option("--flat", default=None, metavar="FILE",
+              help="Flat (no-sound) frame: the background of the contrast.")
+@click.option("--lens", default=None, metavar="FILE",
+              help="Schardin calibration: a frame of a lens of known focal length in the test "
+                   "region (with --lens-focal-length).")
+@click.option("--lens-focal-length", default=None, metavar="LENGTH",
+              help="Focal length of the --lens calibration lens, e.g. 2m.")
+@click.option("--json", "as_json", is_flag=True, help="Print analyse.json (and nothing else).")
+@click.option("--write-rig", "write_rig", type=click.Path(), default=None, metavar="FILE",
+              help="Write a copy of the rig with the measured strobe.calibration_offset.")
+def analyse(rig, frames, outdir, phases, dark, flat, lens, lens_focal_length, as_json,
+            write_rig):
+    """Demodulate captured phase-stepped frames: amplitude and phase maps, the measured
+    wavelength, speed of sound and air temperature, the phase and pressure at the view,
+    and the calibration offset that makes the plan agree with the frames.
+
+    FRAMES are files, folders or glob patterns (PNG or TIFF, 8 or 16 bit, grey or colour;
+    multi-page TIFFs), in schedule order.
+    """
+    import math
+    from pathlib import Path
+
+    from .analyse import (
+        analyse_frames,
+        output_files,
+        parse_phases,
+        rig_with_offset,
+        summary_json,
+        summary_text,
+    )
+    from .io import check_target, read_rig_bytes, write_atomic
+    from .rig import loads_rig
+    from .solve import solve
+
+    if (lens is None) != (lens_focal_length is None):
+        raise InputError("--lens and --lens-focal-length go together")
+    focal = _quantity(lens_focal_length, "length", "--lens-focal-length") \
+        if lens_focal_length else None
+    if focal is not None and not focal > 0:
+        raise InputError(f"--lens-focal-length {lens_focal_length!r}: expected a positive "
+                         "length")
+    _check_output(write_rig, rig)
+    out = None
+    if outdir is not None:
+        out = Path(outdir)
+        if out.exists() and not out.is_dir():
+            raise InputError(f"-o {outdir}: exists and is not a folder")
+        if not out.exists() and not out.parent.is_dir():
+            raise InputError(f"-o {outdir}: the folder {out.parent} does not exist")
+    with user_errors():
+        data, where = read_rig_bytes(rig)
+        model = loads_rig(data, where=where)
+        text = data.decode("utf-8").removeprefix("\ufeff")
+        plan = solve(model)
+        given = parse_phases(phases) if phases is not None else None
+        result = analyse_frames(model, list(frames),
+                                None if given is None else [math.degrees(x) for x in given],
+                                plan=plan, dark=dark, flat=flat,
+                                lens=None if lens is None else (lens, focal))
+        files = output_files(result) if out is not None else {}
+        new_rig = None
+        if write_rig is not None:
+            offset = result.calibration_offset_s
+            if offset is None:
+                raise InputError("--write-rig: no calibration offset was measured (see the "
+                                 "findings); the rig is not written")
+            new_rig = rig_with_offset(text, offset)
+        if out is not None:
+            if not out.exists():
+                try:
+                    out.mkdir()
+                except OSError as exc:
+                    raise InputError(f"-o {outdir}: cannot be created ({exc.strerror})") \
+                        from None
+            for name in files:
+                check_target(out / name, rig)
+            for name, payload in files.items():
+                write_atomic(out / name, payload, rig)
+        if new_rig is not None:
+            write_atomic(write_rig, new_rig, rig)
+    click.echo(summary_json(result) if as_json else summary_text(result), nl=False)
+    if out is not None and not as_json:
+        from .safetext import clean
+
+        click.echo(f"wrote {len(files)} files to {clean(str(out))}", err=True)
+    if new_rig is not None and not as_json:
+        from .safetext import clean
+
+        click.echo(f"wrote the rig with the measured calibration offset to "
+                   f"{clean(write_rig)}", err=True)
 
 
 @cli.command()

@@ -251,3 +251,25 @@ def eye_hazard(plan):
                        "a caution, not a certification",
                value=e.time_to_limit_s, limit=EYE_HAZARD_TIME, unit="s",
                when=t < EYE_HAZARD_TIME)
+
+
+@rule("image.steps_alias", "warning",
+      trigger="the phase sweep has fewer steps than the cutoff's response needs: N equal "
+              "steps resolve harmonics up to (N - 1)/2 only, and the clipped knife's (or the "
+              "rod's) higher harmonics over 2 % of the signal alias onto the harmonics "
+              "`strobeplan analyse` fits",
+      fix="raise sweep.steps to image.min_phase_steps or more, or keep the deflection inside "
+          "the cutoff's linear range (a smaller optics.cut_fraction)",
+      example=("levitator-40k", {"optics.cut_fraction": 0.97, "sweep.steps": 6}))
+def steps_alias(plan):
+    i = plan.image
+    sweep = plan.rig.sweep
+    if i is None or i.min_phase_steps is None or sweep is None or sweep.steps is None \
+            or sweep.slow_motion is not None:
+        return None
+    n = sweep.steps
+    return Hit(lambda: f"{n} phase steps resolve harmonics up to {(n - 1) // 2}; the cutoff's "
+                       f"response carries harmonics up to order {int(i.harmonic_order)}, which "
+                       f"needs {int(i.min_phase_steps)} steps or more",
+               value=n, limit=i.min_phase_steps, unit="1",
+               when=np.asarray(i.min_phase_steps) > n)

@@ -225,3 +225,43 @@ def diffraction_blur(light_wavelength, focal_length, mirror_diameter):
        sigma ~ 0.42 lambda N (common practice).
     """
     return _out(0.42 * _a(light_wavelength) * _a(focal_length) / _a(mirror_diameter))
+
+
+def harmonic_amplitudes(amplitude, height, rod, cut_fraction, width, blur=0.0, orders=8,
+                        samples=64):
+    """Amplitudes of harmonics 1..orders of the transmission under a sinusoidal shift.
+
+    A clipped knife adds odd (and, with an off-centre cut, even) harmonics; a rod stop's
+    response is even in the shift, so its harmonics are even. These are what a phase-stepped
+    sequence must resolve (strobeplan.physics.demod.min_steps).
+
+    Parameters
+    ----------
+    amplitude : float or ndarray
+        Peak shift of the source image at the cutoff. [m]
+    height, cut_fraction, width, blur : float or ndarray
+        As in :func:`transmission`. [m] or [1]
+    rod : bool or ndarray
+        True for a rod stop. [1]
+    orders : int
+        Highest order returned (below samples / 2). [1]
+    samples : int
+        Points per period. [1]
+
+    Returns
+    -------
+    ndarray, shape (..., orders)
+        Amplitude of each order (relative to the open image). [1]
+
+    References
+    ----------
+    1. Settles (2001), sec. 3.4-3.5 (clipping beyond the measuring range; dark field).
+    """
+    theta = 2.0 * np.pi * np.arange(samples) / samples
+    args = np.broadcast_arrays(_a(amplitude), _a(height), _a(rod).astype(bool),
+                               _a(cut_fraction), _a(width), _a(blur))
+    amp, h, r, c, w, b = (x[..., None] for x in args)
+    t = transmission(amp * np.sin(theta), h, r, c, w, b)
+    m = np.arange(1, orders + 1)
+    basis = np.exp(-1j * np.outer(theta, m))  # (samples, orders)
+    return 2.0 * np.abs(t @ basis / samples)

@@ -393,7 +393,8 @@ def _preview(plan) -> str:
             "</figcaption></figure>" + (f'<ul class="missing">{notes}</ul>' if notes else ""))
 
 
-def report_html(plan, rig_text: str | None = None, plots=PLOT_ORDER, tune_result=None) -> str:
+def report_html(plan, rig_text: str | None = None, plots=PLOT_ORDER, tune_result=None,
+                measured=None) -> str:
     """The whole report as one self-contained HTML page.
 
     Parameters
@@ -407,6 +408,9 @@ def report_html(plan, rig_text: str | None = None, plots=PLOT_ORDER, tune_result
         the reason instead).
     tune_result : strobeplan.tune.TuneResult, optional
         The design search of the rig, for the trade-off plot.
+    measured : strobeplan.analyse.Analysis, optional
+        Captured frames analysed (``report --frames``): a "Measured against planned"
+        section (strobeplan/report/measured.py).
 
     Returns
     -------
@@ -439,7 +443,8 @@ def report_html(plan, rig_text: str | None = None, plots=PLOT_ORDER, tune_result
         '<li><a href="#findings">Findings</a></li><li><a href="#cautions">Safety</a></li>'
         '<li><a href="#plots">Plots</a></li><li><a href="#preview">Preview</a></li>'
         '<li><a href="#plan">Plan</a></li>'
-        '<li><a href="#schedule">Schedule</a></li><li><a href="#rig">Rig file</a></li>'
+        + ('<li><a href="#measured">Measured</a></li>' if measured is not None else "")
+        + '<li><a href="#schedule">Schedule</a></li><li><a href="#rig">Rig file</a></li>'
         "</ul></nav>",
         '<section id="findings"><h2>Findings</h2>',
         _findings(plan),
@@ -461,6 +466,11 @@ def report_html(plan, rig_text: str | None = None, plots=PLOT_ORDER, tune_result
     parts += ["</section>", '<section id="preview"><h2>Preview</h2>', _preview(plan),
               "</section>", '<section id="plan"><h2>Plan</h2>']
     parts += [_section_table(name, section) for name, section in plan.sections()]
+    if measured is not None:
+        from .measured import measured_html
+
+        parts += ["</section>", '<section id="measured"><h2>Measured against planned</h2>',
+                  measured_html(measured)]
     parts += ["</section>", '<section id="schedule"><h2>Schedule (first rows)</h2>',
               _schedule(plan), "</section>",
               '<section id="rig"><h2>Rig file</h2>', _rig_text(plan, rig_text), "</section>",

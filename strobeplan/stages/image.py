@@ -32,11 +32,13 @@ import numpy as np
 
 from ..physics import camera as cam_model
 from ..physics import cutoff as cut_model
-from ..physics import imaging
+from ..physics import demod, imaging
 from ..physics import photobiology as eye_model
 from ..plan import Section, q
 
 TOO_DARK = 0.10  # background under 10 % of full scale: "too dark" (documented default)
+HARMONICS_CHECKED = 12  # cutoff harmonics examined for the phase sweep's aliasing
+ALIAS_FRACTION = 0.02  # a harmonic over 2 % of the signal's must be resolved (~1 deg)
 
 
 @dataclass
@@ -75,6 +77,8 @@ class ImageSection(Section):
     background_transmission: float = q("ratio")
     fundamental: float | None = q()
     second_harmonic: float | None = q()
+    harmonic_order: int | None = q(default=None)
+    min_phase_steps: int | None = q(default=None)
     light_wavelength_m: float | None = q("length", default=None)
     flux_peak_w: float | None = q("power", default=None)
     wall_plug_efficiency: float | None = q("ratio", default=None)
@@ -124,6 +128,12 @@ def _val(x):
     if x is None:
         return None
     return float(x) if np.ndim(x) == 0 else np.asarray(x)
+
+
+def _int(x):
+    if x is None:
+        return None
+    return int(x) if np.ndim(x) == 0 else np.asarray(x, dtype=np.int64)
 
 
 def _flag(x):
@@ -223,6 +233,13 @@ def compute(rig, design, plan) -> ImageSection | None:
         section.saturated = _flag(shift > rng)
         section.fundamental = _val(first)
         section.second_harmonic = _val(second)
+        # the highest harmonic the phase sweep must resolve, and the fewest equal steps
+        # that do (N steps resolve orders up to (N - 1) / 2: physics/demod.py)
+        amps = cut_model.harmonic_amplitudes(shift, img_h, rod, opt.cut_fraction, width, blur,
+                                             orders=HARMONICS_CHECKED)
+        top = demod.highest_significant_order(amps, order, ALIAS_FRACTION)
+        section.harmonic_order = _int(top)
+        section.min_phase_steps = _int(demod.min_steps(top))
     _light_budget(rig, design, plan, section, img_w, img_h, lens_pass, retention)
     return section
 
