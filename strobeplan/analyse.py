@@ -33,6 +33,7 @@ What is measured (each with its uncertainty):
 
 from __future__ import annotations
 
+import cmath
 import glob
 import math
 import os
@@ -879,7 +880,12 @@ def _at_view(rig, plan, grid, contrast, good, k_u, k_v, kind, sens, sens_how, ro
         p_rel = demod.pressure_phasor_from_gradient(alpha, beta, k_v)
         var = cov[0, 0] + cov[1, 1]
         d_sigma = math.sqrt(max(var, 0.0)) / max(abs(alpha - beta), 1e-300)
-    delta = float(np.angle(p_rel))
+    # The frames show the line-of-sight integral Q of the pressure, whose phase at the view
+    # differs from the pressure's there by the projection's phase (a spreading beam): the
+    # plan is right when Q's phasor has that phase, not zero.
+    projection = _projection_phase(rig, grid, f, speed)
+    view_block["line_of_sight_phase_deg"] = math.degrees(projection)
+    delta = float(np.angle(p_rel * cmath.exp(-1j * projection)))
     measured = planned + math.degrees(delta)
     change = -delta / omega  # the wave arrives later by this much than the plan says
     period = 1.0 / f
@@ -939,6 +945,19 @@ def _at_view(rig, plan, grid, contrast, good, k_u, k_v, kind, sens, sens_how, ro
                 "spl_at_view_db": (20 * math.log10(p_amp / (math.sqrt(2) * 20e-6))
                                    if p_amp > 0 else None)}
     return view_block, calib, pressure, deflection
+
+
+def _projection_phase(rig, grid, frequency, speed):
+    """arg(Q / p) at the view: the line-of-sight integral's phase against the pressure's
+    (0 without an emitter, e.g. a plane wave given only by its wavelength). [rad]"""
+    if rig.emitter is None:
+        return 0.0
+    from .stages.field import view_projection
+
+    q_view, p_view = view_projection(rig, grid, frequency, speed=speed)
+    if not (abs(q_view) > 0 and abs(p_view) > 0):
+        return 0.0
+    return cmath.phase(q_view / p_view)
 
 
 def _lens_sensitivity(lens, grid, stack, background):

@@ -34,6 +34,7 @@ mid-grey background, the view's largest deflection at half the linear range, no 
 
 from __future__ import annotations
 
+import cmath
 import math
 from dataclasses import dataclass, field
 
@@ -362,14 +363,10 @@ def render_preview(rig, plan=None, *, frames=None, noise=True, seed=0, progress=
 
     u_nodes, v_nodes, s_pos, s_w = _lattice(grid, lam, offset)
     total = v_nodes.size + n_rows
-    walls = [(np.asarray(r.position, float), np.asarray(r.normal, float) /
-              np.linalg.norm(r.normal)) for r in rig.reflectors]
+    from .stages.field import room_pressure, view_projection
 
     def pressure(pts):
-        p = pressure_at(rig, pts, f, speed=speed)[0]
-        for q0, nrm in walls:  # no sound behind a reflector (the images model the room)
-            p = np.where((pts - q0) @ nrm < 0.0, 0.0, p)
-        return p
+        return room_pressure(rig, pts, f, speed=speed)
 
     q_lat, peak_p = project(pressure, grid, u_nodes, v_nodes, s_pos, s_w,
                             None if progress is None else (lambda i: progress(i, total)))
@@ -418,6 +415,9 @@ def render_preview(rig, plan=None, *, frames=None, noise=True, seed=0, progress=
                                    points, n_src, k_gd, level_source, phases, gains, noise,
                                    seed)
     summary["pressure_phase_at_view_deg"] = math.degrees(theta)
+    q_view, _ = view_projection(rig, grid, f, speed=speed)
+    summary["line_of_sight_phase_deg"] = math.degrees(cmath.phase(q_view / p_view)) \
+        if abs(p_view) > 0 and abs(q_view) > 0 else None
     sigma = o.resolution / 2.3548
     summary["blur_fwhm_m"] = o.resolution
     summary["blur_contrast_at_sound_wavelength"] = (

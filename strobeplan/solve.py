@@ -105,3 +105,25 @@ def solve(rig, design: Design | None = None, *, checks: bool = True,
 def build_schedule(plan: Plan, steps: int | None = None) -> timing.Schedule:
     """The per-frame schedule of a solved plan (scalar design)."""
     return timing.schedule(plan.rig, plan, plan.lock, steps=steps)
+
+
+class _SolveModule(type(np)):
+    """This module, callable as :func:`solve`.
+
+    ``from strobeplan import solve`` must give the function, but once any code has imported
+    the submodule ``strobeplan.solve`` the package's attribute of that name is the module
+    (the import system binds it after the module runs). Making the module call ``solve``
+    makes both spellings work in any import order.
+    """
+
+    def __call__(self, *args, **kwargs):
+        return solve(*args, **kwargs)
+
+
+def _make_callable():
+    import sys
+
+    sys.modules[__name__].__class__ = _SolveModule
+
+
+_make_callable()

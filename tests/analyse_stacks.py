@@ -2,7 +2,11 @@
 
 The image model is the one strobeplan/analyse.py states: the contrast (I - I0)/I0 is
 S eps_v, with eps_v = passes L K / c^2 dp/dv (a plane or standing wave uniform over the
-sound path L), and the wave seen at phase phi has the pressure Im[P(r) exp(i phi)].
+sound path L), and the wave seen at phase phi has the pressure Im[P(r) exp(i phi)]. The
+picture shows the line-of-sight integral of the rig's field, whose phase at the view leads
+the pressure's there by the projection's phase (``los_phase``, by default the rig's own from
+:func:`strobeplan.stages.field.view_projection`): the stacks carry it, as a real image of
+the rig would.
 """
 
 from __future__ import annotations
@@ -14,7 +18,8 @@ import numpy as np
 
 def plane_stack(rig, plan, grid, phases, *, kind="travelling", offset_s=0.0, contrast=0.05,
                 noise=0.0, background=20000.0, seed=0, direction=None, wavelength=None,
-                antinode_shift=0.0, dtype=np.uint16, harmonic3=0.0, rod=False):
+                antinode_shift=0.0, dtype=np.uint16, harmonic3=0.0, rod=False,
+                los_phase=None):
     """(N, ny, nx) frames of a plane (or standing) wave on ``grid`` at ``phases`` [rad].
 
     The pressure's phase at the view is 0 at phase 0 when ``offset_s`` = 0; a positive
@@ -34,7 +39,15 @@ def plane_stack(rig, plan, grid, phases, *, kind="travelling", offset_s=0.0, con
     s = pts @ d  # distance along the wave's direction from the view
     kv = k * float(d @ grid.v)
     omega = 2 * math.pi * f
-    lag = omega * offset_s
+    if los_phase is None:
+        from strobeplan.stages.field import view_projection
+
+        if rig.emitter is None:
+            los_phase = 0.0
+        else:
+            q_view, p_view = view_projection(rig, grid, f, plan.air.speed_of_sound_m_s)
+            los_phase = float(np.angle(q_view / p_view))
+    lag = omega * offset_s - los_phase
     if kind == "travelling":
         grad = -1j * kv * np.exp(-1j * k * s)  # d/dv of exp(-i k s)
     else:  # standing: cos(k (s - shift)) / cos(k (0 - shift)) keeps P(view) = 1

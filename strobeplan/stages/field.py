@@ -109,6 +109,38 @@ def pressure_at(rig, points, frequency, temperature=None, speed=None):
     return p, order, converged, len(sources), assumed, known
 
 
+def room_pressure(rig, points, frequency, speed=None):
+    """Complex pressure at points [Pa], with no sound behind a reflector (its image sources
+    model the room in front of it)."""
+    pts = np.asarray(points, dtype=float)
+    p = pressure_at(rig, pts, frequency, speed=speed)[0]
+    for r in rig.reflectors:
+        n = np.asarray(r.normal, dtype=float)
+        n = n / np.linalg.norm(n)
+        p = np.where((pts - np.asarray(r.position, dtype=float)) @ n < 0.0, 0.0, p)
+    return p
+
+
+def view_projection(rig, grid, frequency, speed=None):
+    """(Q, p): the line-of-sight integral of the pressure through the view point over the
+    view's depth (trapezoid rule at ``grid.samples`` points) [Pa m] and the pressure there
+    [Pa].
+
+    A schlieren image shows the integral, not the pressure at the view point: for a beam
+    that spreads across the light their phases differ (by up to about 45 deg in the far
+    field, the stationary-phase value of a spherical wave projected along a line), so the
+    image's phase at the view is arg(Q), the plan's arg(p).
+    """
+    from ..physics.lineofsight import trapezoid_weights
+
+    point = view_point(rig)
+    s, w = trapezoid_weights(grid.samples, grid.depth_m)
+    pts = point + s[:, None] * grid.light_axis
+    q_view = complex(room_pressure(rig, pts, frequency, speed=speed) @ w)
+    p_view = complex(pressure_at(rig, point, frequency, speed=speed)[0])
+    return q_view, p_view
+
+
 def _phase_at(rig, frequency, temperature):
     p = pressure_at(rig, view_point(rig), frequency, temperature=temperature)[0]
     return float(np.angle(p))

@@ -30,8 +30,8 @@ def test_normal_equations_equal_lstsq_at_any_steps(phases, a0, theta, amp):
     rng = np.random.default_rng(1)
     data = (a0 + amp * np.sin(phases + theta))[:, None] + rng.normal(0, 1, (len(phases), 5))
     b = demod.harmonic_basis(phases, (1, 2))
-    if np.linalg.cond(b) > 1e8:
-        return
+    if np.linalg.cond(b) > 1e3:  # the normal equations square the condition number:
+        return                     # cond 1e3 leaves ~1e-10 of double precision
     coef, var, _ = _fit(data, phases)
     # oracle: numpy's least squares on the whole stack, and its residual sum of squares
     ref, rss, *_ = np.linalg.lstsq(b, data, rcond=None)
