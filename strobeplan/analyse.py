@@ -826,8 +826,8 @@ def _window(grid, row, col, radius_px, mask):
 def _at_view(rig, plan, grid, contrast, good, k_u, k_v, kind, sens, sens_how, rod, phases,
              notes, findings, lens, speed, stack, background):
     """Phase and pressure at the view from a two-wave fit of the contrast map around it."""
-    from .physics import schlieren
     from .stages.field import view_point
+    from .stages.optics import gladstone_dale
 
     view = view_point(rig) if rig.emitter is not None or rig.view is not None else grid.centre
     row, col = grid.pixel_of(view)
@@ -923,7 +923,7 @@ def _at_view(rig, plan, grid, contrast, good, k_u, k_v, kind, sens, sens_how, ro
         return view_block, calib, None, None
     passes = opt.passes
     length = opt.sound_path
-    kk = schlieren.gladstone_dale(opt.light_wavelength)
+    kk = gladstone_dale(rig)
     grad = abs(alpha) + abs(beta)  # the largest contrast of the pattern
     eps_peak = grad / sens
     eps_sigma = math.sqrt(max(cov[0, 0] + cov[1, 1], 0.0)) / sens
@@ -989,8 +989,8 @@ def _abel(rig, plan, grid, contrast, good, wave, sens, notes):
     ny, nx = contrast.shape
     if not (0 <= col0 < nx):
         return None
-    from .physics import schlieren
     from .stages.field import view_point
+    from .stages.optics import gladstone_dale
 
     row_v, _ = grid.pixel_of(view_point(rig))
     lam_px = wave["wavelength_m"] / grid.pixel_m
@@ -1024,7 +1024,7 @@ def _abel(rig, plan, grid, contrast, good, wave, sens, notes):
     on_axis = inv[:, 0]
     alpha, beta, cov, _ = demod.two_wave_fit(on_axis, np.zeros_like(y), y, k_u * 0, k_v)
     p_rel = demod.pressure_phasor_from_gradient(alpha, beta, k_v)
-    kk = schlieren.gladstone_dale(opt.light_wavelength)
+    kk = gladstone_dale(rig)
     speed = wave["speed_of_sound_m_s"]
     scale = speed**2 / (sens * opt.passes * kk)
     p = abs(p_rel) * scale

@@ -44,7 +44,6 @@ from .errors import StrobeplanError
 from .physics import camera as cam_model
 from .physics import cutoff as cut_model
 from .physics import lineofsight as los
-from .physics import refraction
 from .plan import Finding
 from .viewgrid import ViewGrid, view_grid
 
@@ -364,6 +363,7 @@ def render_preview(rig, plan=None, *, frames=None, noise=True, seed=0, progress=
     u_nodes, v_nodes, s_pos, s_w = _lattice(grid, lam, offset)
     total = v_nodes.size + n_rows
     from .stages.field import room_pressure, view_projection
+    from .stages.optics import gladstone_dale
 
     def pressure(pts):
         return room_pressure(rig, pts, f, speed=speed)
@@ -377,11 +377,7 @@ def render_preview(rig, plan=None, *, frames=None, noise=True, seed=0, progress=
     theta = math.atan2(p_view.imag, p_view.real)
 
     # Deflection map: dQ/dv at the pixels, one or two passes.
-    opt = rig.optics
-    light = opt.light_wavelength if opt is not None else 630e-9
-    a = rig.air
-    k_gd = float(refraction.gladstone_dale(light, a.temperature, a.pressure,
-                                           a.relative_humidity, a.co2 * 1e6))
+    k_gd = gladstone_dale(rig)
 
     def one_pass(shift):
         return los.deflection_map(pixel_maps(q_lat, u_nodes, v_nodes, grid, shift)[1], k_gd,

@@ -21,7 +21,7 @@ _SUFFIX = {"time": "_s", "frequency": "_hz", "voltage": "_v", "current": "_a", "
            "temperature_difference": "_k", "deg": "_deg", "dB": "_db", "ppm": "_ppm",
            "ticks": "_ticks", "m/s": "_m_s", "kg/m3": "_kg_m3", "dB/m": "_db_m",
            "deg/s": "_deg_per_s", "rad": "_rad", "A s": "_a_s", "/rad": "_per_rad",
-           "W/(m2 sr)": "_w_m2_sr"}
+           "W/(m2 sr)": "_w_m2_sr", "m3/kg": "_m3_kg"}
 
 
 CAUTION = ("Caution: strobeplan is a planning aid, not a safety certification. Overdriven LEDs "

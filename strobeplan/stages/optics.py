@@ -22,7 +22,7 @@ SAFETY_DISTANCE = 1.0
 
 @dataclass
 class OpticsSection(Section):
-    """Design §4 ``optics``: SPL at the view and the schlieren contrast it makes."""
+    """The ``optics`` section: SPL at the view and the schlieren contrast it makes."""
 
     spl_at_view_db: float = q("dB")
     spl_source: str = q()
@@ -33,6 +33,7 @@ class OpticsSection(Section):
     near_field_m: float | None = q("length")
     in_near_field: bool | None = q()
     deflection_rad: float | None = q("rad")
+    gladstone_dale: float | None = q("m3/kg", json="gladstone_dale_m3_kg")
     contrast: float | None = q()
     visible_contrast: float | None = q()
     min_contrast: float | None = q()
@@ -50,6 +51,17 @@ def _datasheet_spl(em, frequency, absorption, distance):
     return float(acoustics.spl_at_view(
         em.spl_at_reference, em.reference_distance, ref_v, drive_v, distance, absorption, h,
     ))
+
+
+def gladstone_dale(rig) -> float:
+    """K = (n - 1)/rho of the rig's air at the light's wavelength (Ciddor 1996 moist-air
+    index; the one value the optics, the preview and analyse use). [m^3/kg]"""
+    from ..physics import refraction
+
+    light = rig.optics.light_wavelength if rig.optics is not None else 630e-9
+    a = rig.air
+    return float(refraction.gladstone_dale(light, a.temperature, a.pressure,
+                                           a.relative_humidity, a.co2 * 1e6))
 
 
 def compute(rig, design, plan) -> OpticsSection | None:
@@ -88,13 +100,15 @@ def compute(rig, design, plan) -> OpticsSection | None:
         spl_at_view_db=float(spl), spl_source=source, spl_estimate_db=estimate,
         spl_at_1m_db=at_1m, detuning_loss_db=loss, pressure_amplitude_pa=p,
         near_field_m=near, in_near_field=(em.distance_to_view < near) if near else None,
-        deflection_rad=None, contrast=None, visible_contrast=None, min_contrast=None,
-        saturated=None,
+        deflection_rad=None, gladstone_dale=None, contrast=None, visible_contrast=None,
+        min_contrast=None, saturated=None,
     )
     opt = rig.optics
     if opt is not None:
         rho = schlieren.density_amplitude(p, speed)
-        n1 = schlieren.index_amplitude(rho, schlieren.gladstone_dale(opt.light_wavelength))
+        k_gd = gladstone_dale(rig)
+        section.gladstone_dale = k_gd
+        n1 = schlieren.index_amplitude(rho, k_gd)
         eps = float(schlieren.deflection(opt.passes, opt.sound_path,
                                          schlieren.wavenumber(f, speed), n1))
         contrast = float(schlieren.knife_edge_contrast(opt.cutoff_distance, eps,
