@@ -70,6 +70,11 @@ def exit_code_for(verdict: str) -> int:
 
 
 def _solve(rig_path: str):
+    import os
+
+    # The rig's models need no pydantic plugins: skip pydantic's scan of every installed
+    # package's entry points on the first validation (unless the user set the variable).
+    os.environ.setdefault("PYDANTIC_DISABLE_PLUGINS", "__all__")
     from .rig import load_rig
     from .solve import solve
 

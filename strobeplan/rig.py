@@ -143,7 +143,7 @@ def _as_list(value):
 
 
 class _Model(BaseModel):
-    model_config = ConfigDict(extra="forbid", frozen=True)
+    model_config = ConfigDict(extra="forbid", frozen=True, defer_build=True)
 
 
 # --- sections -----------------------------------------------------------------------------

@@ -27,11 +27,11 @@ from __future__ import annotations
 import math
 import operator
 from collections.abc import Sequence
-from dataclasses import dataclass
 
 import numpy as np
 
 from .plan import scalar
+from .quickdc import dataclass
 
 TWO_PI = 2.0 * math.pi
 

@@ -32,13 +32,13 @@ from __future__ import annotations
 
 import math
 import time
-from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
 
 from .design import Design
 from .physics.air import ZERO_CELSIUS
+from .quickdc import dataclass
 from .search_space import (
     AVOID,
     Candidate,

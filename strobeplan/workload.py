@@ -14,9 +14,9 @@ the measured rate (:data:`CANDIDATES_PER_SECOND`).
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
 
 from .errors import StrobeplanError
+from .quickdc import dataclass
 
 __all__ = ["Estimate", "WorkloadError", "estimate", "require_within", "tune_estimate",
            "require_schedule_rows", "MAX_CANDIDATES", "CANDIDATES_PER_SECOND",
