@@ -444,19 +444,64 @@ def stuck_on_transient(supply_voltage, capacitance, esr, series_resistor, on_res
     peak, peak_t = rise0.copy(), np.zeros(shape)
     crossed = rise0 >= allowed
     b_k = np.full(shape, -1)
-    block = max(1, (1 << 22) // max(1, math.prod(shape)))
-    for j in range(0, n_steps + 1, block):
-        rise = rise0[..., None] * decay[..., j:j + block] + rise_zero[..., j:j + block]
-        above = rise >= allowed[..., None]
-        first = ~crossed & above.any(axis=-1)
-        b_k = np.where(first, j + np.argmax(above, axis=-1), b_k)
-        crossed = crossed | first
-        kk = np.argmax(rise, axis=-1)
-        top = np.take_along_axis(rise, kk[..., None], axis=-1)[..., 0]
-        higher = top > peak
-        t_top = np.take_along_axis(np.broadcast_to(grid[..., j:j + block], rise.shape),
-                                   kk[..., None], axis=-1)[..., 0]
-        peak, peak_t = np.where(higher, top, peak), np.where(higher, t_top, peak_t)
+    if np.isnan(decay).any() or np.isnan(rise_zero).any():
+        # (np.argmax stops at a NaN: keep the blocked form's answer in that corner)
+        block = max(1, (1 << 22) // max(1, math.prod(shape)))
+        for j in range(0, n_steps + 1, block):
+            rise = rise0[..., None] * decay[..., j:j + block] + rise_zero[..., j:j + block]
+            above = rise >= allowed[..., None]
+            first = ~crossed & above.any(axis=-1)
+            b_k = np.where(first, j + np.argmax(above, axis=-1), b_k)
+            crossed = crossed | first
+            kk = np.argmax(rise, axis=-1)
+            top = np.take_along_axis(rise, kk[..., None], axis=-1)[..., 0]
+            higher = top > peak
+            t_top = np.take_along_axis(np.broadcast_to(grid[..., j:j + block], rise.shape),
+                                       kk[..., None], axis=-1)[..., 0]
+            peak, peak_t = np.where(higher, top, peak), np.where(higher, t_top, peak_t)
+    else:
+        # Step by step, over the candidates at once (no reduction along the short step
+        # axis): the same rise0 x decay + zero-state rise per step, the first maximum
+        # (strictly higher replaces) and the first crossing kept per candidate. The
+        # candidates are laid out as (the axes the circuit does not vary along, the
+        # circuit's axes), so each step is a long run of memory.
+        nd = len(shape)
+        cpad = (1,) * (nd - len(cshape)) + tuple(cshape)
+        perm = [i for i in range(nd) if cpad[i] == 1] + [i for i in range(nd) if cpad[i] != 1]
+        n_c = math.prod(cshape)
+        n_a = math.prod(shape) // max(n_c, 1)
+
+        def flat(x):
+            return np.ascontiguousarray(np.broadcast_to(x, shape).transpose(perm)).reshape(
+                n_a, n_c)
+
+        def per_step(x):
+            return np.ascontiguousarray(x.reshape(n_c, -1).T)
+
+        r0, lim = flat(rise0), flat(allowed)
+        d_k, z_k, g_k = per_step(decay), per_step(rise_zero), per_step(grid)
+        pk, pt = r0.copy(), np.zeros(r0.shape)
+        bk = np.full(r0.shape, -1)
+        open_ = ~(r0 >= lim)
+        rise = np.empty(r0.shape)
+        hit = np.empty(r0.shape, dtype=bool)
+        higher = np.empty(r0.shape, dtype=bool)
+        for k in range(n_steps + 1):
+            np.multiply(r0, d_k[k], out=rise)
+            np.add(rise, z_k[k], out=rise)
+            np.greater_equal(rise, lim, out=hit)
+            np.logical_and(hit, open_, out=hit)
+            np.copyto(bk, k, where=hit)
+            np.logical_and(open_, ~hit, out=open_)
+            np.greater(rise, pk, out=higher)
+            np.copyto(pk, rise, where=higher)
+            np.copyto(pt, g_k[k], where=higher)
+        back = np.argsort(perm)
+        shaped = [shape[i] for i in perm]
+        peak, peak_t, b_k, crossed = (
+            x.reshape(shaped).transpose(back) for x in (pk, pt, bk, ~open_))
+        if not shape:
+            crossed = crossed[()]
     # First crossing inside its interval: bisection on the exact in-interval response from
     # the state at the interval's start (only for the candidates that cross during it).
     hi = np.zeros(shape)
