@@ -51,7 +51,8 @@ def install(target: Path) -> None:
     """A regular install of this checkout into ``target`` (byte-compiled by pip)."""
     subprocess.run([sys.executable, "-m", "pip", "install", "--quiet", "--no-deps",
                     "--target", str(target), str(ROOT)],
-                   check=True, stdout=subprocess.DEVNULL)
+                   check=True, stdout=subprocess.DEVNULL,
+                   env={**os.environ, "PIP_ROOT_USER_ACTION": "ignore"})
     subprocess.run([sys.executable, "-m", "compileall", "-q", str(target / "strobeplan")],
                    check=True)
 

@@ -38,6 +38,7 @@ import numpy as np
 
 from .design import Design
 from .physics.air import ZERO_CELSIUS
+from .physics.supply import forget_circuits
 from .quickdc import dataclass
 from .search_space import (
     AVOID,
@@ -199,6 +200,18 @@ def tune(rig, limits: Limits | None = None, grid: Grid | None = None, *,
     if grid is None:
         grid = default_grid(rig, solve(rig, checks=False), **(grid_options or {}))
     known = rig_constants(rig)
+    forget_circuits()  # the stuck-on circuit response is shared by this search's chunks only
+    try:
+        return _search(rig, limits, grid, known, t0, chunk=chunk, runner_ups=runner_ups,
+                       progress=progress, refine=refine)
+    finally:
+        forget_circuits()
+
+
+def _search(rig, limits, grid, known, t0, *, chunk, runner_ups, progress, refine):
+    """The body of :func:`tune` (see there) once the grid and the rig's constants are set."""
+    from .solve import solve
+
     nw, nr, ne, nv = grid.shape
     rows = max(1, chunk // (nr * ne * nv))
     keep = runner_ups + 1

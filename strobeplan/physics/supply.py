@@ -574,6 +574,12 @@ class _CircuitResponse(NamedTuple):
 _LAST_CIRCUIT: list = []  # [(key, _CircuitResponse)]: the last circuit computed
 
 
+def forget_circuits() -> None:
+    """Drop the remembered stuck-on circuit response (a design search calls this when it
+    starts and ends, so the memory is held only during one search)."""
+    _LAST_CIRCUIT.clear()
+
+
 def _circuit_key(circuit, points_per_decade):
     arrays = [np.asarray(x, dtype=float) for x in circuit]
     return (points_per_decade, tuple((a.shape, a.tobytes()) for a in arrays))
