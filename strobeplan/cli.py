@@ -70,6 +70,11 @@ def exit_code_for(verdict: str) -> int:
 
 
 def _solve(rig_path: str):
+    import os
+
+    # The rig's models need no pydantic plugins: skip pydantic's scan of every installed
+    # package's entry points on the first validation (unless the user set the variable).
+    os.environ.setdefault("PYDANTIC_DISABLE_PLUGINS", "__all__")
     from .rig import load_rig
     from .solve import solve
 
@@ -87,11 +92,13 @@ def _check_output(output: str | None, rig_path: str | None = None) -> None:
         check_target(output, rig_path)
 
 
-def _write_or_echo(text: str, output: str | None, rig_path: str | None = None) -> None:
+def _write_or_echo(text, output: str | None, rig_path: str | None = None) -> None:
+    """Write ``text`` (a string, or an iterable of string chunks written as they come)."""
     from .io import write_atomic
 
     if output is None or output == "-":
-        click.echo(text, nl=False)
+        for chunk in ((text,) if isinstance(text, str) else text):
+            click.echo(chunk, nl=False)
         return
     with user_errors():
         write_atomic(output, text, rig_path)
@@ -151,12 +158,13 @@ def export(rig, fmt, output):
               help="Write to FILE (atomically) instead of standard output.")
 @click.option("--format", "fmt", type=click.Choice(["csv", "json"]), default="csv",
               show_default=True)
-@click.option("--steps", type=click.IntRange(1, 100_000), default=None,
-              help="Frames in the phase sweep (overrides [sweep] steps).")
+@click.option("--steps", type=click.IntRange(min=1), default=None,
+              help="Frames in the phase sweep (overrides [sweep] steps); streamed, any "
+                   "length within the work budget.")
 @click.option("--ticks", is_flag=True, help="Print only the integer timer values.")
 def schedule(rig, output, fmt, steps, ticks):
     """Per-frame trigger schedule: phase targets, timer edges, camera triggers."""
-    from .report.tables import schedule_csv, schedule_json, schedule_ticks
+    from .report.tables import iter_schedule_csv, iter_schedule_json, iter_schedule_ticks
     from .solve import build_schedule
 
     _check_output(output, rig)
@@ -164,10 +172,10 @@ def schedule(rig, output, fmt, steps, ticks):
     with user_errors():
         sched = build_schedule(plan, steps=steps)
     if ticks:
-        text = schedule_ticks(sched)
+        chunks = iter_schedule_ticks(sched)
     else:
-        text = schedule_json(sched) if fmt == "json" else schedule_csv(sched)
-    _write_or_echo(text, output, rig)
+        chunks = iter_schedule_json(sched) if fmt == "json" else iter_schedule_csv(sched)
+    _write_or_echo(chunks, output, rig)
 
 
 @cli.command()

@@ -10,10 +10,12 @@ one another; every section field then has the broadcast shape of what it depends
 
 from __future__ import annotations
 
-from dataclasses import dataclass, replace
+from dataclasses import replace
 from typing import Any
 
 import numpy as np
+
+from .quickdc import dataclass
 
 
 def realised_width(width, clock):

@@ -24,8 +24,9 @@ Run model (all counters start together at tick 0 of the controller clock):
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import field
 
+from .quickdc import dataclass
 from .stages.timer import assess, gate_ticks, sine_duty_table, timer_model
 
 

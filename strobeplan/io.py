@@ -222,20 +222,24 @@ def _target_mode(p: Path) -> int:
         return 0o666 & ~umask
 
 
-def write_atomic(path: str | Path, data: str | bytes, rig: str | None = None) -> None:
+def write_atomic(path: str | Path, data, rig: str | None = None) -> None:
     """Write ``data`` to ``path`` so that readers see the old file or the whole new one.
+
+    ``data`` is text, bytes, or an iterable of text or bytes chunks (written one after the
+    other as they come, so a long stream never sits whole in memory).
 
     ``path`` must pass :func:`check_target` (``rig`` is the rig being read, never
     overwritten). Raises OutputError (one line) when it cannot be written.
     """
     shown = clean(str(path), 80)
     target = check_target(path, rig)
-    raw = data.encode("utf-8") if isinstance(data, str) else data
+    chunks = (data,) if isinstance(data, (str, bytes, bytearray)) else data
     tmp = None
     try:
         fd, tmp = tempfile.mkstemp(prefix=".strobeplan-", suffix=".tmp", dir=target.parent)
         with os.fdopen(fd, "wb") as fh:
-            fh.write(raw)
+            for chunk in chunks:
+                fh.write(chunk.encode("utf-8") if isinstance(chunk, str) else chunk)
             fh.flush()
             os.fsync(fh.fileno())
         # mkstemp makes the file 0600; give it the mode a plain open() would (or keep the

@@ -11,7 +11,7 @@ Celsius (``q("temperature", json="junction_peak_c")``).
 from __future__ import annotations
 
 import math
-from dataclasses import MISSING, dataclass, fields, is_dataclass
+from dataclasses import MISSING, fields, is_dataclass
 from dataclasses import field as _field
 from typing import TYPE_CHECKING, Any
 
@@ -32,6 +32,7 @@ if TYPE_CHECKING:
     from .stages.timing import DriveSection, TimingSection
 
 from .physics.air import ZERO_CELSIUS  # [K] 0 degC, written once (physics/air.py)
+from .quickdc import dataclass
 
 # Units a field can declare: a units.py kind (rendered with SI prefixes) or a fixed text.
 UNIT_KINDS = {

@@ -13,7 +13,6 @@ global shutter, 8 bit; trigger link E24 with the series' own tolerance.
 """
 
 
-import difflib
 import math
 import tomllib
 from pathlib import Path
@@ -143,7 +142,7 @@ def _as_list(value):
 
 
 class _Model(BaseModel):
-    model_config = ConfigDict(extra="forbid", frozen=True)
+    model_config = ConfigDict(extra="forbid", frozen=True, defer_build=True)
 
 
 # --- sections -----------------------------------------------------------------------------
@@ -739,6 +738,8 @@ def _one_error(err, raw, prefix: tuple = (), kind: str | None = None
     if etype == "extra_forbidden":
         model = _model_at(loc[:-1])
         names = _keys(model) if model else []
+        import difflib  # only for a message (6 ms of every check otherwise)
+
         guess = difflib.get_close_matches(str(loc[-1]), names, n=1, cutoff=0.5) \
             if len(str(loc[-1])) <= 100 else []
         hint = f"; did you mean '{guess[0]}'?" if guess else ""
@@ -929,6 +930,8 @@ def cross_check(rig: Rig, raw: dict | None = None) -> None:
         from .timers import PROFILES
 
         if tm.profile is not None and tm.profile not in PROFILES:
+            import difflib
+
             close = difflib.get_close_matches(tm.profile, PROFILES, n=1)
             hint = f" (did you mean {close[0]!r}?)" if close else ""
             _fail(raw, "controller.timer.profile",

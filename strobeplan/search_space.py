@@ -6,13 +6,14 @@ targets, and the result types. The search itself is :mod:`strobeplan.tune`.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import field
 from typing import Any
 
 import numpy as np
 
 from .design import Design
 from .errors import RigError
+from .quickdc import dataclass
 
 # Warnings the search avoids besides every hazard and fault (legal, but not what a
 # practitioner would choose: a thin thermal margin, an extrapolated pulse rating, a capacitor

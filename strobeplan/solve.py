@@ -63,7 +63,7 @@ _NEEDS = {
 
 
 def solve(rig, design: Design | None = None, *, checks: bool = True,
-          upto: str | None = None) -> Plan:
+          upto: str | None = None, known: dict | None = None) -> Plan:
     """Compute every section the rig has inputs for, then run all rules.
 
     Parameters
@@ -78,6 +78,9 @@ def solve(rig, design: Design | None = None, *, checks: bool = True,
         itself over its grid).
     upto : str, optional
         Stop after the stage that fills this slot (e.g. "timing"), without the rules.
+    known : dict, optional
+        Slot -> section already solved for this rig, used instead of running its stage
+        (only for stages that read no design choice: ``tune.rig_constants``).
 
     Floating-point overflow in an absurd but valid rig becomes inf/nan in a figure (shown as
     null, with the checks saying why) rather than a warning on stderr.
@@ -87,6 +90,9 @@ def solve(rig, design: Design | None = None, *, checks: bool = True,
             design = Design.of(rig)
         plan = Plan(rig=rig, design=design)
         for stage, slot in STAGES:
+            if known is not None and slot in known:
+                setattr(plan, slot, known[slot])
+                continue
             result = stage(rig, design, plan)
             if slot is None:
                 for name, section in result.items():

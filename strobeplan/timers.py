@@ -15,7 +15,7 @@ common classes of general-purpose timers in microcontrollers. Pure Python, no nu
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from .quickdc import dataclass
 
 
 @dataclass(frozen=True)

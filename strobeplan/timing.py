@@ -25,11 +25,13 @@ References
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+import operator
+from collections.abc import Sequence
 
 import numpy as np
 
 from .plan import scalar
+from .quickdc import dataclass
 
 TWO_PI = 2.0 * math.pi
 
@@ -387,7 +389,7 @@ class Schedule:
     drive_period_ticks: int
     flash_period_ticks: int
     frame_period_ticks: int | None
-    rows: list[ScheduleRow]
+    rows: ScheduleRows
 
     COLUMNS = ("frame", "target_phase_deg", "achieved_phase_deg", "phase_error_deg",
                "edge_ticks", "edge_time_s", "camera_trigger_ticks", "first_flash_ticks",
@@ -395,6 +397,65 @@ class Schedule:
 
 
 MAX_ROWS = 100_000
+"""Rows of a slow-motion schedule when neither ``steps`` nor a frame count is given and
+one apparent period would be longer (a default length, never a cap on ``steps``)."""
+
+BLOCK_ROWS = 4096
+"""Rows computed together (one numpy pass per column)."""
+
+
+class ScheduleRows(Sequence):
+    """The rows of a schedule, computed on demand in blocks of :data:`BLOCK_ROWS`.
+
+    A row depends only on its frame number, so a schedule of any length costs the memory
+    of one block: iterate it, index it (``rows[k]``, ``rows[a:b]``), or read whole columns
+    a block at a time with :meth:`blocks` (what the writers in report/tables.py do).
+    """
+
+    def __init__(self, n: int, columns):
+        self._n = int(n)
+        self._columns = columns  # (start, stop) -> dict column -> list of plain values
+        self._cached: tuple[int, list[ScheduleRow]] | None = None
+
+    def __len__(self) -> int:
+        return self._n
+
+    def columns(self, start: int, stop: int) -> dict[str, list]:
+        """Columns of rows ``start <= k < stop`` as lists of plain ints, floats, None."""
+        return self._columns(start, min(stop, self._n))
+
+    def blocks(self, size: int = BLOCK_ROWS):
+        """Columns of consecutive blocks of rows (dicts as from :meth:`columns`)."""
+        for start in range(0, self._n, size):
+            yield self.columns(start, start + size)
+
+    def _rows(self, start: int, stop: int) -> list[ScheduleRow]:
+        cols = self.columns(start, stop)
+        return [ScheduleRow(*vals) for vals in zip(*(cols[c] for c in Schedule.COLUMNS),
+                                                       strict=True)]
+
+    def __iter__(self):
+        for start in range(0, self._n, BLOCK_ROWS):
+            yield from self._rows(start, start + BLOCK_ROWS)
+
+    def __getitem__(self, index):
+        if isinstance(index, slice):
+            start, stop, step = index.indices(self._n)
+            if step != 1:
+                return [self[k] for k in range(start, stop, step)]
+            return self._rows(start, stop) if start < stop else []
+        k = operator.index(index)
+        if k < 0:
+            k += self._n
+        if not 0 <= k < self._n:
+            raise IndexError("schedule row out of range")
+        first = k - k % BLOCK_ROWS
+        if self._cached is None or self._cached[0] != first:
+            self._cached = (first, self._rows(first, first + BLOCK_ROWS))
+        return self._cached[1][k - first]
+
+    def __repr__(self) -> str:
+        return f"ScheduleRows({self._n} rows)"
 
 
 def schedule(rig, plan, lock: Lock, steps: int | None = None) -> Schedule:
@@ -403,71 +464,93 @@ def schedule(rig, plan, lock: Lock, steps: int | None = None) -> Schedule:
     Sweep: frames step the phase by span/steps from ``strobe.phase`` (``steps`` overrides
     ``sweep.steps``; without a [sweep] section, ``steps`` sweeps a full cycle). Slow
     motion: flashes run continuously at every*N_d + s ticks; each row is the first flash
-    seen in that frame. Frozen (no sweep, no ``steps``): one row.
+    seen in that frame (``steps`` rows, by default one apparent period, at most
+    :data:`MAX_ROWS`). Frozen (no sweep, no ``steps``): one row.
+
+    The rows are computed when read (:class:`ScheduleRows`), so ``steps`` may be any
+    length; ``workload.require_schedule_rows`` bounds it.
     """
+    from .workload import require_schedule_rows
+
     t = plan.timing
     clock = lock.clock
     nd = lock.period_ticks
     frame_ticks = lock.frame_ticks or lock.flash_ticks
-    rows: list[ScheduleRow] = []
     base = rig.strobe.phase
+    slow = t.mode == "slow_motion"
 
-    def frame_row(k: int, target, edge_in_frame: int, spacing: int) -> ScheduleRow:
-        """Row for frame k whose first flash slot is ``edge_in_frame`` ticks after its start.
-
-        ``target`` is the intended phase [rad], or (slow motion) a function of the absolute
-        tick of the flash actually seen first in the window.
-        """
-        start = k * frame_ticks
-        if lock.lead is not None:
-            trig, n, first = align_camera(edge_in_frame, spacing, clock,
-                                          lock.light_delay - lock.slack,
-                                          lock.light_length + lock.slack, lock.lead,
-                                          lock.window)
-        else:
-            trig, n, first = 0, None, edge_in_frame
-        edge_abs = start + first
-        achieved = phase_of_edge(edge_abs % nd, lock.frequency, clock, lock.chain_delay,
-                                 lock.flash_delay) if t.mode == "slow_motion" else \
-            phase_of_edge(edge_in_frame % nd, lock.frequency, clock, lock.chain_delay,
-                          lock.flash_delay)
-        edge = (edge_abs % nd) if t.mode == "slow_motion" else edge_in_frame % nd
-        # The image shows the phasor mean over the flashes of its exposure.
-        seen = n if n is not None else 1
-        achieved, smear = phasor_mean(achieved, lock.step, seen)
-        if callable(target):  # slow motion: the apparent wave at the exposure's middle
-            target = target(edge_abs + 0.5 * max(seen - 1, 0) * spacing)
-        return ScheduleRow(k, math.degrees(target), math.degrees(achieved),
-                           math.degrees(wrap_error(achieved - target)), edge, edge / clock,
-                           start + trig, edge_abs if (n is None or n) else None, n, smear)
-
-    if t.mode == "slow_motion":
+    if slow:
         n_rows = steps or min(MAX_ROWS, max(1, math.ceil(
             (t.frame_rate_hz or t.flash_rate_hz) / abs(t.apparent_frequency_hz))))
-        edge0 = t.flash_edge_ticks
-        for k in range(min(n_rows, MAX_ROWS)):
-            start = k * frame_ticks
-            j = max(0, math.ceil((start - edge0) / lock.flash_ticks))
-            first_abs = edge0 + j * lock.flash_ticks
-
-            def target(edge_abs, _f=t.apparent_frequency_hz):
-                return wrap_phase(base + TWO_PI * _f * (edge_abs - edge0) / clock)
-
-            rows.append(frame_row(k, target, first_abs - start, lock.flash_ticks))
+        step = 0.0
+    elif steps is not None:
+        span = rig.sweep.span if (rig.sweep and rig.sweep.span) else TWO_PI
+        n_rows, step = steps, span / steps
+    elif t.mode == "sweep":
+        n_rows, step = rig.sweep.steps, math.radians(t.sweep_step_deg)
     else:
-        if steps is not None:
-            span = rig.sweep.span if (rig.sweep and rig.sweep.span) else TWO_PI
-            n_rows, step = steps, span / steps
-        elif t.mode == "sweep":
-            n_rows, step = rig.sweep.steps, math.radians(t.sweep_step_deg)
+        n_rows, step = 1, 0.0
+    require_schedule_rows(n_rows)
+    edge0 = t.flash_edge_ticks if slow else 0
+    apparent = t.apparent_frequency_hz if slow else 0.0
+    spacing = lock.flash_ticks
+
+    def columns(first: int, stop: int) -> dict[str, list]:
+        """Rows first..stop-1 with numpy: the same operations, in the same order, as the
+        scalar helpers applied to one frame at a time (the outputs are byte-identical)."""
+        k = np.arange(first, stop, dtype=np.int64)
+        start = k * frame_ticks
+        if slow:
+            j = np.maximum(0, np.ceil((start - edge0) / spacing)).astype(np.int64)
+            edge_in_frame = edge0 + j * spacing - start
+            target = None
         else:
-            n_rows, step = 1, 0.0
-        for k in range(min(n_rows, MAX_ROWS)):
             target = wrap_phase(base + k * step)
-            edge = edge_ticks_for_phase(target, lock.frequency, clock, nd, lock.chain_delay,
-                                        lock.flash_delay)
-            rows.append(frame_row(k, target, edge, lock.flash_ticks))
-    return Schedule(t.mode, clock, nd, lock.flash_ticks, lock.frame_ticks, rows)
+            edge_in_frame = edge_ticks_for_phase(target, lock.frequency, clock, nd,
+                                                 lock.chain_delay, lock.flash_delay)
+        edge_in_frame = np.asarray(edge_in_frame, dtype=np.int64)
+        if lock.lead is not None:
+            trig, n, first_in_frame = align_camera(
+                edge_in_frame, spacing, clock, lock.light_delay - lock.slack,
+                lock.light_length + lock.slack, lock.lead, lock.window)
+            trig, n = np.asarray(trig, dtype=np.int64), np.asarray(n, dtype=np.int64)
+            seen = n
+        else:
+            trig, n, first_in_frame = np.zeros_like(k), None, edge_in_frame
+            seen = 1
+        edge_abs = start + first_in_frame
+        edge = edge_abs % nd if slow else edge_in_frame % nd
+        achieved = phase_of_edge(edge, lock.frequency, clock, lock.chain_delay,
+                                 lock.flash_delay)
+        achieved, smear = phasor_mean(achieved, lock.step, seen)
+        if slow:  # the apparent wave at the exposure's middle
+            mid = edge_abs + 0.5 * np.maximum(np.asarray(seen) - 1, 0) * spacing
+            target = wrap_phase(base + TWO_PI * apparent * (mid - edge0) / clock)
+        size = stop - first
+        full = np.broadcast_to
+        target_deg = np.degrees(full(target, (size,)))
+        achieved_deg = np.degrees(full(achieved, (size,)))
+        error_deg = np.degrees(full(wrap_error(np.asarray(achieved) - target), (size,)))
+        edge = full(edge, (size,))
+        cols = {
+            "frame": k.tolist(), "target_phase_deg": target_deg.tolist(),
+            "achieved_phase_deg": achieved_deg.tolist(), "phase_error_deg": error_deg.tolist(),
+            "edge_ticks": edge.tolist(), "edge_time_s": (edge / clock).tolist(),
+            "camera_trigger_ticks": (start + trig).tolist(),
+            "smear": np.asarray(full(smear, (size,)), dtype=float).tolist()}
+        first_abs = full(edge_abs, (size,)).tolist()
+        if n is None:
+            cols["first_flash_ticks"] = first_abs
+            cols["flashes"] = [None] * size
+        else:
+            cols["first_flash_ticks"] = [e if m else None
+                                         for e, m in zip(first_abs, full(n, (size,)).tolist(),
+                                                         strict=True)]
+            cols["flashes"] = full(n, (size,)).tolist()
+        return cols
+
+    return Schedule(t.mode, clock, nd, lock.flash_ticks, lock.frame_ticks,
+                    ScheduleRows(n_rows, columns))
 
 
 def schedule_conflict(sched: Schedule, lock: Lock) -> tuple[str, int, str] | None:
@@ -489,22 +572,29 @@ def schedule_conflict(sched: Schedule, lock: Lock) -> tuple[str, int, str] | Non
     clock = lock.clock
     busy = math.ceil((lock.lead + max(lock.window, 0.0)) * clock - 1e-9)
     rows = sched.rows
-    for i, row in enumerate(rows):
-        start = row.frame * frame_ticks
-        if row.first_flash_ticks is not None and not (
-                start <= row.first_flash_ticks < start + frame_ticks):
-            return ("flash_outside_frame", row.frame,
-                    f"frame {row.frame}'s first flash comes {row.first_flash_ticks - start} "
-                    f"ticks after the frame starts, beyond its {frame_ticks}-tick frame")
-        if i + 1 < len(rows):
-            nxt = rows[i + 1].camera_trigger_ticks
-        elif len(rows) == 1:
-            nxt = row.camera_trigger_ticks + frame_ticks
-        else:
-            continue
-        if nxt < row.camera_trigger_ticks + busy:
-            return ("trigger_in_exposure", row.frame,
-                    f"frame {row.frame + 1}'s camera trigger comes "
-                    f"{row.camera_trigger_ticks + busy - nxt} ticks before frame "
-                    f"{row.frame}'s exposure has closed")
+    one = len(rows) == 1
+    row = None
+    for nxt_row in rows:  # each row is checked when the next one (its trigger) is known
+        if row is not None:
+            found = _row_conflict(row, nxt_row.camera_trigger_ticks, frame_ticks, busy)
+            if found is not None:
+                return found
+        row = nxt_row
+    return _row_conflict(row, row.camera_trigger_ticks + frame_ticks if one else None,
+                         frame_ticks, busy)
+
+
+def _row_conflict(row: ScheduleRow, nxt: int | None, frame_ticks: int, busy: int):
+    """:func:`schedule_conflict` for one row, given the next frame's trigger (or None)."""
+    start = row.frame * frame_ticks
+    if row.first_flash_ticks is not None and not (
+            start <= row.first_flash_ticks < start + frame_ticks):
+        return ("flash_outside_frame", row.frame,
+                f"frame {row.frame}'s first flash comes {row.first_flash_ticks - start} "
+                f"ticks after the frame starts, beyond its {frame_ticks}-tick frame")
+    if nxt is not None and nxt < row.camera_trigger_ticks + busy:
+        return ("trigger_in_exposure", row.frame,
+                f"frame {row.frame + 1}'s camera trigger comes "
+                f"{row.camera_trigger_ticks + busy - nxt} ticks before frame "
+                f"{row.frame}'s exposure has closed")
     return None

@@ -33,13 +33,14 @@ from __future__ import annotations
 
 import math
 import time
-from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
 
 from .design import Design
 from .physics.air import ZERO_CELSIUS
+from .physics.supply import forget_circuits
+from .quickdc import dataclass
 from .search_space import (
     AVOID,
     Candidate,
@@ -85,13 +86,14 @@ class Evaluation:
                 if RULES[c].severity in ("hazard", "fault") or c in AVOID}
 
 
-def evaluate(rig, design: Design) -> Evaluation:
-    """Solve ``rig`` for an (array) design and evaluate every rule over it."""
+def evaluate(rig, design: Design, known: dict | None = None) -> Evaluation:
+    """Solve ``rig`` for an (array) design and evaluate every rule over it (``known``: sections
+    that do not depend on the design, computed once per search: see :func:`rig_constants`)."""
     from .checks import RULES, masks
     from .solve import solve
 
     shape = design.shape
-    plan = solve(rig, design, checks=False)
+    plan = solve(rig, design, checks=False, known=known)
     fired = masks(plan, shape)
     fail = np.zeros(shape, dtype=bool)
     warn = np.zeros(shape, dtype=bool)
@@ -115,6 +117,19 @@ def evaluate(rig, design: Design) -> Evaluation:
                       margin=full(plan.led.thermal_margin_k),
                       retention=full(plan.exposure.retention),
                       score=np.nan_to_num(full(score), nan=-np.inf))
+
+
+# Sections that depend on the rig alone (not on the design): solved once per search.
+CONSTANT_SLOTS = ("air", "field")
+
+
+def rig_constants(rig) -> dict:
+    """The sections of :data:`CONSTANT_SLOTS` solved once for ``rig`` (they read no design
+    choice), for :func:`evaluate` to reuse on every chunk of a search."""
+    from .solve import solve
+
+    plan = solve(rig, checks=False, upto=CONSTANT_SLOTS[-1])
+    return {slot: getattr(plan, slot) for slot in CONSTANT_SLOTS}
 
 
 def objective(plan) -> tuple[str, Any]:
@@ -185,6 +200,19 @@ def tune(rig, limits: Limits | None = None, grid: Grid | None = None, *,
     rig = limits.apply(rig)
     if grid is None:
         grid = default_grid(rig, solve(rig, checks=False), **(grid_options or {}))
+    known = rig_constants(rig)
+    forget_circuits()  # the stuck-on circuit response is shared by this search's chunks only
+    try:
+        return _search(rig, limits, grid, known, t0, chunk=chunk, runner_ups=runner_ups,
+                       progress=progress, refine=refine)
+    finally:
+        forget_circuits()
+
+
+def _search(rig, limits, grid, known, t0, *, chunk, runner_ups, progress, refine):
+    """The body of :func:`tune` (see there) once the grid and the rig's constants are set."""
+    from .solve import solve
+
     nw, nr, ne, nv = grid.shape
     rows = max(1, chunk // (nr * ne * nv))
     keep = runner_ups + 1
@@ -199,7 +227,7 @@ def tune(rig, limits: Limits | None = None, grid: Grid | None = None, *,
     goal = None
     for start in range(0, nw, rows):
         sl = slice(start, min(nw, start + rows))
-        ev = evaluate(rig, grid.design(sl))
+        ev = evaluate(rig, grid.design(sl), known)
         goal = goal or objective(ev.plan)[0]
         cons = ev.constraint_masks()
         n_bad = sum((m.astype(np.int64) for m in cons.values()), np.zeros(ev.light.shape, int))
@@ -235,11 +263,11 @@ def tune(rig, limits: Limits | None = None, grid: Grid | None = None, *,
         if progress is not None:
             progress(min(nw, start + rows) * nr * ne * nv, grid.size)
 
-    cands = [_pick(rig, grid, flat) for _l, _m, flat in top]
+    cands = [_pick(rig, grid, flat, known) for _l, _m, flat in top]
     best = cands[0] if cands else None
     refined_from = None
     if best is not None and refine:
-        better = _refine(rig, grid, best)
+        better = _refine(rig, grid, best, known)
         if better is not None:
             refined_from = best.pulse_width_s
             best = better
@@ -263,11 +291,11 @@ def tune(rig, limits: Limits | None = None, grid: Grid | None = None, *,
     else:
         best = None
     if best is not None:
-        best.limited_by = _limited_by(rig, grid, best)
+        best.limited_by = _limited_by(rig, grid, best, known)
         cands = [best] + [c for c in cands if c is not best and c.score <= best.score]
     explanation = None if best is not None else _explain(excluded, only, reached, rig, grid)
     return TuneResult(
-        best=best, runner_ups=cands[1:keep], frontier=_frontier(rig, grid, cloud),
+        best=best, runner_ups=cands[1:keep], frontier=_frontier(rig, grid, cloud, known),
         candidates=grid.size, feasible=feasible, seconds=time.perf_counter() - t0,
         excluded=excluded, only_excluded=only, best_reached=reached, explanation=explanation,
         grid=grid, min_retention=rig.strobe.min_retention, min_margin=rig.led.min_margin,
@@ -276,13 +304,13 @@ def tune(rig, limits: Limits | None = None, grid: Grid | None = None, *,
         max_blur=rig.camera.max_blur if rig.camera is not None else None)
 
 
-def _pick(rig, grid: Grid, flat: int) -> Candidate:
+def _pick(rig, grid: Grid, flat: int, known: dict | None = None) -> Candidate:
     """The candidate at a flat grid index, evaluated on its own."""
     design = _design_of([grid.at(flat)])
-    return _candidate(evaluate(rig, design), 0, design)
+    return _candidate(evaluate(rig, design, known), 0, design)
 
 
-def _refine(rig, grid: Grid, best: Candidate) -> Candidate | None:
+def _refine(rig, grid: Grid, best: Candidate, known: dict | None = None) -> Candidate | None:
     """Every whole tick between the best width and the next grid width (at most 256 of
     them, evenly spread) at the best's resistor, every and supply: the brightest feasible
     one, when it beats the grid's best."""
@@ -296,7 +324,7 @@ def _refine(rig, grid: Grid, best: Candidate) -> Candidate | None:
         return None
     design = _design_of([(t / clock, best.series_resistor_ohm, best.every,
                           best.supply_voltage_v) for t in ticks])
-    ev = evaluate(rig, design)
+    ev = evaluate(rig, design, known)
     ok = np.flatnonzero(ev.feasible & (ev.score > best.score))
     if ok.size == 0:
         return None
@@ -307,7 +335,7 @@ def _refine(rig, grid: Grid, best: Candidate) -> Candidate | None:
 _AXES = ("pulse width", "series resistor", "every", "supply voltage")
 
 
-def _limited_by(rig, grid: Grid, best: Candidate) -> str:
+def _limited_by(rig, grid: Grid, best: Candidate, known: dict | None = None) -> str:
     """The constraint that a brighter neighbour (one grid step wider, lower resistor,
     smaller every or higher supply) violates most often; else the grid's edge."""
     steps = [(grid.widths, best.pulse_width_s, +1), (grid.resistors, best.series_resistor_ohm,
@@ -326,7 +354,7 @@ def _limited_by(rig, grid: Grid, best: Candidate) -> str:
     counts: dict[str, int] = {}
     if neighbours:
         design = _design_of(neighbours)
-        ev = evaluate(rig, design)
+        ev = evaluate(rig, design, known)
         for code, m in ev.constraint_masks().items():
             n = int((m & (ev.score > best.score)).sum())
             if n:
@@ -336,7 +364,7 @@ def _limited_by(rig, grid: Grid, best: Candidate) -> str:
     return "search range (" + ", ".join(ends) + ")" if ends else "search range"
 
 
-def _frontier(rig, grid: Grid, cloud: Cloud) -> list[Candidate]:
+def _frontier(rig, grid: Grid, cloud: Cloud, known: dict | None = None) -> list[Candidate]:
     """Pareto front of (retention, light) over the (width, every) cells' brightest safe
     candidates (safe: passing every constraint but the traded ones)."""
     light = cloud.safe_light.ravel()
@@ -351,7 +379,7 @@ def _frontier(rig, grid: Grid, cloud: Cloud) -> list[Candidate]:
             cells.append(int(c))
             best = light[c]
     design = _design_of([grid.at(cloud.safe_flat.ravel()[c]) for c in cells])
-    ev = evaluate(rig, design)
+    ev = evaluate(rig, design, known)
     return [_candidate(ev, k, design) for k in range(len(cells))]
 
 

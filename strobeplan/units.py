@@ -24,9 +24,9 @@ from __future__ import annotations
 
 import math
 import re
-from dataclasses import dataclass
 
 from .physics.air import ZERO_CELSIUS
+from .quickdc import dataclass
 
 __all__ = ["UnitError", "KINDS", "parse", "render", "kind_example"]
 

@@ -21,9 +21,9 @@ Conventions
 
 from __future__ import annotations
 
-from dataclasses import dataclass
-
 import numpy as np
+
+from .quickdc import dataclass
 
 DEFAULT_PIXELS_ACROSS = 256
 DEFAULT_WAVELENGTHS_ACROSS = 8.0

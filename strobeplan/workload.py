@@ -14,12 +14,13 @@ the measured rate (:data:`CANDIDATES_PER_SECOND`).
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
 
 from .errors import StrobeplanError
+from .quickdc import dataclass
 
 __all__ = ["Estimate", "WorkloadError", "estimate", "require_within", "tune_estimate",
-           "MAX_CANDIDATES", "CANDIDATES_PER_SECOND"]
+           "require_schedule_rows", "MAX_CANDIDATES", "CANDIDATES_PER_SECOND",
+           "MAX_SCHEDULE_ROWS"]
 
 MAX_CANDIDATES = 2e7
 """Largest tune grid accepted (candidates)."""
@@ -29,6 +30,15 @@ CANDIDATES_PER_SECOND = 8.0e4
 transient included): 8.7e4 candidates/s measured on 1.4e5 levitator-40k candidates (E96,
 8 `every`, 2 voltages) on one core of the development machine; bench/bench_tune.py
 measures it."""
+
+
+MAX_SCHEDULE_ROWS = 20_000_000
+"""Longest schedule accepted (rows). The schedule is streamed (its memory does not grow
+with its length), so the bound is time and disk: about 2e5 rows/s and 240 bytes per JSON
+row, about 2 min and 5 GB at the bound."""
+
+SCHEDULE_ROWS_PER_SECOND = 2.0e5
+"""Rows computed and written per second (JSON), bench/bench_cli.py measures it."""
 
 
 class WorkloadError(StrobeplanError):
@@ -115,3 +125,14 @@ def tune_estimate(rig, *, widths: int, series: str, resistor_range: tuple[float,
                             "--supply-steps"),
     }
     return estimate(axes)
+
+
+def require_schedule_rows(rows: int, budget: int = MAX_SCHEDULE_ROWS) -> None:
+    """Raise :class:`WorkloadError` when a schedule of ``rows`` frames exceeds ``budget``
+    (one line: the length, the time it would take, the bound and the option to lower)."""
+    if rows <= budget:
+        return
+    raise WorkloadError(
+        f"schedule --steps {rows}: {_num(rows)} rows would take "
+        f"{duration_text(rows / SCHEDULE_ROWS_PER_SECOND)} at {_num(SCHEDULE_ROWS_PER_SECOND)}"
+        f" rows/s, above the budget of {_num(budget)} rows; lower --steps (or sweep.steps)")

@@ -167,20 +167,23 @@ def test_chunking_does_not_change_the_result(levitator):
     assert a.frontier == b.frontier
 
 
+@pytest.mark.slow
 def test_memory_is_bounded_by_the_chunk(levitator):
-    # Bounded memory: the traced peak follows the chunk size, not the grid size.
+    # Bounded memory: with the same chunk, a grid twice as long (more pulse widths)
+    # peaks at about the same traced memory (the chunk's arrays and the stuck-on circuit's,
+    # which do not grow with the number of widths).
     import tracemalloc
 
     rig, base = levitator
-    grid = tuner.default_grid(rig, base, widths=30, series="E96", max_every=4)
-    assert grid.size > 30_000
     peaks = []
-    for chunk in (1 << 12, grid.size):
+    for widths in (30, 60):
+        grid = tuner.default_grid(rig, base, widths=widths, series="E96", max_every=4)
+        assert grid.size > 30_000
         tracemalloc.start()
-        tuner.tune(rig, grid=grid, chunk=chunk, refine=False)
+        tuner.tune(rig, grid=grid, chunk=1 << 12, refine=False)
         peaks.append(tracemalloc.get_traced_memory()[1])
         tracemalloc.stop()
-    assert peaks[0] < peaks[1] / 3
+    assert peaks[1] < 1.25 * peaks[0], peaks
 
 
 def test_frontier_is_pareto(levitator):

@@ -15,12 +15,12 @@ depend on the design (pulse width, every, series resistor, supply voltage) must 
 from __future__ import annotations
 
 from collections.abc import Callable
-from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
 
 from ..plan import SEVERITIES, SEVERITY_RANK, Finding
+from ..quickdc import dataclass
 
 
 @dataclass(frozen=True)

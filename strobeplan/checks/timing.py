@@ -158,8 +158,8 @@ _NOT_YET = object()
 def _schedule_conflict(plan):
     """The first impossible frame of the plan's schedule (scalar plans only), or None.
 
-    Computed once per plan (two rules read it); the schedule has at most
-    ``timing.MAX_ROWS`` rows (a 100,000-step sweep takes about 2 s).
+    Computed once per plan (two rules read it); the rows are read a block at a time (a
+    100,000-step sweep, the most ``sweep.steps`` allows, takes about 0.3 s).
     """
     from ..timing import Lock, schedule, schedule_conflict
 

@@ -34,12 +34,12 @@ References
 
 from __future__ import annotations
 
-from dataclasses import dataclass
-
 import numpy as np
 
+from strobeplan.physics.arrays import unique
 from strobeplan.physics.eseries import series_tolerance, series_values
 from strobeplan.physics.logic_families import TOLERANT_INPUT_MAX, Family
+from strobeplan.quickdc import dataclass
 
 LN9 = float(np.log(9.0))  # 10-90 % rise of a first-order step = ln 9 * tau [1]
 RANK_QUANTUM = 1e-3  # [V] margins are compared to 1 mV when ranking, then current decides
@@ -350,7 +350,7 @@ def search_dividers(
     """
     tol = series_tolerance(series) if tolerance is None else float(tolerance)
     vals = series_values(series, r_min, r_max) if values is None else np.asarray(values, float)
-    vals = np.unique(vals)  # sorted, so candidate order never depends on the caller's order
+    vals = unique(vals)  # sorted, so candidate order never depends on the caller's order
     kw = dict(tolerant=tolerant, tolerant_max=tolerant_max,
               source_resistance=source_resistance, leakage=leakage, edge_limit=edge_limit)
     n_pairs = vals.size**2

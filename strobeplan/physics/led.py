@@ -31,6 +31,8 @@ from typing import NamedTuple
 
 import numpy as np
 
+from .arrays import unique
+
 BOLTZMANN = 1.380649e-23  # [J/K], CODATA 2018 exact
 ELEMENTARY_CHARGE = 1.602176634e-19  # [C], CODATA 2018 exact
 DEFAULT_IDEALITY = 2.0  # apparent ideality assumed with < 3 datasheet points (common practice)
@@ -213,7 +215,7 @@ def fit_forward_voltage(currents, voltages, series_resistance=None, temperature=
     i, v = i[order], v[order]
     if i.size != v.size or not 1 <= i.size <= 3:
         raise ValueError("fit_forward_voltage needs 1 to 3 (current, voltage) points")
-    if np.any(i <= 0) or np.unique(i).size != i.size:
+    if np.any(i <= 0) or unique(i).size != i.size:
         raise ValueError("datasheet currents must be positive and distinct")
     n_vt_assumed = ideality * float(thermal_voltage(temperature))
     assumed = []
@@ -305,7 +307,13 @@ class OperatingPoint(NamedTuple):
 
 
 _PI2_6 = np.pi**2 / 6.0
-_GL6 = np.polynomial.legendre.leggauss(6)
+# Gauss-Legendre nodes and weights of order 6 on [-1, 1] (Abramowitz & Stegun, table 25.4),
+# written out to the last bit of numpy.polynomial.legendre.leggauss(6) (tests/physics/
+# test_led.py compares them), which would import numpy.polynomial on every check.
+_GL6 = (np.array([-0.9324695142031519, -0.6612093864662645, -0.2386191860831969,
+                  0.2386191860831969, 0.6612093864662645, 0.9324695142031519]),
+        np.array([0.17132449237917027, 0.3607615730481387, 0.46791393457269104,
+                  0.46791393457269104, 0.3607615730481387, 0.17132449237917027]))
 # B_n / (n + 1)! for the Bernoulli-number series of the dilogarithm, n = 0, 1, 2, 4, ... 20.
 _LI2_COEF = np.array([
     1.0, -1.0 / 4.0, 1.0 / 36.0, 0.0, -1.0 / 3600.0, 0.0, 1.0 / 211680.0, 0.0,
@@ -558,7 +566,7 @@ def rated_pulse_current(width, duty, table_width, table_duty, table_current):
     w = np.asarray(width, dtype=float)
     d = np.asarray(duty, dtype=float)
     w, d = np.broadcast_arrays(w, d)
-    duties = np.unique(td)
+    duties = unique(td)
     lw = np.log(w)
     curves, w_max = [], []
     for dv in duties:  # a handful of table duties, not candidates

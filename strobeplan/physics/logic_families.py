@@ -22,9 +22,11 @@ References
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import field
 
 import numpy as np
+
+from ..quickdc import dataclass
 
 INPUT_MAX_ABOVE_VDD = 0.3  # [V] input maximum = VDD + 0.3 V (common practice, datasheets)
 TOLERANT_INPUT_MAX = 5.5  # [V] "5 V tolerant" inputs (common practice; the datasheet rules)

@@ -425,82 +425,83 @@ def stuck_on_transient(supply_voltage, capacitance, esr, series_resistor, on_res
     """
     # The circuit (everything but the temperatures) sets the heat; the starting temperature
     # only adds the free decay of the network's initial state (the network is linear). So
-    # the heat and the zero-state response are computed over the circuit's shape, and the
-    # start enters per candidate as rise0 x sum_i (R_i/Rth) exp(-t/tau_i).
-    vs, c, esr_, rser, ron, ib, a, i_s, rs, eff = np.broadcast_arrays(
-        *[np.asarray(x, dtype=float) for x in (
-            supply_voltage, capacitance, esr, series_resistor, on_resistance, current_limit,
-            n_vt, saturation_current, led_series_resistance, efficiency)])
-    r = np.asarray(resistances, dtype=float)
-    tau = np.asarray(time_constants, dtype=float)
-    cshape = np.broadcast_shapes(vs.shape, r.shape[:-1], tau.shape[:-1])
-    vs, c, esr_, rser, ron, ib, a, i_s, rs, eff = (
-        np.broadcast_to(x, cshape) for x in (vs, c, esr_, rser, ron, ib, a, i_s, rs, eff))
-    r, tau = (np.broadcast_to(x, cshape + x.shape[-1:]) for x in np.broadcast_arrays(r, tau))
+    # the heat and the zero-state response are computed over the circuit's shape (once per
+    # circuit: a grid search's chunks share it, see _circuit_response), and the start
+    # enters per candidate as rise0 x sum_i (R_i/Rth) exp(-t/tau_i).
+    circuit = (supply_voltage, capacitance, esr, series_resistor, on_resistance,
+               current_limit, n_vt, saturation_current, led_series_resistance, efficiency,
+               resistances, time_constants)
+    cr = _circuit_response(circuit, points_per_decade)
+    cshape = cr.cshape
     t_amb, t_start, t_max = (np.asarray(x, dtype=float) for x in (ambient, start_temperature,
                                                                    junction_max))
     shape = np.broadcast_shapes(cshape, t_amb.shape, t_start.shape, t_max.shape)
-
-    def discharge(t):
-        return pulse_operating_point(vs, c, esr_, rser, ron, ib, t, a, i_s, rs)
-
-    steady = stuck_on_state(vs, ib, rser, ron, a, i_s, rs)
-    i_ss = np.asarray(steady.current, dtype=float)
-    i0 = np.asarray(discharge(1.0).peak_current, dtype=float)
-    r_tot = rs + esr_ + rser + ron
-    t_rc = c * (r_tot + a / (i0 + i_s))  # shortest local discharge time constant
-    with np.errstate(divide="ignore"):
-        t_slow = c * (r_tot + a / (ib + i_s))  # longest, near the boost limit
-    droops = i0 > ib
-    # Resistor: the dump's energy above the steady dissipation.
-    t_end = np.minimum(DISCHARGE_END * t_slow, TAIL_FACTOR * t_rc)
-    i2t = np.asarray(discharge(t_end).i2t, dtype=float)
-    pulse_energy = np.where(droops, rser * np.maximum(i2t - i_ss**2 * t_end, 0.0), 0.0)
-    # Junction: exact Foster steps under the interval-mean heat on a log-spaced grid.
-    rth = np.sum(r, axis=-1)
-    share = r / rth[..., None]
-    t_lo = 1e-3 * np.minimum(np.min(tau, axis=-1), t_rc)
-    t_hi = DISCHARGE_END * np.max(tau, axis=-1)
-    decades = np.log10(t_hi / t_lo)
-    n_steps = max(int(np.ceil(points_per_decade * np.max(decades, initial=1.0))), 1)
-    step = decades / n_steps  # per candidate, at most 1/points_per_decade decades
-    grid = t_lo[..., None] * 10.0 ** (step[..., None] * np.arange(n_steps + 1))
-    # LED energy up to each grid time, the grid axis in chunks of about 2**20 elements.
-    energy = np.empty(grid.shape)
-    per = max(1, (1 << 20) // max(1, math.prod(cshape)))
-    cols = [x[..., None] for x in (vs, c, esr_, rser, ron, ib, a, i_s, rs)]
-    for j in range(0, n_steps + 1, per):
-        energy[..., j:j + per] = pulse_operating_point(
-            *cols[:6], grid[..., j:j + per], *cols[6:]).led_energy
-    dt = np.diff(grid, axis=-1, prepend=0.0)
-    heat = (1.0 - eff)[..., None] * np.diff(energy, axis=-1, prepend=0.0) / dt
-    # Zero-state response of each term after each step (circuit shape, steps, terms).
-    zero = np.empty(grid.shape + r.shape[-1:])
-    state = np.zeros(r.shape)
-    for k in range(n_steps + 1):
-        state = foster_advance(state, heat[..., k], dt[..., k], r, tau)
-        zero[..., k, :] = state
-    free = np.exp(-grid[..., None] / tau[..., None, :])  # free decay of a unit initial state
+    i_ss, i0, rser, pulse_energy = cr.i_ss, cr.i0, cr.rser, cr.pulse_energy
+    share, r, tau, grid, heat, dt = cr.share, cr.r, cr.tau, cr.grid, cr.heat, cr.dt
+    zero, free, rise_zero, decay, n_steps = cr.zero, cr.free, cr.rise_zero, cr.decay, cr.n_steps
     rise0 = np.broadcast_to(t_start - t_amb, shape)
     allowed = np.broadcast_to(t_max - t_amb, shape)
-    rise_zero = np.sum(zero, axis=-1)  # (circuit, steps)
-    decay = np.sum(share[..., None, :] * free, axis=-1)  # (circuit, steps)
     peak, peak_t = rise0.copy(), np.zeros(shape)
     crossed = rise0 >= allowed
     b_k = np.full(shape, -1)
-    block = max(1, (1 << 22) // max(1, math.prod(shape)))
-    for j in range(0, n_steps + 1, block):
-        rise = rise0[..., None] * decay[..., j:j + block] + rise_zero[..., j:j + block]
-        above = rise >= allowed[..., None]
-        first = ~crossed & above.any(axis=-1)
-        b_k = np.where(first, j + np.argmax(above, axis=-1), b_k)
-        crossed = crossed | first
-        kk = np.argmax(rise, axis=-1)
-        top = np.take_along_axis(rise, kk[..., None], axis=-1)[..., 0]
-        higher = top > peak
-        t_top = np.take_along_axis(np.broadcast_to(grid[..., j:j + block], rise.shape),
-                                   kk[..., None], axis=-1)[..., 0]
-        peak, peak_t = np.where(higher, top, peak), np.where(higher, t_top, peak_t)
+    if np.isnan(decay).any() or np.isnan(rise_zero).any():
+        # (np.argmax stops at a NaN: keep the blocked form's answer in that corner)
+        block = max(1, (1 << 22) // max(1, math.prod(shape)))
+        for j in range(0, n_steps + 1, block):
+            rise = rise0[..., None] * decay[..., j:j + block] + rise_zero[..., j:j + block]
+            above = rise >= allowed[..., None]
+            first = ~crossed & above.any(axis=-1)
+            b_k = np.where(first, j + np.argmax(above, axis=-1), b_k)
+            crossed = crossed | first
+            kk = np.argmax(rise, axis=-1)
+            top = np.take_along_axis(rise, kk[..., None], axis=-1)[..., 0]
+            higher = top > peak
+            t_top = np.take_along_axis(np.broadcast_to(grid[..., j:j + block], rise.shape),
+                                       kk[..., None], axis=-1)[..., 0]
+            peak, peak_t = np.where(higher, top, peak), np.where(higher, t_top, peak_t)
+    else:
+        # Step by step, over the candidates at once (no reduction along the short step
+        # axis): the same rise0 x decay + zero-state rise per step, the first maximum
+        # (strictly higher replaces) and the first crossing kept per candidate. The
+        # candidates are laid out as (the axes the circuit does not vary along, the
+        # circuit's axes), so each step is a long run of memory.
+        nd = len(shape)
+        cpad = (1,) * (nd - len(cshape)) + tuple(cshape)
+        perm = [i for i in range(nd) if cpad[i] == 1] + [i for i in range(nd) if cpad[i] != 1]
+        n_c = math.prod(cshape)
+        n_a = math.prod(shape) // max(n_c, 1)
+
+        def flat(x):
+            return np.ascontiguousarray(np.broadcast_to(x, shape).transpose(perm)).reshape(
+                n_a, n_c)
+
+        def per_step(x):
+            return np.ascontiguousarray(x.reshape(n_c, -1).T)
+
+        r0, lim = flat(rise0), flat(allowed)
+        d_k, z_k, g_k = per_step(decay), per_step(rise_zero), per_step(grid)
+        pk, pt = r0.copy(), np.zeros(r0.shape)
+        bk = np.full(r0.shape, -1)
+        open_ = ~(r0 >= lim)
+        rise = np.empty(r0.shape)
+        hit = np.empty(r0.shape, dtype=bool)
+        higher = np.empty(r0.shape, dtype=bool)
+        for k in range(n_steps + 1):
+            np.multiply(r0, d_k[k], out=rise)
+            np.add(rise, z_k[k], out=rise)
+            np.greater_equal(rise, lim, out=hit)
+            np.logical_and(hit, open_, out=hit)
+            np.copyto(bk, k, where=hit)
+            np.logical_and(open_, ~hit, out=open_)
+            np.greater(rise, pk, out=higher)
+            np.copyto(pk, rise, where=higher)
+            np.copyto(pt, g_k[k], where=higher)
+        back = np.argsort(perm)
+        shaped = [shape[i] for i in perm]
+        peak, peak_t, b_k, crossed = (
+            x.reshape(shaped).transpose(back) for x in (pk, pt, bk, ~open_))
+        if not shape:
+            crossed = crossed[()]
     # First crossing inside its interval: bisection on the exact in-interval response from
     # the state at the interval's start (only for the candidates that cross during it).
     hi = np.zeros(shape)
@@ -547,3 +548,118 @@ def stuck_on_transient(supply_voltage, capacitance, esr, series_resistor, on_res
     if np.ndim(out.time_to_limit) == 0:
         return StuckOnTransient(*(float(x) for x in out))
     return out
+
+
+class _CircuitResponse(NamedTuple):
+    """What :func:`stuck_on_transient` computes over the circuit's shape alone."""
+
+    cshape: tuple
+    i_ss: np.ndarray
+    i0: np.ndarray
+    rser: np.ndarray
+    pulse_energy: np.ndarray
+    share: np.ndarray
+    r: np.ndarray
+    tau: np.ndarray
+    grid: np.ndarray
+    heat: np.ndarray
+    dt: np.ndarray
+    zero: np.ndarray
+    free: np.ndarray
+    rise_zero: np.ndarray
+    decay: np.ndarray
+    n_steps: int
+
+
+_LAST_CIRCUIT: list = []  # [(key, _CircuitResponse)]: the last circuit computed
+
+
+def forget_circuits() -> None:
+    """Drop the remembered stuck-on circuit response (a design search calls this when it
+    starts and ends, so the memory is held only during one search)."""
+    _LAST_CIRCUIT.clear()
+
+
+def _circuit_key(circuit, points_per_decade):
+    arrays = [np.asarray(x, dtype=float) for x in circuit]
+    return (points_per_decade, tuple((a.shape, a.tobytes()) for a in arrays))
+
+
+def _circuit_response(circuit, points_per_decade) -> _CircuitResponse:
+    """The circuit part of :func:`stuck_on_transient`, remembered for the last circuit.
+
+    A design search solves chunk after chunk of pulse widths over the same grid of series
+    resistors and supply voltages: the circuit's arrays are equal from chunk to chunk, so
+    their response is computed once (the key is the arrays' exact bytes; the result is
+    the same arrays the computation gives, read-only).
+    """
+    key = _circuit_key(circuit, points_per_decade)
+    if _LAST_CIRCUIT and _LAST_CIRCUIT[0][0] == key:
+        return _LAST_CIRCUIT[0][1]
+    out = _compute_circuit_response(circuit, points_per_decade)
+    for x in out[1:-1]:
+        x.setflags(write=False)
+    _LAST_CIRCUIT[:] = [(key, out)]
+    return out
+
+
+def _compute_circuit_response(circuit, points_per_decade) -> _CircuitResponse:
+    (supply_voltage, capacitance, esr, series_resistor, on_resistance, current_limit, n_vt,
+     saturation_current, led_series_resistance, efficiency, resistances,
+     time_constants) = circuit
+    vs, c, esr_, rser, ron, ib, a, i_s, rs, eff = np.broadcast_arrays(
+        *[np.asarray(x, dtype=float) for x in (
+            supply_voltage, capacitance, esr, series_resistor, on_resistance, current_limit,
+            n_vt, saturation_current, led_series_resistance, efficiency)])
+    r = np.asarray(resistances, dtype=float)
+    tau = np.asarray(time_constants, dtype=float)
+    cshape = np.broadcast_shapes(vs.shape, r.shape[:-1], tau.shape[:-1])
+    vs, c, esr_, rser, ron, ib, a, i_s, rs, eff = (
+        np.broadcast_to(x, cshape) for x in (vs, c, esr_, rser, ron, ib, a, i_s, rs, eff))
+    r, tau = (np.broadcast_to(x, cshape + x.shape[-1:]) for x in np.broadcast_arrays(r, tau))
+
+    def discharge(t):
+        return pulse_operating_point(vs, c, esr_, rser, ron, ib, t, a, i_s, rs)
+
+    steady = stuck_on_state(vs, ib, rser, ron, a, i_s, rs)
+    i_ss = np.asarray(steady.current, dtype=float)
+    i0 = np.asarray(discharge(1.0).peak_current, dtype=float)
+    r_tot = rs + esr_ + rser + ron
+    t_rc = c * (r_tot + a / (i0 + i_s))  # shortest local discharge time constant
+    with np.errstate(divide="ignore"):
+        t_slow = c * (r_tot + a / (ib + i_s))  # longest, near the boost limit
+    droops = i0 > ib
+    # Resistor: the dump's energy above the steady dissipation.
+    t_end = np.minimum(DISCHARGE_END * t_slow, TAIL_FACTOR * t_rc)
+    i2t = np.asarray(discharge(t_end).i2t, dtype=float)
+    pulse_energy = np.where(droops, rser * np.maximum(i2t - i_ss**2 * t_end, 0.0), 0.0)
+    # Junction: exact Foster steps under the interval-mean heat on a log-spaced grid.
+    rth = np.sum(r, axis=-1)
+    share = r / rth[..., None]
+    t_lo = 1e-3 * np.minimum(np.min(tau, axis=-1), t_rc)
+    t_hi = DISCHARGE_END * np.max(tau, axis=-1)
+    decades = np.log10(t_hi / t_lo)
+    n_steps = max(int(np.ceil(points_per_decade * np.max(decades, initial=1.0))), 1)
+    step = decades / n_steps  # per candidate, at most 1/points_per_decade decades
+    grid = t_lo[..., None] * 10.0 ** (step[..., None] * np.arange(n_steps + 1))
+    # LED energy up to each grid time, the grid axis in chunks of about 2**20 elements.
+    energy = np.empty(grid.shape)
+    per = max(1, (1 << 20) // max(1, math.prod(cshape)))
+    cols = [x[..., None] for x in (vs, c, esr_, rser, ron, ib, a, i_s, rs)]
+    for j in range(0, n_steps + 1, per):
+        energy[..., j:j + per] = pulse_operating_point(
+            *cols[:6], grid[..., j:j + per], *cols[6:]).led_energy
+    dt = np.diff(grid, axis=-1, prepend=0.0)
+    heat = (1.0 - eff)[..., None] * np.diff(energy, axis=-1, prepend=0.0) / dt
+    # Zero-state response of each term after each step (circuit shape, steps, terms).
+    zero = np.empty(grid.shape + r.shape[-1:])
+    state = np.zeros(r.shape)
+    for k in range(n_steps + 1):
+        state = foster_advance(state, heat[..., k], dt[..., k], r, tau)
+        zero[..., k, :] = state
+    free = np.exp(-grid[..., None] / tau[..., None, :])  # free decay of a unit initial state
+    rise_zero = np.sum(zero, axis=-1)  # (circuit, steps)
+    decay = np.sum(share[..., None, :] * free, axis=-1)  # (circuit, steps)
+    return _CircuitResponse(cshape, i_ss, i0, np.array(rser), pulse_energy, share,
+                            np.array(r), np.array(tau), grid, heat, dt, zero, free,
+                            rise_zero, decay, n_steps)

@@ -4,10 +4,9 @@ design."""
 
 from __future__ import annotations
 
-from dataclasses import dataclass
-
 from ..physics import air as air_model
 from ..plan import Section, q
+from ..quickdc import dataclass
 
 
 @dataclass

@@ -10,12 +10,12 @@ the frames) collect flashes.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
 
 import numpy as np
 
 from ..physics import banding as banding_model
 from ..plan import Section, q
+from ..quickdc import dataclass
 from ..timing import continuous_train
 
 

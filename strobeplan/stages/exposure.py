@@ -20,12 +20,11 @@ Definitions used in the section (see strobeplan.physics.exposure for the pulse m
 
 from __future__ import annotations
 
-from dataclasses import dataclass
-
 import numpy as np
 
 from ..physics import exposure as model
 from ..plan import Section, q, scalar
+from ..quickdc import dataclass
 from .flash import phosphor
 
 

@@ -15,7 +15,6 @@ phase with the air temperature (through the speed of sound).
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
 
 import numpy as np
 
@@ -23,6 +22,7 @@ from ..physics import air as air_model
 from ..physics import drive as drive_model
 from ..physics import field as field_model
 from ..plan import Section, q
+from ..quickdc import dataclass
 
 NODE_FRACTION = 0.1  # |p| under this fraction of the largest |p| within lambda/2: a node
 

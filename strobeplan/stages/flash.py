@@ -18,11 +18,11 @@ tau), whose centroid is the trapezoid's plus w*tau.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
 
 import numpy as np
 
 from ..plan import Section, q, scalar
+from ..quickdc import dataclass
 
 
 @dataclass

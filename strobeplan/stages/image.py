@@ -26,8 +26,6 @@ scalar rig and a grid of designs alike (fields are then arrays).
 
 from __future__ import annotations
 
-from dataclasses import dataclass
-
 import numpy as np
 
 from ..physics import camera as cam_model
@@ -35,6 +33,7 @@ from ..physics import cutoff as cut_model
 from ..physics import demod, imaging
 from ..physics import photobiology as eye_model
 from ..plan import Section, q
+from ..quickdc import dataclass
 
 TOO_DARK = 0.10  # background under 10 % of full scale: "too dark" (documented default)
 HARMONICS_CHECKED = 12  # cutoff harmonics examined for the phase sweep's aliasing

@@ -13,7 +13,7 @@ rated to the driver's own supply + 0.3 V (common practice for gate-driver logic 
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import field
 from types import SimpleNamespace
 
 import numpy as np
@@ -22,6 +22,7 @@ from ..errors import RigError
 from ..physics import divider, eseries
 from ..physics import logic_families as families
 from ..plan import Plan, Section, q, scalar
+from ..quickdc import dataclass
 from ..units import render
 
 EDGE_FRACTION = 0.01  # edge limit = 1 % of the pulse width / trigger latency (project choice)

@@ -11,10 +11,10 @@ the realised drive frequency. Without ``[optics]`` only the acoustic figures are
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
 
 from ..physics import acoustics, drive, schlieren
 from ..plan import Section, q, scalar
+from ..quickdc import dataclass
 
 # Distance from the emitter at which the ultrasound-exposure caution is evaluated. [m]
 SAFETY_DISTANCE = 1.0

@@ -28,7 +28,6 @@ Models (strobeplan.physics.led / thermal / switching / supply):
 
 from __future__ import annotations
 
-from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
@@ -38,6 +37,7 @@ from ..physics import supply as supply_model
 from ..physics import switching as sw_model
 from ..physics import thermal as thermal_model
 from ..plan import Section, q, scalar
+from ..quickdc import dataclass
 from ..timing import continuous_train
 
 

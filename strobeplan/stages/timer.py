@@ -20,9 +20,10 @@ When a period does not fit the counter, two chained counters (no loss) or a pres
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import field
 
 from ..plan import Section, q
+from ..quickdc import dataclass
 from ..timers import DEFAULT_PROFILE, PROFILES, Fit, fit_counter, wrap_time
 from ..timing import edge_ticks_for_phase, wrap_phase
 

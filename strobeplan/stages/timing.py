@@ -9,7 +9,7 @@ a design: ``drive_section`` (the emitter drive chain at the realised frequency) 
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import field
 from typing import Any
 
 import numpy as np
@@ -17,6 +17,7 @@ import numpy as np
 from ..physics import air as air_model
 from ..physics import drive as drive_model
 from ..plan import Section, q, scalar
+from ..quickdc import dataclass
 from ..timing import (
     TWO_PI,
     Lock,

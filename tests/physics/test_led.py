@@ -242,3 +242,23 @@ def test_rated_pulse_current_log_log_interpolation():
     cur, inside = led.rated_pulse_current(np.array([1e-6, 10e-6]), np.array([0.1, 0.01]),
                                           tw, td, ti)
     assert_allclose(cur, [4.0, 4.0], rtol=1e-12) and inside.all()
+
+
+def test_gauss_legendre_table_is_numpys():
+    # numpy.polynomial.legendre.leggauss (the reference library) to the last bit
+    from strobeplan.physics import led
+
+    x, w = np.polynomial.legendre.leggauss(6)
+    assert np.array_equal(led._GL6[0], x) and np.array_equal(led._GL6[1], w)
+
+
+def test_unique_is_numpys():
+    # numpy.unique (the reference library), NaNs and repeats included
+    from strobeplan.physics.arrays import unique
+
+    rng = np.random.default_rng(3)
+    for a in (rng.integers(0, 9, 50).astype(float), np.array([np.nan, 1.0, np.nan, 1.0, -0.0, 0.0]),
+              np.array([]), np.array([2.0]), rng.integers(0, 5, (4, 6))):
+        got, want = unique(a), np.unique(a)
+        assert got.dtype == want.dtype
+        np.testing.assert_array_equal(got, want)
