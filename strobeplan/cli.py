@@ -176,6 +176,11 @@ def schedule(rig, output, fmt, steps, ticks):
     else:
         chunks = iter_schedule_json(sched) if fmt == "json" else iter_schedule_csv(sched)
     _write_or_echo(chunks, output, rig)
+    need = plan.image.min_phase_steps if plan.image is not None else None
+    if need is not None and len(sched.rows) < need:
+        click.echo(f"note: {len(sched.rows)} phase steps resolve harmonics up to "
+                   f"{(len(sched.rows) - 1) // 2}; the cutoff's response needs at least {need} "
+                   "for analyse to separate them (image.min_phase_steps)", err=True)
 
 
 @cli.command()

@@ -393,3 +393,19 @@ def test_report_adds_measured_against_planned(stack_dir, tmp_path):
     page = out.read_text()
     assert 'id="measured"' in page and "Measured against planned" in page
     assert "strobe.calibration_offset" in page
+
+
+def test_schedule_says_when_its_steps_cannot_separate_the_cutoffs_harmonics(tmp_path):
+    # A rod stop answers at the second harmonic: N steps resolve harmonics up to (N - 1)/2
+    # (the sampling theorem over one period), so 4 steps are too few, 5 enough.
+    from tests.test_export import _toml
+
+    rig = tmp_path / "rod.toml"
+    rig.write_text(_toml(patched("levitator-40k", {"optics.cutoff": "rod",
+                                                   "optics.cutoff_width": "0.6 mm"})))
+    few = run_cli("schedule", rig, "--steps", "4")
+    assert few.exit_code == 0
+    assert "needs at least 5" in few.stderr and "image.min_phase_steps" in few.stderr
+    assert few.stdout.count("\n") == 5  # the header and four rows, untouched
+    enough = run_cli("schedule", rig, "--steps", "5")
+    assert "min_phase_steps" not in enough.stderr
