@@ -7,9 +7,11 @@
    phase) — the reason the plan's pressure phase at the view is not the image's phase.
 2. Round trip: frames drawn by `preview` from the rig's full field model (pistons, the
    reflector's images, the projection, the cutoff, the light budget and the camera noise)
-   analysed by `analyse`: the wavelength within 1 %, the phase at the view within the bias
-   of analyse's local two-wave model on a spreading beam (measured 4-7 deg, asserted 8),
-   and an injected calibration offset recovered within 2 deg of the wave.
+   analysed by `analyse`: the wavelength within 1 % (levitator; the opposed pair's reads
+   1.3 % long, see the closing assertion), the phase at the view within 3 deg (measured
+   -1.6 deg for the levitator and -1.8 deg for the opposed pair: the residual of analyse's
+   local two-wave model on a curved, decaying wave within 0.3 wavelengths of the view), and
+   an injected calibration offset recovered within 2 deg of the wave.
 """
 
 from __future__ import annotations
@@ -82,10 +84,24 @@ def test_preview_frames_analyse_back(levitator, injected_ns):
     # here); what is left is the local two-wave model's bias near a spreading beam
     assert view["line_of_sight_phase_deg"] == pytest.approx(
         pv.summary["line_of_sight_phase_deg"], abs=0.5)
-    base = a if injected_ns == 0 else analyse_frames(rig, pv.frames, list(pv.phases_deg),
-                                                     plan=plan).summary
-    bias = base["view"]["phase_difference_deg"]
-    assert abs(bias) < 8.0
-    # the injected offset comes back (the bias cancels: the same frames, the same model)
-    got = _deg(plan, cal["offset_s"] - base["calibration"]["offset_s"])
-    assert got == pytest.approx(_deg(plan, injected_ns * 1e-9), abs=2.0)
+    # the phase at the view against the plan, less what was injected
+    assert view["phase_difference_deg"] == pytest.approx(-_deg(plan, injected_ns * 1e-9),
+                                                         abs=3.0)
+    # the injected offset comes back (the rig's own offset is 0)
+    assert _deg(plan, cal["offset_s"]) == pytest.approx(_deg(plan, injected_ns * 1e-9),
+                                                        abs=2.0)
+
+
+@pytest.mark.slow
+def test_opposed_pair_preview_analyses_back():
+    # two emitters facing each other, a double-pass layout (the map plus itself shifted)
+    rig = load_rig(example("opposed-pair-40k"))
+    plan = solve(rig)
+    pv = render_preview(rig, plan, frames=12, noise=True, seed=5)
+    a = analyse_frames(rig, pv.frames, list(pv.phases_deg), plan=plan).summary
+    assert a["wave"]["kind"] == "standing"
+    assert abs(a["view"]["phase_difference_deg"]) < 3.0
+    # measured 1.3 % long with this seed (0.4 % without noise): the node-pattern fit over the
+    # whole picture weighs the oblique wave far from the axis; within 1.5 % here
+    assert a["wave"]["wavelength_m"] == pytest.approx(a["wave"]["planned_wavelength_m"],
+                                                      rel=0.015)
