@@ -105,3 +105,22 @@ def test_opposed_pair_preview_analyses_back():
     # whole picture weighs the oblique wave far from the axis; within 1.5 % here
     assert a["wave"]["wavelength_m"] == pytest.approx(a["wave"]["planned_wavelength_m"],
                                                       rel=0.015)
+
+
+def test_the_plan_reports_the_images_phase_like_the_preview():
+    # one definition: check's field section, the preview and view_projection agree, and the
+    # note says how far the picture's phase is from strobe.phase's
+    rig = load_rig(example("levitator-40k"))
+    plan = solve(rig)
+    grid = view_grid(rig, plan)
+    q, p = view_projection(rig, grid, rig.wave.frequency, plan.air.speed_of_sound_m_s)
+    assert plan.field.line_of_sight_phase_deg == pytest.approx(
+        math.degrees(np.angle(q / p)), abs=1e-9)
+    pv = render_preview(rig, plan, frames=2, noise=False, max_pixels=64)
+    assert pv.summary["line_of_sight_phase_deg"] == pytest.approx(
+        plan.field.line_of_sight_phase_deg, abs=1e-6)
+    assert "field.image_phase_differs" in {f.code for f in plan.findings}
+    # without a [view] there is no light path to integrate: no figure, no note
+    bare = solve(rig.model_copy(update={"view": None}))
+    assert bare.field.line_of_sight_phase_deg is None
+    assert "field.image_phase_differs" not in {f.code for f in bare.findings}

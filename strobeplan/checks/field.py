@@ -66,3 +66,27 @@ def temperature_moves_phase(plan):
     return Hit(lambda: f"{lo - 273.15:.1f}-{hi - 273.15:.1f} degC moves the phase at the view "
                        f"by {f.temperature_range_phase_deg:.1f} deg",
                value=f.temperature_range_phase_deg, limit=limit, unit="deg")
+
+
+# The image's phase at the view may differ from the pressure's by this much before it is
+# worth saying (common practice: about the phase step of a 36-frame sweep).
+LINE_OF_SIGHT_NOTE_DEG = 10.0
+
+
+@rule("field.image_phase_differs", "note",
+      trigger=f"the line-of-sight integral of the pressure through the view ([view] depth, "
+              f"light_axis) has a phase more than {LINE_OF_SIGHT_NOTE_DEG:g} deg from the "
+              "pressure's at the view point: the picture shows the wave shifted by that much "
+              "from strobe.phase",
+      fix="to see a given phase in the picture, subtract field.line_of_sight_phase_deg from "
+          "strobe.phase (analyse already allows for it when it measures the offset)",
+      example=("levitator-40k", {}))
+def image_phase_differs(plan):
+    f = plan.field
+    if f is None or f.line_of_sight_phase_deg is None \
+            or abs(f.line_of_sight_phase_deg) <= LINE_OF_SIGHT_NOTE_DEG:
+        return None
+    return Hit(lambda: f"the picture shows the wave's line-of-sight integral, whose phase at "
+                       f"the view is {f.line_of_sight_phase_deg:+.1f} deg from the pressure's "
+                       "there (a beam spreading across the light)",
+               value=f.line_of_sight_phase_deg, limit=LINE_OF_SIGHT_NOTE_DEG, unit="deg")

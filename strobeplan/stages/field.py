@@ -46,6 +46,7 @@ class FieldSection(Section):
     phase_per_kelvin_deg: float = q("deg/K")
     temperature_range_phase_deg: float | None = q("deg")
     radius_assumed: bool = q()
+    line_of_sight_phase_deg: float | None = q("deg", default=None)
 
 
 def view_point(rig) -> np.ndarray:
@@ -131,11 +132,16 @@ def view_projection(rig, grid, frequency, speed=None):
     field, the stationary-phase value of a spherical wave projected along a line), so the
     image's phase at the view is arg(Q), the plan's arg(p).
     """
+    return _projection(rig, grid.samples, grid.depth_m, grid.light_axis, frequency, speed)
+
+
+def _projection(rig, samples, depth, light_axis, frequency, speed=None):
     from ..physics.lineofsight import trapezoid_weights
 
     point = view_point(rig)
-    s, w = trapezoid_weights(grid.samples, grid.depth_m)
-    pts = point + s[:, None] * grid.light_axis
+    s, w = trapezoid_weights(samples, depth)
+    light_axis = np.asarray(light_axis, dtype=float) / np.linalg.norm(light_axis)
+    pts = point + s[:, None] * light_axis
     q_view = complex(room_pressure(rig, pts, frequency, speed=speed) @ w)
     p_view = complex(pressure_at(rig, point, frequency, speed=speed)[0])
     return q_view, p_view
@@ -177,6 +183,14 @@ def compute(rig, design, plan) -> FieldSection | None:
     if rng is not None and rig.wave.speed is None:
         moved = abs(math.degrees(_wrap(_phase_at(rig, f, rng[1]) - _phase_at(rig, f, rng[0]))))
     amp = abs(p_view)
+    los_phase = None
+    v = rig.view
+    depth = None if v is None else (v.depth if v.depth is not None else
+                                    max(v.width or 0.0, v.height or 0.0) or None)
+    if depth is not None:  # the image's phase at the view: the line-of-sight integral's
+        q_view = _projection(rig, v.samples, depth, v.light_axis, f, speed)[0]
+        if abs(q_view) > 0 and abs(p_view) > 0:
+            los_phase = math.degrees(_wrap(float(np.angle(q_view)) - phase))
     near = [float(e.radius**2 / lam) if e.radius is not None else 0.0 for e in rig.emitters]
     return FieldSection(
         view_point_m=[float(v) for v in view],
@@ -195,6 +209,7 @@ def compute(rig, design, plan) -> FieldSection | None:
         phase_per_kelvin_deg=per_k,
         temperature_range_phase_deg=moved,
         radius_assumed=assumed,
+        line_of_sight_phase_deg=los_phase,
     )
 
 
