@@ -4,8 +4,8 @@ For several rigs of our own, the LED is fitted to datasheet-style points, and th
 circuit (storage capacitor with ESR, boost as a current source at its limit during the
 pulse, series resistor, the fitted diode, a voltage-controlled switch) is simulated by
 Debian's ngspice. Peak current, charge per pulse, capacitor end voltage and LED energy must
-agree within 1 %. Without ngspice the tests are skipped with that reason; CI installs it and
-fails instead of skipping (tests/conftest.py ``need_program``).
+agree within 1 %. Without ngspice the tests fail with one line naming the package to install
+(tests/conftest.py ``need_program``).
 """
 
 import re

@@ -2,8 +2,8 @@
 
 The page must be self-contained (no external resource, no script), escape every user
 string, carry every finding code and the plots as inline SVG, render to a non-blank
-screenshot, and rebuild byte for byte. Without Chromium the browser tests are skipped with
-that reason; CI installs it and fails instead of skipping (tests/conftest.py ``need_program``).
+screenshot, and rebuild byte for byte. Without Chromium the browser tests fail with one line
+naming the package to install (tests/conftest.py ``need_program``).
 """
 
 from __future__ import annotations

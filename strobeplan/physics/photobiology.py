@@ -26,9 +26,9 @@ References
 ----------
 1. IEC 62471:2006 / CIE S 009:2002, *Photobiological safety of lamps and lamp systems*,
    Table 4.2 (B(lambda), R(lambda)), sec. 4.3.3-4.3.4 (exposure limits) and sec. 6.1
-   (risk groups). B(lambda) as in Table 4.2, confirmed value by value against the
-   transcription in the luxpy package (1.12, blue_light_hazard_IEC62471_IECTR62778);
-   R(lambda) from memory of the same table (not confirmed by a second transcription); the
+   (risk groups). B(lambda) as in Table 4.2, confirmed value by value against the copy
+   of the table in the luxpy package (1.12, blue_light_hazard_IEC62471_IECTR62778);
+   R(lambda) from memory of the same table (not confirmed against a second copy); the
    blue-light limit 1e6 J m^-2 sr^-1 for t <= 1e4 s confirmed in the CIE lighting
    toolbox's notes.
 2. E. F. Schubert, *Light-Emitting Diodes*, 2nd ed. (2006), ch. 12 and 21 (LED linewidths,

@@ -51,7 +51,8 @@ def test_interpolation_error_of_a_band_limited_field(fraction):
 
 
 def test_line_of_sight_of_an_axisymmetric_field_matches_pyabel():
-    abel = pytest.importorskip("abel")
+    import abel  # PyAbel, a test dependency (pyproject's [test] extra)
+
     # f(r) = (1 + cos(k r)) exp(-r^2 / s^2), symmetric about the u axis (r^2 = v^2 + l^2):
     # its line-of-sight integral along l is the forward Abel transform of f (PyAbel,
     # abel.Transform(..., direction='forward', method='direct'))

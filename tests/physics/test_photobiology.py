@@ -6,8 +6,8 @@ import pytest
 from strobeplan.physics import photobiology as pb
 
 
-def test_blue_light_table_as_transcribed_in_luxpy():
-    # IEC 62471:2006 Table 4.2, B(lambda) at 380-495 nm in 5 nm steps, as transcribed in the
+def test_blue_light_table_as_tabulated_in_luxpy():
+    # IEC 62471:2006 Table 4.2, B(lambda) at 380-495 nm in 5 nm steps, as copied into the
     # luxpy package (PyPI, 1.12: toolboxes/photbiochem/blue_light_hazard_IEC62471_IECTR62778,
     # `_get_BLH`); the same 24 values, and 10^((450 - 500)/50) = 0.1 at 500 nm.
     # (luxpy itself is not imported: its import fails under numpy 2.)
@@ -22,7 +22,7 @@ def test_blue_light_table_as_transcribed_in_luxpy():
 
 
 @pytest.mark.parametrize("nm, b", [
-    # IEC 62471:2006 Table 4.2 (tabulated values; confirmed against luxpy's transcription)
+    # IEC 62471:2006 Table 4.2 (tabulated values; confirmed against luxpy's copy of the table)
     (400, 0.10), (420, 0.90), (435, 1.0), (440, 1.0), (450, 0.94), (460, 0.80),
     (470, 0.62), (480, 0.45), (490, 0.22),
     # formula 10^((450 - lambda)/50) for 500-600 nm: 550 nm -> 0.01; 0.001 at 600-700 nm
@@ -34,7 +34,7 @@ def test_blue_light_weight(nm, b):
 
 @pytest.mark.parametrize("nm, r", [
     # IEC 62471:2006 Table 4.2 (R(lambda) from memory, not confirmed against a second
-    # transcription): R = 10 B for 380-495 nm, 1 for 500-700 nm,
+    # copy): R = 10 B for 380-495 nm, 1 for 500-700 nm,
     # 10^((700 - lambda)/500) for 700-1050 nm (800 nm -> 0.631), 0.2 for 1050-1150 nm
     (440, 10.0), (470, 6.2), (600, 1.0), (800, 10 ** (-0.2)), (1100, 0.2), (1300, 0.02),
 ])

@@ -31,8 +31,9 @@ def test_gladstone_dale_check_value_at_532_nm():
 
 @pytest.mark.parametrize("t_c", [0.0, 15.0, 25.0, 35.0])
 @pytest.mark.parametrize("rh", [0.0, 0.5, 0.9])
-def test_moist_air_density_against_coolprop(t_c, rh):
-    hap = pytest.importorskip("CoolProp.HumidAirProp")
+def test_moist_air_density_against_coolprop(t_c, rh, coolprop):
+    from CoolProp import HumidAirProp as hap  # the coolprop fixture fails when it is absent
+
     # CoolProp's humid-air model (Herrmann et al. 2009, ASHRAE RP-1485): volume per kg of
     # dry air, so rho = (1 + W) / v_da with W the humidity ratio
     t = t_c + 273.15
