@@ -95,6 +95,17 @@ def image_axes(light_axis, up_hint) -> tuple[np.ndarray, np.ndarray]:
     raise ValueError("no up direction perpendicular to the light axis")  # pragma: no cover
 
 
+def light_span(view, width=None, height=None) -> float | None:
+    """The span integrated along the light: [view].depth, else the larger of the width and
+    height (the view's own unless given), else None. [m]"""
+    if view is not None and view.depth is not None:
+        return float(view.depth)
+    if view is not None:
+        width = view.width if width is None else width
+        height = view.height if height is None else height
+    return max(width or 0.0, height or 0.0) or None
+
+
 def view_grid(rig, plan) -> ViewGrid:
     """The rig's imaged region as a pixel grid (see the module's conventions)."""
     from .stages.field import view_point
@@ -122,8 +133,7 @@ def view_grid(rig, plan) -> ViewGrid:
         pixel = width / DEFAULT_PIXELS_ACROSS
     nx = max(1, int(round(width / pixel)))
     ny = max(1, int(round(height / pixel)))
-    depth = getattr(view, "depth", None) if view is not None else None
-    depth = float(depth) if depth is not None else max(width, height)
+    depth = light_span(view, width, height)
     samples = view.samples if view is not None else 64
     return ViewGrid(centre=centre, u=u, v=v, light_axis=ell, pixel_m=pixel, nx=nx, ny=ny,
                     depth_m=depth, samples=int(samples))

@@ -17,6 +17,7 @@
 from __future__ import annotations
 
 import math
+from dataclasses import replace
 
 import numpy as np
 import pytest
@@ -51,7 +52,7 @@ def test_projection_of_a_far_small_source_is_the_stationary_phase_limit():
     assert math.degrees(np.angle(q / p)) == pytest.approx(-45.0, abs=1.5)
     assert abs(q / p) == pytest.approx(math.sqrt(2 * math.pi * 1.0 / k), rel=0.05)
     # a thin slab of the same field: the projection is the pressure times the depth
-    thin = grid.__class__(**{**grid.__dict__, "depth_m": 1e-3, "samples": 3})
+    thin = replace(grid, depth_m=1e-3, samples=3)
     q1, p1 = view_projection(rig, thin, f, c)
     assert q1 / p1 == pytest.approx(1e-3, rel=1e-3)
 

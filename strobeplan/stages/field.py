@@ -23,6 +23,7 @@ from ..physics import drive as drive_model
 from ..physics import field as field_model
 from ..plan import Section, q
 from ..quickdc import dataclass
+from ..viewgrid import light_span
 
 NODE_FRACTION = 0.1  # |p| under this fraction of the largest |p| within lambda/2: a node
 
@@ -135,6 +136,7 @@ def view_projection(rig, grid, frequency, speed=None):
     return _projection(rig, grid.samples, grid.depth_m, grid.light_axis, frequency, speed)
 
 
+
 def _projection(rig, samples, depth, light_axis, frequency, speed=None):
     from ..physics.lineofsight import trapezoid_weights
 
@@ -185,8 +187,7 @@ def compute(rig, design, plan) -> FieldSection | None:
     amp = abs(p_view)
     los_phase = None
     v = rig.view
-    depth = None if v is None else (v.depth if v.depth is not None else
-                                    max(v.width or 0.0, v.height or 0.0) or None)
+    depth = light_span(v) if v is not None else None
     if depth is not None:  # the image's phase at the view: the line-of-sight integral's
         q_view = _projection(rig, v.samples, depth, v.light_axis, f, speed)[0]
         if abs(q_view) > 0 and abs(p_view) > 0:
