@@ -964,12 +964,10 @@ def _projection_phase(rig, grid, frequency, speed):
     (0 without an emitter, e.g. a plane wave given only by its wavelength). [rad]"""
     if rig.emitter is None:
         return 0.0
-    from .stages.field import view_projection
+    from .stages.field import line_of_sight_phase
 
-    q_view, p_view = view_projection(rig, grid, frequency, speed=speed)
-    if not (abs(q_view) > 0 and abs(p_view) > 0):
-        return 0.0
-    return cmath.phase(q_view / p_view)
+    deg = line_of_sight_phase(rig, grid, frequency, speed)
+    return 0.0 if deg is None else math.radians(deg)
 
 
 def _lens_sensitivity(lens, grid, stack, background):

@@ -34,7 +34,6 @@ mid-grey background, the view's largest deflection at half the linear range, no 
 
 from __future__ import annotations
 
-import cmath
 import math
 from dataclasses import dataclass, field
 
@@ -362,7 +361,7 @@ def render_preview(rig, plan=None, *, frames=None, noise=True, seed=0, progress=
 
     u_nodes, v_nodes, s_pos, s_w = _lattice(grid, lam, offset)
     total = v_nodes.size + n_rows
-    from .stages.field import room_pressure, view_projection
+    from .stages.field import line_of_sight_phase, room_pressure
     from .stages.optics import gladstone_dale
 
     def pressure(pts):
@@ -411,9 +410,7 @@ def render_preview(rig, plan=None, *, frames=None, noise=True, seed=0, progress=
                                    points, n_src, k_gd, level_source, phases, gains, noise,
                                    seed)
     summary["pressure_phase_at_view_deg"] = math.degrees(theta)
-    q_view, _ = view_projection(rig, grid, f, speed=speed)
-    summary["line_of_sight_phase_deg"] = math.degrees(cmath.phase(q_view / p_view)) \
-        if abs(p_view) > 0 and abs(q_view) > 0 else None
+    summary["line_of_sight_phase_deg"] = line_of_sight_phase(rig, grid, f, speed)
     sigma = o.resolution / 2.3548
     summary["blur_fwhm_m"] = o.resolution
     summary["blur_contrast_at_sound_wavelength"] = (

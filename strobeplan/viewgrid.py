@@ -16,7 +16,8 @@ Conventions
 - ``width``/``height``: [view].width/height, else the image chain's field of view, else
   eight sound wavelengths square.
 - ``depth``: the span integrated along the light axis, [view].depth, else the larger of
-  width and height.
+  [view].width and height, else eight sound wavelengths (:func:`light_span`: the field
+  section's line-of-sight phase uses the same span).
 """
 
 from __future__ import annotations
@@ -95,15 +96,13 @@ def image_axes(light_axis, up_hint) -> tuple[np.ndarray, np.ndarray]:
     raise ValueError("no up direction perpendicular to the light axis")  # pragma: no cover
 
 
-def light_span(view, width=None, height=None) -> float | None:
-    """The span integrated along the light: [view].depth, else the larger of the width and
-    height (the view's own unless given), else None. [m]"""
+def light_span(view, wavelength) -> float:
+    """The span integrated along the light: [view].depth, else the larger of its width and
+    height, else DEFAULT_WAVELENGTHS_ACROSS sound wavelengths. [m]"""
     if view is not None and view.depth is not None:
         return float(view.depth)
-    if view is not None:
-        width = view.width if width is None else width
-        height = view.height if height is None else height
-    return max(width or 0.0, height or 0.0) or None
+    given = max((view.width or 0.0, view.height or 0.0)) if view is not None else 0.0
+    return float(given) if given > 0 else DEFAULT_WAVELENGTHS_ACROSS * wavelength
 
 
 def view_grid(rig, plan) -> ViewGrid:
@@ -133,7 +132,7 @@ def view_grid(rig, plan) -> ViewGrid:
         pixel = width / DEFAULT_PIXELS_ACROSS
     nx = max(1, int(round(width / pixel)))
     ny = max(1, int(round(height / pixel)))
-    depth = light_span(view, width, height)
+    depth = light_span(view, float(plan.air.speed_of_sound_m_s) / rig.wave.frequency)
     samples = view.samples if view is not None else 64
     return ViewGrid(centre=centre, u=u, v=v, light_axis=ell, pixel_m=pixel, nx=nx, ny=ny,
                     depth_m=depth, samples=int(samples))

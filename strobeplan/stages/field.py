@@ -50,6 +50,16 @@ class FieldSection(Section):
     line_of_sight_phase_deg: float | None = q("deg", default=None)
 
 
+@dataclass(frozen=True)
+class _LightPath:
+    """The light's path through the view as :func:`view_projection` reads it (a ViewGrid
+    has the same three fields)."""
+
+    samples: int
+    depth_m: float
+    light_axis: tuple
+
+
 def view_point(rig) -> np.ndarray:
     """The point where strobe.phase is defined. [m]"""
     if rig.view is not None and rig.view.point is not None:
@@ -136,6 +146,14 @@ def view_projection(rig, grid, frequency, speed=None):
     return _projection(rig, grid.samples, grid.depth_m, grid.light_axis, frequency, speed)
 
 
+def line_of_sight_phase(rig, grid, frequency, speed=None) -> float | None:
+    """arg(Q / p) at the view (:func:`view_projection`), wrapped to (-180, 180]; None when
+    either vanishes. [deg]"""
+    q_view, p_view = view_projection(rig, grid, frequency, speed)
+    if not (abs(q_view) > 0 and abs(p_view) > 0):
+        return None
+    return math.degrees(_wrap(float(np.angle(q_view)) - float(np.angle(p_view))))
+
 
 def _projection(rig, samples, depth, light_axis, frequency, speed=None):
     from ..physics.lineofsight import trapezoid_weights
@@ -187,11 +205,9 @@ def compute(rig, design, plan) -> FieldSection | None:
     amp = abs(p_view)
     los_phase = None
     v = rig.view
-    depth = light_span(v) if v is not None else None
-    if depth is not None:  # the image's phase at the view: the line-of-sight integral's
-        q_view = _projection(rig, v.samples, depth, v.light_axis, f, speed)[0]
-        if abs(q_view) > 0 and abs(p_view) > 0:
-            los_phase = math.degrees(_wrap(float(np.angle(q_view)) - phase))
+    if v is not None:  # the image's phase at the view: the line-of-sight integral's
+        span = _LightPath(v.samples, light_span(v, lam), v.light_axis)
+        los_phase = line_of_sight_phase(rig, span, f, speed)
     near = [float(e.radius**2 / lam) if e.radius is not None else 0.0 for e in rig.emitters]
     return FieldSection(
         view_point_m=[float(v) for v in view],
