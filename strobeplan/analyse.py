@@ -44,7 +44,8 @@ from pathlib import Path
 import numpy as np
 
 from .errors import StrobeplanError
-from .physics import demod
+from .physics import acoustics, demod
+from .physics.air import ZERO_CELSIUS
 from .safetext import clean
 
 IMAGE_SUFFIXES = (".png", ".tif", ".tiff")
@@ -671,9 +672,9 @@ def analyse_frames(rig, frames_or_paths, phases_deg=None, *, plan=None, dark=Non
             "speed_of_sound_m_s": speed, "speed_of_sound_uncertainty_m_s": speed_sigma,
             "planned_speed_of_sound_m_s": planned_speed,
             "speed_difference_m_s": speed - planned_speed,
-            "air_temperature_c": temp - 273.15,
+            "air_temperature_c": temp - ZERO_CELSIUS,
             "air_temperature_uncertainty_k": speed_sigma / slope if slope else None,
-            "planned_air_temperature_c": a.temperature - 273.15,
+            "planned_air_temperature_c": a.temperature - ZERO_CELSIUS,
             "pixels_used": int(good.sum()),
         }
         view_block, calib, pressure, deflection = _at_view(
@@ -940,21 +941,24 @@ def _at_view(rig, plan, grid, contrast, good, k_u, k_v, kind, sens, sens_how, ro
     eps_peak = grad / sens
     eps_sigma = math.sqrt(max(cov[0, 0] + cov[1, 1], 0.0)) / sens
     eps_view = abs(alpha + beta) / sens
-    p_amp = abs(p_rel) * speed**2 / (sens * passes * length * kk)
+    # |p_rel| = |alpha - beta| / k_v: the deflection amplitude |alpha - beta| / S through the
+    # plane-wave chain eps = passes L K k p / c^2, inverted
+    p_amp = demod.pressure_from_deflection(abs(alpha - beta) / sens, passes, length, kk,
+                                           abs(k_v), speed)
     deflection = {"method": sens_how, "peak_rad": eps_peak,
                   "peak_uncertainty_rad": eps_sigma, "view_rad": eps_view,
                   "view_uncertainty_rad": eps_sigma, "sensitivity_per_rad": sens}
     p_sigma = p_amp * eps_sigma / max(eps_peak, 1e-300)
     planned_p = None
-    if plan.optics is not None and getattr(plan.optics, "spl_at_view_db", None) is not None:
-        planned_p = math.sqrt(2) * 20e-6 * 10 ** (plan.optics.spl_at_view_db / 20)
+    if plan.optics is not None:
+        planned_p = plan.optics.pressure_amplitude_pa
     elif plan.field is not None and plan.field.level_known:
         planned_p = plan.field.pressure_amplitude_pa
     pressure = {"plane_wave_at_view_pa": float(p_amp),
                 "plane_wave_uncertainty_pa": float(p_sigma),
                 "path_m": length, "passes": passes,
                 "planned_at_view_pa": planned_p,
-                "spl_at_view_db": (20 * math.log10(p_amp / (math.sqrt(2) * 20e-6))
+                "spl_at_view_db": (float(acoustics.spl_from_pressure_amplitude(p_amp))
                                    if p_amp > 0 else None)}
     return view_block, calib, pressure, deflection
 
@@ -1068,18 +1072,9 @@ def invert_abel(half, pixel_m):
 def summary_json(analysis: Analysis) -> str:
     import json
 
-    def fix(x):
-        if isinstance(x, float):
-            return x if math.isfinite(x) else None
-        if isinstance(x, dict):
-            return {k: fix(v) for k, v in x.items()}
-        if isinstance(x, (list, tuple)):
-            return [fix(v) for v in x]
-        if isinstance(x, (np.floating, np.integer)):
-            return fix(x.item())
-        return x
+    from .plan import jsonable
 
-    return json.dumps(fix(analysis.summary), indent=2) + "\n"
+    return json.dumps(jsonable(analysis.summary), indent=2, allow_nan=False) + "\n"
 
 
 def summary_text(analysis: Analysis) -> str:

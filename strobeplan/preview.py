@@ -249,12 +249,6 @@ def _transmission_table(o: _Optics, reach: float):
     return s, t
 
 
-def _view_sources(rig):
-    from .stages.field import pressure_at, view_point
-
-    return pressure_at, view_point(rig)
-
-
 def project(pressure, grid: ViewGrid, u_nodes, v_nodes, s_pos, s_w, progress=None):
     """Line-of-sight integral Q of a complex field on the lattice, and the largest |p|.
 
@@ -354,8 +348,10 @@ def render_preview(rig, plan=None, *, frames=None, noise=True, seed=0, progress=
     rows = schedule.rows[:MAX_FRAMES]
     n_rows = len(rows)
 
-    pressure_at, view = _view_sources(rig)
-    n_src = pressure_at(rig, view, f, speed=speed)[3]
+    from .stages.field import pressure_at, view_point
+
+    at_view = pressure_at(rig, view_point(rig), f, speed=speed)
+    n_src = at_view[3]
     seconds, memory, points = estimate_work(grid, lam, n_src, n_rows, offset)
     _require_within(grid, seconds, memory, n_rows, max_seconds)
 
@@ -369,7 +365,7 @@ def render_preview(rig, plan=None, *, frames=None, noise=True, seed=0, progress=
 
     q_lat, peak_p = project(pressure, grid, u_nodes, v_nodes, s_pos, s_w,
                             None if progress is None else (lambda i: progress(i, total)))
-    p_view = complex(pressure_at(rig, view, f, speed=speed)[0])
+    p_view = complex(at_view[0])
     scale, level_source = _level_scale(rig, plan, p_view)
     q_lat *= scale
     peak_p *= scale

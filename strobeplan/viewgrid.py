@@ -71,10 +71,6 @@ class ViewGrid:
         row = (self.ny - 1) / 2.0 - float(d @ self.v) / self.pixel_m
         return row, col
 
-    def direction_of(self, dcol: float, drow: float) -> np.ndarray:
-        """The 3-D direction of a step (dcol, drow) in the picture (unit vector)."""
-        w = dcol * self.u - drow * self.v
-        return w / np.linalg.norm(w)
 
 
 def _unit(v) -> np.ndarray:

@@ -199,8 +199,8 @@ def test_abel_pressure_of_an_axisymmetric_beam(lev):
     """An axisymmetric Gaussian beam travelling up the emitter's axis: the Abel-inverted
     pressure on the axis at the view matches the field put in (3 %)."""
     _, _, _, phases = lev
-    from strobeplan.physics import schlieren
     from strobeplan.stages.field import view_point
+    from strobeplan.stages.optics import gladstone_dale
 
     # frames of 200 x 128 pixels centred on the view point (the example's [view] frames the
     # whole column, centred lower)
@@ -218,7 +218,7 @@ def test_abel_pressure_of_an_axisymmetric_beam(lev):
     pts = g.points() - view_point(rig)
     u = pts @ g.u
     v = pts @ g.v
-    kk = schlieren.gladstone_dale(opt.light_wavelength)
+    kk = gladstone_dale(rig)
     from strobeplan.analyse import _cutoff
 
     _, sens, _ = _cutoff(rig, plan)

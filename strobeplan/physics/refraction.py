@@ -32,8 +32,9 @@ from __future__ import annotations
 
 import numpy as np
 
+from .air import ZERO_CELSIUS, enhancement_factor
+
 GAS_CONSTANT = 8.314510  # [J/(mol K)] the value Ciddor (1996) used
-ZERO_CELSIUS = 273.15  # [K]
 WATER_MOLAR_MASS = 0.018015  # [kg/mol] (Ciddor 1996)
 
 # Ciddor (1996), eq. 1 and 3: dispersion of standard air and water vapour [1/um^2].
@@ -45,10 +46,9 @@ _A0, _A1, _A2 = 1.58123e-6, -2.9331e-8, 1.1043e-10
 _B0, _B1 = 5.707e-6, -2.051e-8
 _C0, _C1 = 1.9898e-4, -2.376e-6
 _D, _E = 1.83e-11, -0.765e-8
-# Saturation vapour pressure over water (Ciddor 1996 appendix; NIST EMT A-I) and the
-# enhancement factor.
+# Saturation vapour pressure over water (Ciddor 1996 appendix; NIST EMT A-I; the Davis
+# (1992) form, not Giacomo's of physics.air); the enhancement factor is the same as air's.
 _SVP = (1.2378847e-5, -1.9121316e-2, 33.93711047, -6.3431645e3)
-_ENH = (1.00062, 3.14e-8, 5.6e-7)
 
 
 def _a(x):
@@ -103,9 +103,7 @@ def water_fraction(temperature, pressure, relative_humidity):
     t_k, p, h = _a(temperature), _a(pressure), _a(relative_humidity)
     a, b, c, d = _SVP
     svp = np.exp(a * t_k * t_k + b * t_k + c + d / t_k)
-    t = t_k - ZERO_CELSIUS
-    f = _ENH[0] + _ENH[1] * p + _ENH[2] * t * t
-    return _out(f * h * svp / p)
+    return _out(enhancement_factor(t_k, p) * h * svp / p)
 
 
 def dry_air_molar_mass(co2_ppm):

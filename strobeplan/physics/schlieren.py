@@ -3,7 +3,8 @@
 Chain for a plane sinusoidal wave of peak pressure p' seen across a path L:
 
     rho' = p' / c^2                      (linear adiabatic acoustics)
-    n'   = K(lambda) rho'                (Gladstone-Dale)
+    n'   = K rho'                        (Gladstone-Dale; K = (n - 1)/rho of the air at the
+                                          light's wavelength: physics.refraction)
     eps  = passes * L * k * n'           (ray deflection, k = 2 pi f / c the wavenumber)
     C    = f2 * eps / a                  (knife-edge contrast: f2 the distance from the
                                           schlieren head to the cut-off, a the unobstructed
@@ -19,7 +20,7 @@ References
 1. G. S. Settles, *Schlieren and Shadowgraph Techniques*, Springer (2001), ch. 3
    (eq. 3.6: contrast f2 eps / a). doi:10.1007/978-3-642-56640-0
 2. J. Crockett, W. Rueckner, "Visualizing sound waves with schlieren optics",
-   Am. J. Phys. 86, 870 (2018). (K(lambda) for air).
+   Am. J. Phys. 86, 870 (2018) (the chain for sound).
 3. L. E. Kinsler et al., *Fundamentals of Acoustics*, 4th ed., Wiley (2000)
    (rho' = p' / c^2).
 """
@@ -35,28 +36,6 @@ def _arrays(*args):
 
 def _out(x):
     return x if np.ndim(x) else x.item()
-
-
-def gladstone_dale(wavelength):
-    """Gladstone-Dale constant of air at a light wavelength.
-
-    Parameters
-    ----------
-    wavelength : float or ndarray
-        Vacuum wavelength of the light. [m]
-
-    Returns
-    -------
-    float or ndarray
-        K = 2.2244e-4 (1 + (63.7132 nm / lambda)^2), so that n - 1 = K rho. [m^3/kg]
-
-    References
-    ----------
-    1. Crockett & Rueckner (2018), and the dispersion fit it quotes (secondary source:
-       see docs/references.md, "Acoustics and schlieren"); 2.2563e-4 m^3/kg at 532 nm.
-    """
-    lam = np.asarray(wavelength, dtype=float)
-    return _out(2.2244e-4 * (1.0 + (63.7132e-9 / lam) ** 2))
 
 
 def density_amplitude(pressure_amplitude, speed):

@@ -3,11 +3,7 @@ set beside the plan's figures (each measured figure with its uncertainty)."""
 
 from __future__ import annotations
 
-import html
-
-
-def _e(value) -> str:
-    return html.escape("" if value is None else str(value), quote=True)
+from .html import _e
 
 
 def _fmt(value, digits=5, scale=1.0, unit=""):

@@ -33,24 +33,6 @@ def test_double_pass_doubles_deflection():
     assert double == pytest.approx(2 * single, rel=1e-12)
 
 
-def test_gladstone_dale_check_value():
-    # docs/references.md, "Acoustics and schlieren" [src2] (Crockett & Rueckner 2018):
-    # K = 2.2563e-4 m^3/kg at 532 nm.
-    assert sc.gladstone_dale(532e-9) == pytest.approx(2.2563e-4, rel=5e-5)
-
-
-def test_gladstone_dale_against_edlen_refractivity(coolprop):
-    # Independent check: refractivity of standard dry air (15 degC, 101325 Pa) from the
-    # revised Edlen formula of Birch & Downs, Metrologia 30, 155 (1993) (coefficients from
-    # memory): (n - 1) 1e8 = 8342.54 + 2406147/(130 - s^2) + 15998/(38.9 - s^2), s in 1/um;
-    # density from CoolProp (dry air). The fits differ by ~0.5 %, so 1 %.
-    rho = coolprop.PropsSI("D", "T", 288.15, "P", 101325.0, "Air")
-    for lam in (450e-9, 532e-9, 633e-9, 850e-9):
-        s2 = (1e-6 / lam) ** 2
-        refractivity = (8342.54 + 2406147 / (130 - s2) + 15998 / (38.9 - s2)) * 1e-8
-        assert sc.gladstone_dale(lam) * rho == pytest.approx(refractivity, rel=1e-2)
-
-
 def test_density_amplitude():
     # Linear adiabatic acoustics (Kinsler 2000): 1 Pa in air at 343 m/s is 8.5e-6 kg/m^3.
     assert sc.density_amplitude(1.0, 343.0) == pytest.approx(1 / 343.0**2, rel=1e-12)
