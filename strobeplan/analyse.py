@@ -356,17 +356,48 @@ def _finding(code, severity, message):
     return {"code": code, "severity": severity, "message": message}
 
 
-def _grid_for(rig, plan, shape, notes):
+def _grid_for(rig, plan, shape, notes, findings, pixel_m=None):
+    """The frames' pixel grid and where its scale came from: ``pixel_m`` (given), the
+    plan's object pixel (camera and lens), the view's width over the frames' width, else a
+    guess (a finding says so). [m]"""
     from .viewgrid import view_grid
 
     grid = view_grid(rig, plan)
     ny, nx = shape
-    if (grid.ny, grid.nx) != (ny, nx):
-        notes.append(f"the frames are {nx} x {ny} pixels and the plan's grid {grid.nx} x "
-                     f"{grid.ny}: the frames are taken as centred on the grid's centre at its "
-                     f"object pixel ({grid.pixel_m * 1e6:.4g} um)")
-        grid = replace(grid, nx=nx, ny=ny)
-    return grid
+    image = getattr(plan, "image", None)
+    view = rig.view
+    if pixel_m is not None:
+        pixel, source = float(pixel_m), "given (--pixel-size)"
+    elif image is not None and image.object_pixel_m:
+        pixel, source = float(image.object_pixel_m), "the plan's object pixel (camera and lens)"
+        cam = rig.camera
+        if cam is not None and cam.binning > 1 and cam.width_px \
+                and abs(nx - cam.width_px / cam.binning) <= 1:
+            pixel *= cam.binning  # the frames are as wide as the binned sensor
+            source += f" x camera.binning ({cam.binning}): the frames are binned"
+    elif view is not None and (view.width is not None or view.height is not None):
+        across = [(view.width, nx), (view.height, ny)]
+        scales = [size / n for size, n in across if size is not None]
+        pixel = scales[0]
+        source = ("the view's width over the frames' width" if view.width is not None
+                  else "the view's height over the frames' height")
+        if len(scales) == 2 and abs(scales[1] / scales[0] - 1) > 0.02:
+            notes.append(f"the view is {view.width * 1e3:.4g} x {view.height * 1e3:.4g} mm and "
+                         f"the frames {nx} x {ny} pixels: the aspect ratios differ by "
+                         f"{abs(scales[1] / scales[0] - 1):.0%}; the width sets the scale")
+    else:
+        pixel, source = grid.pixel_m, "a guess (the plan's default grid)"
+        findings.append(_finding(
+            "analyse.scale_unknown", "warning",
+            f"the frames' scale is unknown: each pixel is taken as {pixel * 1e6:.4g} um, so "
+            "the wavelength and speed of sound are only as good as that guess; give "
+            "--pixel-size, camera.object_pixel, or the [view] width the frames show"))
+    if (grid.ny, grid.nx) != (ny, nx) or pixel != grid.pixel_m:
+        if (grid.ny, grid.nx) != (ny, nx):
+            notes.append(f"the frames are {nx} x {ny} pixels and the plan's grid {grid.nx} x "
+                         f"{grid.ny}: the frames are taken as centred on the grid's centre")
+        grid = replace(grid, nx=nx, ny=ny, pixel_m=pixel)
+    return grid, source
 
 
 def _cutoff(rig, plan):
@@ -394,14 +425,19 @@ def _cutoff(rig, plan):
 
 def _spectrum_peak(z, mask):
     """Main spatial-frequency peak of a complex map: (f_row, f_col) [cycles/pixel], the
-    peak's magnitude, the magnitude at the mirrored frequency, and the spectrum."""
+    peak's magnitude, the magnitude at the mirrored frequency, and the spectrum.
+
+    Pictures holding fewer than three cycles of the wave put its peak among the lowest
+    bins; there the peak is located again on a windowed, zero-padded spectrum of a copy
+    reduced to at most 64 pixels a side (the wave spans over a third of the picture, so
+    the reduction cannot alias it)."""
     zz = np.where(mask, z, 0.0)
     spec = np.abs(np.fft.fft2(zz))
     ny, nx = spec.shape
     fr = np.fft.fftfreq(ny)
     fc = np.fft.fftfreq(nx)
-    low = (np.abs(fr)[:, None] * ny < 2.5) & (np.abs(fc)[None, :] * nx < 2.5)
-    work = np.where(low, 0.0, spec)
+    work = spec.copy()
+    work[0, 0] = 0.0  # a uniform first harmonic is no wave
     i, j = np.unravel_index(np.argmax(work), work.shape)
 
     def refine(line, k):
@@ -409,10 +445,24 @@ def _spectrum_peak(z, mask):
         den = a - 2 * b + c
         return 0.5 * (a - c) / den if den < 0 else 0.0
 
-    di = refine(spec[:, j], i)
-    dj = refine(spec[i, :], j)
-    f_row = fr[i] + di / ny
-    f_col = fc[j] + dj / nx
+    if abs(fr[i]) * ny < 3 and abs(fc[j]) * nx < 3:
+        d = max(1, int(math.ceil(max(ny, nx) / 64)))
+        small = zz[::d, ::d]
+        sy, sx = small.shape
+        win = np.outer(np.hanning(sy + 2)[1:-1], np.hanning(sx + 2)[1:-1])
+        py, px = 8 * sy, 8 * sx
+        fine = np.abs(np.fft.fft2(small * win, s=(py, px)))
+        frp, fcp = np.fft.fftfreq(py), np.fft.fftfreq(px)
+        # leave out the window's own low-pass lobe around zero (a quarter cycle across)
+        lobe = (np.abs(frp)[:, None] * sy < 0.25) & (np.abs(fcp)[None, :] * sx < 0.25)
+        fine[lobe] = 0.0
+        a_, b_ = np.unravel_index(np.argmax(fine), fine.shape)
+        f_row = (frp[a_] + refine(fine[:, b_], a_) / py) / d
+        f_col = (fcp[b_] + refine(fine[a_, :], b_) / px) / d
+        i, j = int(round(f_row * ny)) % ny, int(round(f_col * nx)) % nx
+    else:
+        f_row = fr[i] + refine(spec[:, j], i) / ny
+        f_col = fc[j] + refine(spec[i, :], j) / nx
     mirror = spec[(-i) % ny, (-j) % nx]
     return f_row, f_col, float(spec[i, j]), float(mirror), spec
 
@@ -489,22 +539,33 @@ def _wave_vector(z, mask, grid, kind_hint=None):
     x = (xs - (grid.nx - 1) / 2.0) * pix
     y = ((grid.ny - 1) / 2.0 - ys) * pix
     zz = z[ys, xs]
-    direction = np.array([k_u0, k_v0]) / k0
+    n_fit = max(1, zz.size - 4)
+
+    def rss_vec(kvec):
+        a, b, _, rms = demod.two_wave_fit(zz, x, y, kvec[0], kvec[1])
+        return rms**2 * n_fit
+
+    # the wave vector in both components (the spectrum's peak is only a start: a picture of
+    # few cycles locates it to a few per cent), then the magnitude's curvature for sigma
+    from scipy.optimize import minimize
+
+    step = 0.03 * k0
+    best = minimize(rss_vec, np.array([k_u0, k_v0]), method="Nelder-Mead",
+                    options={"xatol": 1e-5 * k0, "fatol": 0.0, "maxiter": 400,
+                             "initial_simplex": [[k_u0, k_v0], [k_u0 + step, k_v0],
+                                                 [k_u0, k_v0 + step]]})
+    k_fit = float(np.hypot(*best.x))
+    direction = np.asarray(best.x, dtype=float) / k_fit
 
     def rss(k):
-        kx, ky = k * direction
-        a, b, _, rms = demod.two_wave_fit(zz, x, y, kx, ky)
-        return rms**2 * max(1, zz.size - 2)
+        return rss_vec(k * direction)
 
-    ks = k0 * np.linspace(0.96, 1.04, 33)
-    r = np.array([rss(k) for k in ks])
-    i = int(np.argmin(r))
-    i = min(max(i, 1), len(ks) - 2)
-    ks2 = np.linspace(ks[i - 1], ks[i + 1], 21)
+    ks2 = k_fit * np.linspace(0.995, 1.005, 21)
     r2 = np.array([rss(k) for k in ks2])
     c2, c1, c0 = np.polyfit(ks2 - ks2[10], r2, 2)
-    k_best = ks2[10] - c1 / (2 * c2) if c2 > 0 else ks2[int(np.argmin(r2))]
-    var = r2.min() / max(1, zz.size - 4)
+    k_best = ks2[10] - c1 / (2 * c2) if c2 > 0 and abs(c1 / (2 * c2)) < 0.005 * k_fit \
+        else k_fit
+    var = r2.min() / n_fit
     sigma = math.sqrt(2 * var / (2 * c2)) if c2 > 0 else math.nan
     sigma *= math.sqrt(stride)  # every stride-th pixel was used
     ku, kv = k_best * direction
@@ -513,8 +574,135 @@ def _wave_vector(z, mask, grid, kind_hint=None):
     return float(ku), float(kv), float(sigma), "standing", "node pattern", info
 
 
+MODEL_PIXELS = 1024  # the field model's picture: at most this many pixels a side (finer
+# than the frames only costs the interpolation; the same pixels must be kept as in the frames:
+# on the opposed pair a 192-pixel model left -1.1 %, the full grid -0.1 %)
+MODEL_ROUNDS = 4  # pictures drawn again at the corrected speed
+PLANE_CHI2 = 2.0  # the plane two-wave model explains the map when its residual is within
+# twice the demodulation's noise (reduced chi-square); otherwise the pattern is curved
+
+
+def _image_wavelength(rig, plan, grid, z, zs, good, k_u, k_v, kind, notes):
+    """How the picture's wavelength relates to the air's: a plane pattern shows it as it
+    is; a curved one (a spreading beam seen through its depth, crossing waves) shows the
+    node or phase spacing of the line-of-sight integral, which the field model predicts.
+
+    The map's residual against plane waves at the measured wave vector (reduced chi-square
+    against the demodulation's own noise) says whether it is curved. A curved map of a rig
+    with a field model is compared with the model's picture at the planned speed (drawn by
+    the preview's engine on the frames' grid, at most MODEL_PIXELS a side): when that picture
+    explains more of the map than the best pair of plane waves, it is measured the same way
+    on the same pixels and the wavelength is scaled by planned / model-measured.
+
+    Returns (summary dict or None without a measurable fit, the model's first-harmonic
+    phasor map on the frames' grid or None): the map is the deflection E exp(-i theta)
+    with theta the pressure's phase at the view (preview's frame convention), so the
+    frames' contrast is S E exp(-i theta) exp(i delta) for a wave delta late.
+    """
+    ys, xs = np.nonzero(good)
+    if ys.size < 50:
+        return None, None
+    stride = max(1, ys.size // 60000)
+    ys, xs = ys[::stride], xs[::stride]
+    x = (xs - (grid.nx - 1) / 2.0) * grid.pixel_m
+    y = ((grid.ny - 1) / 2.0 - ys) * grid.pixel_m
+    zz = z[ys, xs]
+    *_, rms = demod.two_wave_fit(zz, x, y, k_u, k_v)
+    noise2 = 2.0 * float(np.mean(zs[ys, xs] ** 2))
+    chi2 = rms**2 / noise2 if noise2 > 0 else math.inf
+    power = float(np.sum(np.abs(zz) ** 2))
+    plane_share = max(0.0, 1.0 - rms**2 * max(zz.size - 2, 1) / power) if power > 0 else 0.0
+    out = {"plane_reduced_chi2": chi2, "plane_explains": plane_share, "factor": 1.0,
+           "applied": False, "model": "plane waves (the picture's spacing is the air's)"}
+    if chi2 <= PLANE_CHI2 or rig.emitter is None:
+        if chi2 > PLANE_CHI2:
+            out["model"] = ("plane waves, although the map departs from them (no field model "
+                            "to compare with): the wavelength is a mean over the picture")
+        return out, None
+    from .preview import PreviewError, reduced_grid, render_preview
+    from .workload import WorkloadError
+
+    coarse = reduced_grid(grid, MODEL_PIXELS)
+    freq = float(rig.wave.frequency)
+
+    def picture(speed):
+        pv = render_preview(rig, plan, frames=1, noise=False, grid=coarse, speed=speed)
+        theta = math.radians(pv.summary["pressure_phase_at_view_deg"])
+        return pv.deflection * cmath.exp(-1j * theta)
+
+    try:
+        model = picture(None)
+    except (PreviewError, WorkloadError):
+        return out, None
+    f = max(1, int(round(coarse.pixel_m / grid.pixel_m)))
+    r0 = max(0, (grid.ny - coarse.ny * f) // 2)
+    c0 = max(0, (grid.nx - coarse.nx * f) // 2)
+    # the share of the map the model's picture explains (one complex factor), against the
+    # share the best pair of plane waves explains: the model is used only when it does better
+    # (frames of another field than the rig's, e.g. plane waves, keep the plain measurement)
+    m = model[np.clip((ys - r0) // f, 0, coarse.ny - 1), np.clip((xs - c0) // f, 0, coarse.nx - 1)]
+    cross = complex(np.sum(np.conj(m) * zz))
+    norm = float(np.sum(np.abs(m) ** 2))
+    model_share = abs(cross) ** 2 / (norm * power) if norm > 0 and power > 0 else 0.0
+    out["model_explains"] = model_share
+    if model_share <= plane_share:
+        out["model"] = ("plane waves: the rig's field model explains less of the map "
+                        f"({model_share:.0%}) than a pair of plane waves ({plane_share:.0%}), "
+                        "so the frames are measured as they are")
+        return out, None
+    block = good[r0:r0 + coarse.ny * f, c0:c0 + coarse.nx * f]
+    if block.shape != (coarse.ny * f, coarse.nx * f):
+        return out, None
+    keep = block.reshape(coarse.ny, f, coarse.nx, f).mean(axis=(1, 3)) >= 0.5
+    if keep.sum() < 50:
+        keep = np.ones(model.shape, dtype=bool)
+
+    def measured(picture_map):
+        wave = _wave_vector(picture_map, keep, coarse)
+        return None if wave is None else 2 * math.pi / math.hypot(wave[0], wave[1])
+
+    lam_image = 2 * math.pi / math.hypot(k_u, k_v)
+    speed = float(plan.air.speed_of_sound_m_s)
+    lam_model = measured(model)
+    if lam_model is None:
+        return out, None
+    # the picture's geometry changes with the wavelength: the speed is the one whose picture
+    # measures what the frames measure (secant steps from the plan's speed and the first
+    # correction, until within 0.05 %; at most MODEL_ROUNDS more pictures)
+    prev = None
+    for _ in range(MODEL_ROUNDS):
+        if prev is None:
+            new_speed = lam_image * speed / lam_model
+        else:
+            slope = (lam_model - prev[1]) / (speed - prev[0])
+            new_speed = speed + (lam_image - lam_model) / slope if slope > 0 else \
+                lam_image * speed / lam_model
+        if abs(new_speed / speed - 1) <= 5e-4:
+            break
+        try:
+            again = measured(picture(new_speed))
+        except (PreviewError, WorkloadError):
+            break
+        if again is None:
+            break
+        prev = (speed, lam_model)
+        speed, lam_model = new_speed, again
+    lam_true = speed / freq
+    out.update({"factor": lam_true / lam_model, "applied": True,
+                "model_image_wavelength_m": lam_model, "model_speed_m_s": speed,
+                "model": "the field model's line-of-sight picture (preview's engine), "
+                         "measured like the frames: the frames' wavelength is scaled by the "
+                         "model's wavelength over its picture's"})
+    notes.append(f"the map departs from plane waves (reduced chi-square {chi2:.3g}) and the "
+                 f"rig's field model explains {model_share:.0%} of it (plane waves "
+                 f"{plane_share:.0%}): its picture of a {lam_true * 1e3:.4g} mm wave measures "
+                 f"{lam_model * 1e3:.4g} mm, so the frames' wavelength is scaled by "
+                 f"{lam_true / lam_model:.4f}")
+    return out, (model if f == 1 else None)
+
+
 def analyse_frames(rig, frames_or_paths, phases_deg=None, *, plan=None, dark=None, flat=None,
-                   snr_threshold=SNR_MASK, lens=None) -> Analysis:
+                   snr_threshold=SNR_MASK, lens=None, pixel_m=None) -> Analysis:
     """Demodulate a phase-stepped stack and measure the wave against the plan.
 
     Parameters
@@ -536,9 +724,14 @@ def analyse_frames(rig, frames_or_paths, phases_deg=None, *, plan=None, dark=Non
     lens : (path or ndarray, focal_length_m), optional
         Schardin calibration: a frame of a lens of known focal length in the test region;
         its contrast slope replaces the geometry's sensitivity.
+    pixel_m : float, optional
+        The frames' pixel in the object plane [m]; default the plan's object pixel (camera
+        and lens), else the [view] width over the frames' width.
     """
     from .solve import build_schedule, solve
 
+    if pixel_m is not None and not (math.isfinite(pixel_m) and pixel_m > 0):
+        raise FrameError(f"--pixel-size: {pixel_m!r} m, expected a positive length")
     if plan is None:
         plan = solve(rig)
     notes: list[str] = []
@@ -593,7 +786,7 @@ def analyse_frames(rig, frames_or_paths, phases_deg=None, *, plan=None, dark=Non
     background = stack.coefficients[0]
     if flat_arr is not None:
         background = flat_arr - (dark_arr if dark_arr is not None else 0.0)
-    grid = _grid_for(rig, plan, shape, notes)
+    grid, scale_from = _grid_for(rig, plan, shape, notes, findings, pixel_m)
     signal_order = 2 if rod else 1
     if signal_order not in stack.orders:
         raise FrameError(f"{count} frames resolve harmonics up to "
@@ -652,7 +845,10 @@ def analyse_frames(rig, frames_or_paths, phases_deg=None, *, plan=None, dark=Non
         if rod:  # the second harmonic shows the wave at twice its spatial frequency
             k_u, k_v, k_sigma = k_u / 2, k_v / 2, k_sigma / 2
         k = math.hypot(k_u, k_v)
-        lam = 2 * math.pi / k
+        image, model_map = (None, None) if rod else _image_wavelength(
+            rig, plan, grid, z, zs, good, k_u, k_v, wave_kind, notes)
+        factor = image["factor"] if image is not None and image["applied"] else 1.0
+        lam = 2 * math.pi / k * factor
         lam_sigma = lam * k_sigma / k
         f = plan.timing.drive_frequency_hz
         speed = f * lam
@@ -676,10 +872,12 @@ def analyse_frames(rig, frames_or_paths, phases_deg=None, *, plan=None, dark=Non
             "air_temperature_uncertainty_k": speed_sigma / slope if slope else None,
             "planned_air_temperature_c": a.temperature - ZERO_CELSIUS,
             "pixels_used": int(good.sum()),
+            "image_wavelength_m": 2 * math.pi / k,
+            "wavelength_model": image,
         }
         view_block, calib, pressure, deflection = _at_view(
             rig, plan, grid, contrast, good, k_u, k_v, wave_kind, sens, sens_how, rod, phases,
-            notes, findings, lens, speed, stack, background)
+            notes, findings, lens, speed, stack, background, model_map)
     abel_map = None
     if pressure is not None and not rod and sens:
         abel = _abel(rig, plan, grid, contrast, good, summary_wave, sens, notes)
@@ -698,7 +896,8 @@ def analyse_frames(rig, frames_or_paths, phases_deg=None, *, plan=None, dark=Non
                    "dark": dark is not None, "flat": flat is not None,
                    "phases_from": phases_from,
                    "phases_deg": [float(x) for x in np.degrees(phases)]},
-        "grid": {"pixel_m": grid.pixel_m, "width_px": grid.nx, "height_px": grid.ny,
+        "grid": {"pixel_m": grid.pixel_m, "pixel_from": scale_from, "width_px": grid.nx,
+                 "height_px": grid.ny,
                  "centre_m": [float(x) for x in grid.centre],
                  "u": [float(x) for x in grid.u], "v": [float(x) for x in grid.v]},
         "demodulation": {"orders": list(stack.orders), "signal_order": signal_order,
@@ -830,8 +1029,10 @@ RADIUS_WAVELENGTHS = 0.3  # the two-wave fit's window around the view, in wavele
 
 
 def _at_view(rig, plan, grid, contrast, good, k_u, k_v, kind, sens, sens_how, rod, phases,
-             notes, findings, lens, speed, stack, background):
-    """Phase and pressure at the view from a two-wave fit of the contrast map around it."""
+             notes, findings, lens, speed, stack, background, model_map=None):
+    """Phase and pressure at the view: a two-wave fit of the contrast map around it, or,
+    when the map is curved and the field model drew it (``model_map``), the model's picture
+    fitted to the frames there (one complex factor: its phase is the wave's lag)."""
     from .stages.field import view_point
     from .stages.optics import gladstone_dale
 
@@ -899,6 +1100,23 @@ def _at_view(rig, plan, grid, contrast, good, k_u, k_v, kind, sens, sens_how, ro
                      f"pressure's by {math.degrees(projection):+.1f} deg in the field model "
                      "(a spreading beam seen through its depth): the comparison allows for it")
     delta = float(np.angle(p_rel * cmath.exp(-1j * projection)))
+    if model_map is not None and not rod:
+        # a curved pattern: the field model's own picture, fitted to the frames near the
+        # view, carries the projection, the spreading and the cutoff's response at once
+        m = model_map[rr, cc]
+        norm = float(np.sum(np.abs(m) ** 2))
+        if norm > 0 and zz.size >= 12:
+            c = complex(np.sum(np.conj(m) * zz) / norm)
+            resid = zz - c * m
+            var_c = float(np.sum(np.abs(resid) ** 2)) / (2.0 * max(zz.size - 1, 1))
+            if abs(c) > 0:
+                view_block["phase_difference_two_wave_deg"] = math.degrees(delta)
+                delta = float(np.angle(c))
+                d_sigma = math.sqrt(var_c / norm) / abs(c)
+                view_block["phase_model"] = (
+                    "the field model's line-of-sight picture (preview's engine) fitted to the "
+                    "frames within the window around the view: its complex factor's phase is "
+                    "the wave's lag (the map departs from plane waves, see wave.wavelength_model)")
     measured = planned + math.degrees(delta)
     change = -delta / omega  # the wave arrives later by this much than the plan says
     period = 1.0 / f

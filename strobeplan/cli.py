@@ -400,11 +400,15 @@ def preview(rig, outdir, frames, seed, noise):
                    "region (with --lens-focal-length).")
 @click.option("--lens-focal-length", default=None, metavar="LENGTH",
               help="Focal length of the --lens calibration lens, e.g. 2m.")
+@click.option("--pixel-size", default=None, metavar="LENGTH",
+              help="The frames' pixel in the object plane, e.g. 95um  [default: "
+                   "camera.object_pixel (or the lens layout's), else the [view] width over "
+                   "the frames' width]")
 @click.option("--json", "as_json", is_flag=True, help="Print analyse.json (and nothing else).")
 @click.option("--write-rig", "write_rig", type=click.Path(), default=None, metavar="FILE",
               help="Write a copy of the rig with the measured strobe.calibration_offset.")
-def analyse(rig, frames, outdir, phases, dark, flat, lens, lens_focal_length, as_json,
-            write_rig):
+def analyse(rig, frames, outdir, phases, dark, flat, lens, lens_focal_length, pixel_size,
+            as_json, write_rig):
     """Demodulate captured phase-stepped frames: amplitude and phase maps, the measured
     wavelength, speed of sound and air temperature, the phase and pressure at the view,
     and the calibration offset that makes the plan agree with the frames.
@@ -434,6 +438,9 @@ def analyse(rig, frames, outdir, phases, dark, flat, lens, lens_focal_length, as
     if focal is not None and not focal > 0:
         raise InputError(f"--lens-focal-length {lens_focal_length!r}: expected a positive "
                          "length")
+    pixel = _quantity(pixel_size, "length", "--pixel-size") if pixel_size else None
+    if pixel is not None and not (math.isfinite(pixel) and pixel > 0):
+        raise InputError(f"--pixel-size {pixel_size!r}: expected a positive length")
     _check_output(write_rig, rig)
     out = None
     if outdir is not None:
@@ -451,7 +458,8 @@ def analyse(rig, frames, outdir, phases, dark, flat, lens, lens_focal_length, as
         result = analyse_frames(model, list(frames),
                                 None if given is None else [math.degrees(x) for x in given],
                                 plan=plan, dark=dark, flat=flat,
-                                lens=None if lens is None else (lens, focal))
+                                lens=None if lens is None else (lens, focal),
+                                pixel_m=pixel)
         files = output_files(result) if out is not None else {}
         new_rig = None
         if write_rig is not None:

@@ -296,7 +296,7 @@ def reduced_grid(grid: ViewGrid, max_pixels: int) -> ViewGrid:
 
 
 def render_preview(rig, plan=None, *, frames=None, noise=True, seed=0, progress=None,
-                   max_pixels=None, max_seconds=MAX_WORK) -> Preview:
+                   max_pixels=None, max_seconds=MAX_WORK, grid=None, speed=None) -> Preview:
     """Draw the frames the camera will record over the planned sweep.
 
     Parameters
@@ -318,6 +318,10 @@ def render_preview(rig, plan=None, *, frames=None, noise=True, seed=0, progress=
         as the HTML report draws; each pixel keeps one camera pixel's light and noise).
     max_seconds : float
         Refuse (WorkloadError) a preview estimated to take longer. [s]
+    grid : ViewGrid, optional
+        The pixel grid to draw on (default the rig's view grid, :func:`view_grid`).
+    speed : float, optional
+        Speed of sound to draw the field at (default the plan's). [m/s]
 
     Returns
     -------
@@ -334,11 +338,11 @@ def render_preview(rig, plan=None, *, frames=None, noise=True, seed=0, progress=
     if plan.timing is None or plan.air is None:
         raise PreviewError("preview: the plan has no timing; check the rig with "
                            "'strobeplan check' first")
-    grid = view_grid(rig, plan)
+    grid = view_grid(rig, plan) if grid is None else grid
     if max_pixels is not None:
         grid = reduced_grid(grid, max_pixels)
     f = float(rig.wave.frequency)
-    speed = float(plan.air.speed_of_sound_m_s)
+    speed = float(plan.air.speed_of_sound_m_s if speed is None else speed)
     lam = speed / f
     img = plan.image
     double = img is not None and img.layout == "double-pass"

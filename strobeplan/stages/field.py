@@ -61,10 +61,15 @@ class _LightPath:
 
 
 def view_point(rig) -> np.ndarray:
-    """The point where strobe.phase is defined. [m]"""
+    """The point where strobe.phase is defined: [view].point, else the first emitter's
+    distance_to_view along its axis, else [view].centre, else the origin (a rig of a wave
+    alone). [m]"""
     if rig.view is not None and rig.view.point is not None:
         return np.array(rig.view.point, dtype=float)
     em = rig.emitter
+    if em is None or em.distance_to_view is None:
+        centre = rig.view.centre if rig.view is not None else None
+        return np.array(centre if centre is not None else (0.0, 0.0, 0.0), dtype=float)
     axis = np.asarray(em.axis, dtype=float)
     return np.asarray(em.position, dtype=float) + em.distance_to_view * axis / np.linalg.norm(
         axis)
