@@ -53,14 +53,27 @@ def _adapter(option: str):
     return _ADAPTERS[option]
 
 
-def option_kind(option: str) -> str:
-    """The quantity kind of an option (e.g. ``'ratio'`` for ``--tolerance``)."""
-    from . import rigmodels
+def _declared(option: str):
+    """The declared value (:mod:`strobeplan.rigspec` node) an option is validated as."""
+    from . import rig
 
     spec = OPTIONS[option]
     if isinstance(spec, tuple):
+        kind, constraints = spec
+        return rig.Q(kind, **constraints)
+    section = rig.Rig
+    *tables, key = spec.split(".")
+    for table in tables:
+        section = section.rig_keys[table].node.section
+    return section.rig_keys[key].node
+
+
+def option_kind(option: str) -> str | None:
+    """The quantity kind of an option (e.g. ``'ratio'`` for ``--tolerance``)."""
+    spec = OPTIONS[option]
+    if isinstance(spec, tuple):
         return spec[0]
-    return rigmodels._field_kind(tuple(spec.split(".")))
+    return _declared(option).kind
 
 
 def option_value(option: str, text: str) -> float:
@@ -73,9 +86,8 @@ def option_value(option: str, text: str) -> float:
     RigError
         ``--tolerance = '-1%': expected a value greater than 0 % (as trigger_link.tolerance)``
     """
-    from pydantic import ValidationError
-
-    from . import rigmodels, units
+    from . import units
+    from .rigspec import Defer
 
     kind = option_kind(option)
     value: Any = text
@@ -93,6 +105,16 @@ def option_value(option: str, text: str) -> float:
                 value = text.strip() + "ohm"
             except units.UnitError:
                 pass
+    try:  # the fast path: the declared parser and limits, without pydantic
+        return float(_declared(option).fast(value))
+    except Defer:
+        pass
+    except Exception:  # noqa: BLE001 - pydantic below decides and words the error
+        pass
+    from pydantic import ValidationError
+
+    from . import rigmodels
+
     try:
         result = _adapter(option).validate_python(value)
     except ValidationError as exc:

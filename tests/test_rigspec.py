@@ -325,3 +325,49 @@ def test_a_bad_rig_still_gets_pydantics_message():
     raw["wave"]["frequncy"] = raw["wave"].pop("frequency")
     with pytest.raises(RigError, match="did you mean 'frequency'"):
         rig.rig_from_dict(raw)
+
+
+# --- command-line options share the declared limits ----------------------------------------
+
+OPTION_TEXTS = st.one_of(
+    st.sampled_from(["1 %", "-1%", "0 %", "49 %", "50 %", "0.2", "10 pF", "0 F", "1k", "470",
+                     "2.2 kohm", "-5 ohm", "1 us", "2 s", "0 s", "90 %", "1", "5 K", "-1 K",
+                     "300 K", "2", "0", "1001", "12 V", "nan", "inf", "", "abc", "3 furlongs",
+                     "1e-30 s", "5 degC"]),
+    st.builds(lambda x, u: f"{x:g}{u}", st.floats(-10, 1e4, allow_nan=False),
+              st.sampled_from(["", " %", " ohm", "k", " V", " us", " K", " pF", " s"])),
+)
+
+
+def _option_outcome(option, text):
+    from strobeplan import limits
+
+    try:
+        return repr(limits.option_value(option, text))
+    except RigError as exc:
+        return f"error: {exc}"
+
+
+@settings(max_examples=200, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(option=st.sampled_from(["--tolerance", "--capacitance", "--check TOP", "--edge-limit",
+                               "--min-retention", "--min-margin", "--max-blur",
+                               "--resistor-range", "--supply-range"]),
+       text=OPTION_TEXTS)
+def test_option_values_fast_path_equals_pydantic(option, text):
+    from strobeplan import limits
+
+    class Unsure:  # the declared value, but its fast path always defers
+        def __init__(self, node):
+            self.kind = node.kind
+
+        def fast(self, value):
+            raise rigspec.Defer
+
+    fast = _option_outcome(option, text)
+    real = limits._declared
+    limits._declared = lambda option: Unsure(real(option))
+    try:
+        slow = _option_outcome(option, text)
+    finally:
+        limits._declared = real
+    assert fast == slow
