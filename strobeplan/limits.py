@@ -3,7 +3,8 @@ stand for.
 
 Each option names the rig key whose limits it shares (``--tolerance`` is
 ``trigger_link.tolerance``: more than 0 and less than 50 %), or, when no rig key exists,
-its own quantity type built the same way (:func:`strobeplan.rig.Q`). :func:`option_value`
+its own quantity type built the same way (:func:`strobeplan.rig.Q`, as a pydantic annotation
+by :func:`strobeplan.rigmodels.annotation`). :func:`option_value`
 parses and checks an option's text through that one definition and raises
 :class:`~strobeplan.errors.RigError` naming the option, the value and what was expected.
 """
@@ -34,17 +35,17 @@ _ADAPTERS: dict[str, Any] = {}
 def _adapter(option: str):
     from pydantic import TypeAdapter
 
-    from . import rig
+    from . import rig, rigmodels
 
     if option in _ADAPTERS:
         return _ADAPTERS[option]
     spec = OPTIONS[option]
     if isinstance(spec, tuple):
         kind, constraints = spec
-        annotation = rig.Q(kind, **constraints)
+        annotation = rigmodels.annotation(rig.Q(kind, **constraints))
     else:
         parts = spec.split(".")
-        model = rig._model_at(tuple(parts[:-1]))
+        model = rigmodels._model_at(tuple(parts[:-1]))
         field = model.model_fields[parts[-1]]
         annotation = Annotated[(field.annotation, *field.metadata)] if field.metadata \
             else field.annotation
@@ -52,14 +53,27 @@ def _adapter(option: str):
     return _ADAPTERS[option]
 
 
-def option_kind(option: str) -> str:
-    """The quantity kind of an option (e.g. ``'ratio'`` for ``--tolerance``)."""
+def _declared(option: str):
+    """The declared value (:mod:`strobeplan.rigspec` node) an option is validated as."""
     from . import rig
 
     spec = OPTIONS[option]
     if isinstance(spec, tuple):
+        kind, constraints = spec
+        return rig.Q(kind, **constraints)
+    section = rig.Rig
+    *tables, key = spec.split(".")
+    for table in tables:
+        section = section.rig_keys[table].node.section
+    return section.rig_keys[key].node
+
+
+def option_kind(option: str) -> str | None:
+    """The quantity kind of an option (e.g. ``'ratio'`` for ``--tolerance``)."""
+    spec = OPTIONS[option]
+    if isinstance(spec, tuple):
         return spec[0]
-    return rig._field_kind(tuple(spec.split(".")))
+    return _declared(option).kind
 
 
 def option_value(option: str, text: str) -> float:
@@ -72,9 +86,8 @@ def option_value(option: str, text: str) -> float:
     RigError
         ``--tolerance = '-1%': expected a value greater than 0 % (as trigger_link.tolerance)``
     """
-    from pydantic import ValidationError
-
-    from . import rig, units
+    from . import units
+    from .rigspec import Defer
 
     kind = option_kind(option)
     value: Any = text
@@ -92,13 +105,23 @@ def option_value(option: str, text: str) -> float:
                 value = text.strip() + "ohm"
             except units.UnitError:
                 pass
+    try:  # the fast path: the declared parser and limits, without pydantic
+        return float(_declared(option).fast(value))
+    except Defer:
+        pass
+    except Exception:  # noqa: BLE001 - pydantic below decides and words the error
+        pass
+    from pydantic import ValidationError
+
+    from . import rigmodels
+
     try:
         result = _adapter(option).validate_python(value)
     except ValidationError as exc:
         spec = OPTIONS[option]
         path = spec if isinstance(spec, str) else ""
-        err = rig._validation_error(exc, {}, prefix=tuple(path.split(".")) if path else (),
-                               kind=kind)
+        err = rigmodels._validation_error(exc, {}, prefix=tuple(path.split(".")) if path else (),
+                                     kind=kind)
         same = f" (as the rig key {path})" if path else ""
         raise RigError(option, text, f"{err.expected}{same}") from None
     if result is None:

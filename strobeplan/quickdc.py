@@ -38,8 +38,13 @@ def _process(cls, frozen: bool):
     own = {k for k in ("__init__", "__repr__", "__eq__") if k in cls.__dict__}
     if own:
         raise TypeError(f"{cls.__name__} defines {sorted(own)}: use dataclasses.dataclass")
+    undocumented = not cls.__dict__.get("__doc__")
+    if undocumented:  # the standard's default docstring costs inspect.signature (~1.5 ms)
+        cls.__doc__ = cls.__name__
     cls = dataclasses.dataclass(init=False, repr=False, eq=False)(cls)
     flds = dataclasses.fields(cls)
+    if undocumented:  # the class and its arguments, as the standard writes it (no types)
+        cls.__doc__ = f"{cls.__name__}({', '.join(f.name for f in flds if f.init)})"
     init = [f for f in flds if f.init]
     late = [f for f in flds if not f.init]
     names = tuple(f.name for f in init)

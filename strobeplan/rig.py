@@ -1,4 +1,4 @@
-"""The rig file (a contract, docs/rig-format.md): pydantic models holding SI floats.
+"""The rig file (a contract, docs/rig-format.md): its sections, declared once, holding SI floats.
 
 A rig file is TOML; every dimensioned value is a string with its unit ("40 kHz", "1.5 us",
 "2.2 kohm", "23 degC", "45 %"); plain numbers only for counts and ratios. Unknown keys are
@@ -10,19 +10,25 @@ Defaults (documented in README and docs/rig-format.md): air 20 degC, 50 % RH, 10
 400 ppm CO2; strobe phase 0 deg, every 1, min_retention 90 %; led ambient 25 degC,
 efficiency 0 (conservative: all electrical power heats the junction), no phosphor; camera
 global shutter, 8 bit; trigger link E24 with the series' own tolerance.
+
+The sections are :class:`strobeplan.rigspec.Section` classes: pydantic is not imported to
+check a valid rig. :func:`rig_from_dict` validates with the fast path
+(:func:`strobeplan.rigspec.fast_validate`, the same parsers, limits, defaults and
+validators); anything it is not sure of goes to the pydantic models that
+:mod:`strobeplan.rigmodels` builds from these same declarations, which accept or give the
+error message. Either way the result is made of these sections.
 """
 
 
 import math
 import tomllib
 from pathlib import Path
-from typing import Annotated, Any, Literal
-
-from pydantic import BaseModel, BeforeValidator, ConfigDict, Field, ValidationError, model_validator
+from typing import Any, Literal
 
 from . import units
 from .errors import MISSING, RigError
 from .io import MAX_RIG_BYTES
+from .rigspec import Defer, Field, OneOrMany, Section, Value, fast_validate
 from .safetext import shorten
 
 __all__ = ["Rig", "load_rig", "loads_rig", "rig_from_dict", "E_SERIES_NAMES"]
@@ -43,13 +49,11 @@ def _parser(kind: str):
 
 
 def Q(kind: str, **constraints):  # noqa: N802 - a type factory reads like a type
-    """``Annotated[float, ...]`` for a quantity of ``kind`` with pydantic constraints."""
-    return Annotated[
-        float,
-        BeforeValidator(_parser(kind)),
-        Field(json_schema_extra={"kind": kind, "example": units.kind_example(kind)},
-              **constraints),
-    ]
+    """A quantity of ``kind`` (a float in SI units) with constraints (``gt``, ``ge``, ``lt``,
+    ``le``) and an optional ``description``."""
+    return Value(_parser(kind), "float",
+                 {"json_schema_extra": {"kind": kind, "example": units.kind_example(kind)},
+                  **constraints})
 
 
 def _strict_int(value):
@@ -59,7 +63,8 @@ def _strict_int(value):
 
 
 def Count(**constraints):  # noqa: N802
-    return Annotated[int, BeforeValidator(_strict_int), Field(**constraints)]
+    """A whole number (never a boolean or a float) with constraints."""
+    return Value(_strict_int, "int", constraints)
 
 
 def _plain_number(value):
@@ -72,7 +77,8 @@ def _plain_number(value):
 
 
 def Number(**constraints):  # noqa: N802
-    return Annotated[float, BeforeValidator(_plain_number), Field(**constraints)]
+    """A plain number (a ratio: no unit) with constraints."""
+    return Value(_plain_number, "float", constraints)
 
 
 def _vector(value, kind):
@@ -98,11 +104,11 @@ def _direction(value):
     return out
 
 
-Point = Annotated[tuple[float, float, float], BeforeValidator(_point),
-                  Field(json_schema_extra={"text": "point: 3 lengths (e.g. [\"0 mm\", "
-                                                   "\"0 mm\", \"30 mm\"])"})]
-Direction = Annotated[tuple[float, float, float], BeforeValidator(_direction),
-                      Field(json_schema_extra={"text": "direction: 3 numbers (e.g. [0, 0, 1])"})]
+Point = Value(_point, "tuple3", {"json_schema_extra": {"text": "point: 3 lengths (e.g. "
+                                                             "[\"0 mm\", \"0 mm\", "
+                                                             "\"30 mm\"])"}})
+Direction = Value(_direction, "tuple3",
+                  {"json_schema_extra": {"text": "direction: 3 numbers (e.g. [0, 0, 1])"}})
 
 
 def _temperature_range(value):
@@ -137,12 +143,8 @@ def _time_field(value):
     return out
 
 
-def _as_list(value):
-    return [value] if isinstance(value, dict) else value
-
-
-class _Model(BaseModel):
-    model_config = ConfigDict(extra="forbid", frozen=True, defer_build=True)
+class _Model(Section):
+    __slots__ = ()
 
 
 # --- sections -----------------------------------------------------------------------------
@@ -157,11 +159,10 @@ class Wave(_Model):
 
 class Air(_Model):
     temperature: Q("temperature", gt=223.15, lt=353.15) = 293.15
-    temperature_range: Annotated[tuple[float, float], BeforeValidator(_temperature_range),
-                                 Field(json_schema_extra={"text": "2 temperatures"},
-                                       description="Lowest and highest air temperature "
-                                       "expected during a session, e.g. ['18 degC', '28 degC'] "
-                                       "(how far it moves the frozen phase).")] | None = None
+    temperature_range: Value(_temperature_range, "tuple2", {
+        "json_schema_extra": {"text": "2 temperatures"},
+        "description": "Lowest and highest air temperature expected during a session, e.g. "
+        "['18 degC', '28 degC'] (how far it moves the frozen phase)."}) | None = None
     relative_humidity: Q("ratio", ge=0, le=1) = 0.5
     pressure: Q("pressure", gt=50e3, lt=120e3) = 101325.0
     co2: Q("ppm", ge=0, le=0.01) = 4.0e-4
@@ -256,11 +257,11 @@ class Strobe(_Model):
     pulse_width: Q("time", gt=0, description="Gate-on time of one flash.")
     phase: Q("angle", ge=-2 * math.pi, le=2 * math.pi) = 0.0
     every: Count(ge=1, le=1_000_000) = 1
-    calibration_offset: Annotated[float, BeforeValidator(_time_field), Field(
+    calibration_offset: Value(_time_field, "float", dict(
         ge=-1.0, le=1.0,
         json_schema_extra={"text": "time or angle (e.g. \"200 ns\" or \"12 deg\")"},
         description="Measured offset added to the chain delay: a time ('200 ns') or an "
-        "angle of the wave ('12 deg', positive = the wave arrives later); default 0 s.")] = 0.0
+        "angle of the wave ('12 deg', positive = the wave arrives later); default 0 s.")) = 0.0
     min_retention: Q("ratio", gt=0, lt=1) = 0.9
     continuous: bool = False
 
@@ -448,7 +449,7 @@ class Rig(_Model):
     description: str = ""
     wave: Wave
     air: Air = Air()
-    emitters: Annotated[list[Emitter], BeforeValidator(_as_list)] | None = Field(
+    emitters: OneOrMany(Emitter) | None = Field(
         default=None, alias="emitter", min_length=1, max_length=64,
         description="One [emitter] table, or several [[emitter]] tables (an array); the "
         "first is the phase reference.")
@@ -474,46 +475,41 @@ class Rig(_Model):
     def reflectors(self) -> list[Reflector]:
         return list(self.reflector or [])
 
-    @model_validator(mode="before")
-    @classmethod
-    def _calibration_angle(cls, raw):
-        """An angle in strobe.calibration_offset becomes a time at the wave frequency."""
-        strobe = raw.get("strobe") if isinstance(raw, dict) else None
-        wave = raw.get("wave") if isinstance(raw, dict) else None
-        if not isinstance(strobe, dict) or "calibration_offset" not in strobe:
-            return raw
-        try:
-            tag, value = _time_or_angle(strobe["calibration_offset"])
-        except ValueError:
-            return raw
-        if tag == "angle":
-            try:
-                f = units.parse(wave["frequency"], "frequency")
-            except (units.UnitError, KeyError, TypeError):
-                return raw
-            if not (math.isfinite(f) and f > 0):
-                return raw
-            seconds = value / (2 * math.pi * f)
-            raw = {**raw, "strobe": {**strobe, "calibration_offset": f"{seconds!r} s"}}
+
+# The rig-level validators, shared by the fast path and the pydantic models (in this order):
+# before the fields are validated, then after.
+
+
+def _calibration_angle(raw):
+    """An angle in strobe.calibration_offset becomes a time at the wave frequency."""
+    strobe = raw.get("strobe") if isinstance(raw, dict) else None
+    wave = raw.get("wave") if isinstance(raw, dict) else None
+    if not isinstance(strobe, dict) or "calibration_offset" not in strobe:
         return raw
+    try:
+        tag, value = _time_or_angle(strobe["calibration_offset"])
+    except ValueError:
+        return raw
+    if tag == "angle":
+        try:
+            f = units.parse(wave["frequency"], "frequency")
+        except (units.UnitError, KeyError, TypeError):
+            return raw
+        if not (math.isfinite(f) and f > 0):
+            return raw
+        seconds = value / (2 * math.pi * f)
+        raw = {**raw, "strobe": {**strobe, "calibration_offset": f"{seconds!r} s"}}
+    return raw
 
-    @model_validator(mode="after")
-    def _view_distance(self):
-        """The first emitter's distance_to_view from [view].point when only that is given."""
-        em, view = self.emitter, self.view
-        if em is not None and em.distance_to_view is None and view is not None \
-                and view.point is not None:
-            d = math.dist(em.position, view.point)
-            if d > 0:
-                object.__setattr__(em, "distance_to_view", d)
-        return self
 
-    @model_validator(mode="after")
-    def _derived(self):
-        """Fill cutoff_distance, cutoff_opening and camera.object_pixel from the layout when
-        they are not given (given values stay: they override the layout)."""
-        _derive_layout(self)
-        return self
+def _view_distance(rig: "Rig") -> None:
+    """The first emitter's distance_to_view from [view].point when only that is given."""
+    em, view = rig.emitter, rig.view
+    if em is not None and em.distance_to_view is None and view is not None \
+            and view.point is not None:
+        d = math.dist(em.position, view.point)
+        if d > 0:
+            object.__setattr__(em, "distance_to_view", d)
 
 
 def _derive_layout(rig: "Rig") -> None:
@@ -551,6 +547,10 @@ def _source_height(rig) -> float | None:
     slit = opt.source.height if opt is not None and opt.source is not None else None
     given = [v for v in (slit, die) if v is not None]
     return min(given) if given else None
+
+
+Rig.before_validators = (_calibration_angle,)
+Rig.after_validators = (_view_distance, _derive_layout)
 
 
 # --- loading ------------------------------------------------------------------------------
@@ -599,13 +599,17 @@ def loads_rig(data: bytes | str, where: str = "<rig>") -> Rig:
 
 
 def rig_from_dict(raw: dict[str, Any]) -> Rig:
-    """Validate a parsed rig dictionary (TOML tables as dicts)."""
+    """Validate a parsed rig dictionary (TOML tables as dicts).
+
+    The fast path (no pydantic) accepts what it is sure of; anything else goes to the
+    pydantic models (:mod:`strobeplan.rigmodels`), which accept it or raise the RigError.
+    """
     try:
-        rig = Rig.model_validate(raw)
-    except ValidationError as exc:
-        raise _validation_error(exc, raw) from None
-    except RecursionError:
-        raise RigError("", None, "the rig nests arrays or tables too deeply") from None
+        rig = fast_validate(Rig, raw)
+    except Defer:
+        from .rigmodels import validate
+
+        rig = validate(raw)
     cross_check(rig, raw)
     return rig
 
@@ -618,166 +622,6 @@ def _lookup(raw, loc):
         except (KeyError, IndexError, TypeError):
             return MISSING
     return node
-
-
-def _field_named(model, key):
-    """A model's field by its key in the rig file (its alias, if it has one)."""
-    fields = getattr(model, "model_fields", {})
-    if key in fields and fields[key].alias in (None, key):
-        return fields[key]
-    return next((f for f in fields.values() if f.alias == key), None)
-
-
-def _keys(model) -> list[str]:
-    return [f.alias or name for name, f in model.model_fields.items()]
-
-
-def _model_at(loc) -> type[BaseModel] | None:
-    model: Any = Rig
-    for part in loc:
-        if isinstance(part, int):
-            continue
-        field = _field_named(model, part)
-        if field is None:
-            return None
-        model = _inner_model(field.annotation)
-        if model is None:
-            return None
-    return model
-
-
-def _inner_model(annotation):
-    import typing
-
-    if isinstance(annotation, type) and issubclass(annotation, BaseModel):
-        return annotation
-    for arg in typing.get_args(annotation):
-        found = _inner_model(arg)
-        if found is not None:
-            return found
-    return None
-
-
-def _field_kind(loc) -> str | None:
-    model = _model_at(loc[:-1])
-    if model is None:
-        return None
-    field = _field_named(model, loc[-1]) if isinstance(loc[-1], str) else None
-    if field is None:
-        return None
-    extra = field.json_schema_extra
-    if isinstance(extra, dict) and "kind" in extra:
-        return extra["kind"]
-    return _kind_in(field.annotation)
-
-
-def _kind_in(annotation):
-    import typing
-
-    for meta in getattr(annotation, "__metadata__", ()):
-        extra = getattr(meta, "json_schema_extra", None)
-        if isinstance(extra, dict) and "kind" in extra:
-            return extra["kind"]
-    for arg in typing.get_args(annotation):
-        found = _kind_in(arg)
-        if found:
-            return found
-    return None
-
-
-def _path(loc) -> str:
-    out = ""
-    for part in loc:
-        if isinstance(part, int):
-            out += f"[{part}]"
-        else:
-            out += ("." if out else "") + shorten(str(part), 60)
-    return out
-
-
-def _validation_error(exc: ValidationError, raw, prefix: tuple = (),
-                      kind: str | None = None) -> RigError:
-    """All of pydantic's problems as one RigError line: the first in full, then every other.
-
-    The first problem gives the error its key path and value; the others follow on the same
-    line, each as ``; also PATH = VALUE: EXPECTED``, so nothing is hidden behind a count.
-    """
-    errors = exc.errors(include_url=False)
-    # Prefer the most informative error: drop union-branch noise about None.
-    errors = [e for e in errors if e["type"] != "none_required"] or errors
-    # An unknown key usually explains a "missing" one (a typo): report it first.
-    errors.sort(key=lambda e: e["type"] != "extra_forbidden")
-    problems: list[RigError] = []
-    seen: set[str] = set()
-    guessed: set[str] = set()
-    for err in errors:
-        problem, guess = _one_error(err, raw, prefix, kind)
-        if problem.path in seen or (err["type"] == "missing" and problem.path in guessed):
-            continue  # one problem per key; a missing key a typo's "did you mean" names
-        seen.add(problem.path)
-        if guess is not None:
-            guessed.add(guess)
-        problems.append(problem)
-    first = problems[0]
-    also = "".join(f"; also {p}" for p in problems[1:])
-    return RigError(first.path, first.value, first.expected + also)
-
-
-def _one_error(err, raw, prefix: tuple = (), kind: str | None = None
-               ) -> tuple[RigError, str | None]:
-    """One pydantic error as a RigError, and the key path a "did you mean" proposes."""
-    loc = tuple(p for p in err["loc"] if not (isinstance(p, str) and p.startswith("function-")))
-    loc = prefix + tuple(p for p in loc if p not in ("float", "int", "str", "bool", "list"))
-    if len(loc) > 1 and loc[0] == "emitter" and loc[1] == 0 and isinstance(
-            raw.get("emitter"), dict):
-        loc = ("emitter",) + loc[2:]  # a single [emitter] table has no index
-    path = _path(loc)
-    value = _lookup(raw, loc)
-    kind = kind or (_field_kind(loc) if loc else None)
-    etype = err["type"]
-    if etype == "extra_forbidden":
-        model = _model_at(loc[:-1])
-        names = _keys(model) if model else []
-        import difflib  # only for a message (6 ms of every check otherwise)
-
-        guess = difflib.get_close_matches(str(loc[-1]), names, n=1, cutoff=0.5) \
-            if len(str(loc[-1])) <= 100 else []
-        hint = f"; did you mean '{guess[0]}'?" if guess else ""
-        where = _path(loc[:-1]) or "the top level"
-        known = ", ".join(names)
-        proposed = _path((*loc[:-1], guess[0])) if guess else None
-        return RigError(path, value, f"unknown key in {where}{hint} (known: {known})"), proposed
-    if etype == "missing":
-        what = f"a {kind.replace('_', ' ')} like '{units.kind_example(kind)}'" if kind \
-            else "a value"
-        return RigError(path, MISSING, f"required key is missing: expected {what}"), None
-    msg = err["msg"]
-    if msg.startswith("Value error, "):
-        msg = msg[len("Value error, "):]
-    ctx = err.get("ctx") or {}
-    unit = units.KINDS[kind].display if kind else ""
-    for key, word in (("gt", "greater than"), ("ge", "at least"), ("lt", "less than"),
-                      ("le", "at most")):
-        if etype in ("greater_than", "greater_than_equal", "less_than", "less_than_equal") \
-                and key in ctx:
-            limit = ctx[key]
-            shown = units.render(float(limit), kind) if kind else str(limit)
-            if kind and float(limit) == 0:
-                shown = f"0 {unit}".strip()
-            msg = f"expected a value {word} {shown}"
-            break
-    if etype in ("too_short", "too_long"):
-        msg = msg.replace("List should", "expected a list that has").replace(
-            "Value should", "expected a list that should")
-    if etype == "literal_error":
-        msg = msg.replace("Input should be", "expected")
-    if etype in ("dict_type", "model_type"):
-        msg = "expected a table (a [section] or { ... })"
-    if etype == "list_type":
-        msg = "expected a list [ ... ]"
-    if etype in ("string_type", "bool_type", "bool_parsing"):
-        msg = msg.replace("Input should be", "expected")
-    return RigError(path, value, msg), None
 
 
 def _unit3(v):

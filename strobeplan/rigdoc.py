@@ -1,5 +1,8 @@
 """docs/rig-format.md, generated from the rig models: ``python -m strobeplan.rigdoc``.
 
+It reads the pydantic models that :mod:`strobeplan.rigmodels` builds from the declarations
+in :mod:`strobeplan.rig`.
+
 Every key with its kind (and an example with its unit), whether it is required, its default
 and its limits, so the documentation cannot drift from the schema (a test compares them).
 """
@@ -10,8 +13,8 @@ import typing
 
 from pydantic import BaseModel
 
-from . import units
-from .rig import Rig, _inner_model, _kind_in
+from . import rig, units
+from .rigmodels import _inner_model, _kind_in, model_of
 
 _HEADER = """# Rig file format
 
@@ -355,7 +358,7 @@ def rig_markdown() -> str:
     from .timers import profile_table
 
     out = [_HEADER]
-    _walk(Rig, "", out)
+    _walk(model_of(rig.Rig), "", out)
     out += ["## Timer profiles (`controller.timer.profile`)", "",
             "Named by their properties; each stands for a common class of general-purpose "
             "microcontroller timers. Keys given beside `profile` override its values.", "",
