@@ -46,6 +46,7 @@ import numpy as np
 from .errors import StrobeplanError
 from .physics import acoustics, demod
 from .physics.air import ZERO_CELSIUS
+from .plan import PictureRule
 from .safetext import clean
 
 IMAGE_SUFFIXES = (".png", ".tif", ".tiff")
@@ -352,8 +353,37 @@ class Analysis:
         return (self.summary.get("calibration") or {}).get("offset_s")
 
 
-def _finding(code, severity, message):
-    return {"code": code, "severity": severity, "message": message}
+ANALYSE_RULES = (
+    PictureRule("analyse.clipped", "warning",
+                "Pixels reach the top grey level in some frame (they are left out of the fit)",
+                "less light or exposure, or a lower camera gain"),
+    PictureRule("analyse.aliasing", "warning",
+                "The frames are too few for the harmonics the cutoff produces: N phase steps "
+                "resolve orders up to (N - 1) / 2 only, and higher ones alias onto the first",
+                "take at least the recommended number of steps (image.min_phase_steps; "
+                "`schedule` prints it)"),
+    PictureRule("analyse.no_wave", "warning",
+                "Too few pixels pass the signal-to-noise threshold: no wave is measured",
+                "more light or a more sensitive cutoff, more frames, or averaging"),
+    PictureRule("analyse.along_knife", "warning",
+                "The wave travels along the knife edge (the picture's horizontal): the cutoff "
+                "barely sees it, so its phase and pressure at the view are not measured",
+                "turn the knife edge across the wave"),
+    PictureRule("analyse.calibration", "note",
+                "The wave at the view is more than 2 deg from the plan",
+                "set strobe.calibration_offset to the measured value (`analyse --write-rig "
+                "FILE` writes it)"),
+    PictureRule("analyse.scale_unknown", "warning",
+                "The frames' scale is unknown (no camera object pixel, no [view] size, no "
+                "--pixel-size): the wavelength and speed of sound rest on a guess",
+                "give --pixel-size, camera.object_pixel, or the [view] width the frames show"),
+)
+_RULES = {r.code: r for r in ANALYSE_RULES}
+
+
+def _finding(code, message):
+    """A finding of ``code`` (severity from ANALYSE_RULES) with this run's message."""
+    return {"code": code, "severity": _RULES[code].severity, "message": message}
 
 
 def _grid_for(rig, plan, shape, notes, findings, pixel_m=None):
@@ -388,7 +418,7 @@ def _grid_for(rig, plan, shape, notes, findings, pixel_m=None):
     else:
         pixel, source = grid.pixel_m, "a guess (the plan's default grid)"
         findings.append(_finding(
-            "analyse.scale_unknown", "warning",
+            "analyse.scale_unknown",
             f"the frames' scale is unknown: each pixel is taken as {pixel * 1e6:.4g} um, so "
             "the wavelength and speed of sound are only as good as that guess; give "
             "--pixel-size, camera.object_pixel, or the [view] width the frames show"))
@@ -799,7 +829,7 @@ def analyse_frames(rig, frames_or_paths, phases_deg=None, *, plan=None, dark=Non
     good = (snr >= snr_threshold) & ~stack.clipped & (background > 0) & np.isfinite(contrast)
     clipped_frac = float(stack.clipped.mean())
     if clipped_frac > 1e-3:
-        findings.append(_finding("analyse.clipped", "warning",
+        findings.append(_finding("analyse.clipped",
                                  f"{clipped_frac:.1%} of the pixels reach the top grey level in "
                                  "some frame: they are left out (less light or exposure)"))
 
@@ -811,7 +841,7 @@ def analyse_frames(rig, frames_or_paths, phases_deg=None, *, plan=None, dark=Non
              "min_steps_for_cutoff": None if need is None else int(need),
              "aliased_orders": []}
     if need is not None and n < need:
-        findings.append(_finding("analyse.aliasing", "warning",
+        findings.append(_finding("analyse.aliasing",
                                  f"{n} frames resolve harmonics up to "
                                  f"{demod.max_resolved_order(n)}; the plan's cutoff response "
                                  f"carries harmonics up to order {img.harmonic_order} and needs "
@@ -826,7 +856,7 @@ def analyse_frames(rig, frames_or_paths, phases_deg=None, *, plan=None, dark=Non
     pressure = None
     deflection = None
     if wave is None:
-        findings.append(_finding("analyse.no_wave", "warning",
+        findings.append(_finding("analyse.no_wave",
                                  f"fewer than 50 pixels have a signal-to-noise ratio of "
                                  f"{snr_threshold:g} or more: no wave measured"))
     else:
@@ -838,7 +868,7 @@ def analyse_frames(rig, frames_or_paths, phases_deg=None, *, plan=None, dark=Non
         if hits:
             alias["aliased_orders"] = [m for m, _ in hits]
             desc = ", ".join(f"order {m} at {r:.0%} of the wave's peak" for m, r in hits)
-            findings.append(_finding("analyse.aliasing", "warning",
+            findings.append(_finding("analyse.aliasing",
                                      f"{n} frames: harmonics alias onto the first harmonic's map "
                                      f"({desc}); take at least "
                                      f"{demod.min_steps(max(m for m, _ in hits))} frames"))
@@ -1061,7 +1091,7 @@ def _at_view(rig, plan, grid, contrast, good, k_u, k_v, kind, sens, sens_how, ro
                   "inside_frames": bool(inside), "pixels_fitted": int(zz.size),
                   "planned_phase_deg": planned}
     if abs(k_v) < 0.1 * k:
-        findings.append(_finding("analyse.along_knife", "warning",
+        findings.append(_finding("analyse.along_knife",
                                  "the wave travels along the knife edge (the picture's "
                                  "horizontal): the cutoff barely sees it, so its phase and "
                                  "pressure at the view are not measured; turn the knife edge"))
@@ -1135,7 +1165,7 @@ def _at_view(rig, plan, grid, contrast, good, k_u, k_v, kind, sens, sens_how, ro
                         "agree with the frames (positive: the wave arrives later)"}
     if abs(math.degrees(delta)) > 2.0:
         findings.append(_finding(
-            "analyse.calibration", "note",
+            "analyse.calibration",
             f"the wave at the view is {math.degrees(delta):+.1f} deg from the plan "
             f"(+- {math.degrees(d_sigma):.1f}); set strobe.calibration_offset = "
             f"\"{new * 1e9:.4g} ns\" (analyse --write-rig FILE writes it)"))

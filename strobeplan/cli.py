@@ -359,11 +359,12 @@ def preview(rig, outdir, frames, seed, noise):
     """Draw the frames the camera will record over the sweep (synthetic schlieren)."""
     import time
 
-    from .preview import prepare_dir, render_preview, write_preview
+    from .io import output_dir
+    from .preview import render_preview, write_preview
     from .safetext import clean
 
     with user_errors():
-        prepare_dir(outdir, rig)
+        output_dir(outdir, rig, names=("preview.json",), what="the preview's files")
     plan, _ = _solve_with_text(rig)
     bar = _LazyBar(time.perf_counter(), "preview")
     try:
@@ -417,7 +418,6 @@ def analyse(rig, frames, outdir, phases, dark, flat, lens, lens_focal_length, pi
     multi-page TIFFs), in schedule order.
     """
     import math
-    from pathlib import Path
 
     from .analyse import (
         analyse_frames,
@@ -427,7 +427,7 @@ def analyse(rig, frames, outdir, phases, dark, flat, lens, lens_focal_length, pi
         summary_json,
         summary_text,
     )
-    from .io import check_target, read_rig_bytes, write_atomic
+    from .io import output_dir, read_rig_bytes, write_atomic
     from .rig import loads_rig
     from .solve import solve
 
@@ -444,11 +444,8 @@ def analyse(rig, frames, outdir, phases, dark, flat, lens, lens_focal_length, pi
     _check_output(write_rig, rig)
     out = None
     if outdir is not None:
-        out = Path(outdir)
-        if out.exists() and not out.is_dir():
-            raise InputError(f"-o {outdir}: exists and is not a folder")
-        if not out.exists() and not out.parent.is_dir():
-            raise InputError(f"-o {outdir}: the folder {out.parent} does not exist")
+        with user_errors():
+            out = output_dir(outdir, rig, names=("analyse.json",), what="the maps")
     with user_errors():
         data, where = read_rig_bytes(rig)
         model = loads_rig(data, where=where)
@@ -469,14 +466,7 @@ def analyse(rig, frames, outdir, phases, dark, flat, lens, lens_focal_length, pi
                                  "findings); the rig is not written")
             new_rig = rig_with_offset(text, offset)
         if out is not None:
-            if not out.exists():
-                try:
-                    out.mkdir()
-                except OSError as exc:
-                    raise InputError(f"-o {outdir}: cannot be created ({exc.strerror})") \
-                        from None
-            for name in files:
-                check_target(out / name, rig)
+            output_dir(outdir, rig, names=tuple(files), create=True, what="the maps")
             for name, payload in files.items():
                 write_atomic(out / name, payload, rig)
         if new_rig is not None:

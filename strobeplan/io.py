@@ -255,3 +255,35 @@ def write_atomic(path: str | Path, data, rig: str | None = None) -> None:
                 os.unlink(tmp)
             except OSError:
                 pass
+
+
+def output_dir(outdir, rig: str | None = None, *, names=(), create: bool = False,
+               what: str = "the files") -> Path:
+    """Apply the output policy to a folder named by ``-o``: refuse an empty name, anything
+    that exists and is not a folder, /proc, /sys and /dev (also through a symlink), and any
+    of ``names`` inside an existing folder that the policy refuses (the rig itself, a
+    special file); create the folder (and its parents) only when ``create``, just before
+    writing, so a run that fails leaves nothing behind."""
+    shown = clean(str(outdir), 80)
+    p = Path(outdir)
+    if not str(outdir) or "\x00" in str(outdir):
+        raise OutputError(f"{shown!r}: expected a folder name")
+    try:
+        st = os.stat(p)
+    except FileNotFoundError:
+        st = None
+    except OSError as exc:
+        raise OutputError(f"{shown}: cannot be inspected ({exc.strerror})") from None
+    if st is not None and not stat.S_ISDIR(st.st_mode):
+        raise OutputError(f"{shown}: exists and is not a folder; -o names the folder for "
+                          f"{what}")
+    _resolved(p)
+    if st is None and create:
+        try:
+            os.makedirs(p, exist_ok=True)
+        except OSError as exc:
+            raise OutputError(f"{shown}: cannot create the folder ({exc.strerror})") from None
+    if st is not None or create:
+        for name in names:
+            check_target(p / name, rig)
+    return p

@@ -153,6 +153,18 @@ class Section:
 
 
 @dataclass(frozen=True)
+class PictureRule:
+    """A finding drawn from a picture (preview's frames or captured ones): ``check`` cannot
+    reach it, so it is registered beside the command that raises it and listed in
+    docs/findings.md."""
+
+    code: str
+    severity: str
+    title: str
+    fix: str
+
+
+@dataclass(frozen=True)
 class Finding:
     """One flagged condition: code (stable, dotted), severity, reason and fix."""
 

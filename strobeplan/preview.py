@@ -43,7 +43,8 @@ from .errors import StrobeplanError
 from .physics import camera as cam_model
 from .physics import cutoff as cut_model
 from .physics import lineofsight as los
-from .plan import Finding
+from .physics.arrays import FWHM_PER_SIGMA
+from .plan import Finding, PictureRule
 from .viewgrid import ViewGrid, view_grid
 
 __all__ = ["Preview", "PreviewError", "render_preview", "write_preview", "estimate_work",
@@ -85,15 +86,7 @@ class Preview:
     rig_name: str = ""
 
 
-@dataclass(frozen=True)
-class PreviewRule:
-    """A finding drawn from the picture (it needs the preview, so ``check`` cannot reach it)."""
-
-    code: str
-    severity: str
-    title: str
-    fix: str
-
+PreviewRule = PictureRule  # the picture rules' one type (strobeplan.plan)
 
 PREVIEW_RULES = (
     PreviewRule("preview.cutoff_saturated", "warning",
@@ -385,7 +378,7 @@ def render_preview(rig, plan=None, *, frames=None, noise=True, seed=0, progress=
     deflection = los.double_pass(one_pass, offset) if double else one_pass(0.0)
     peak_eps = float(np.abs(deflection).max(initial=0.0))
     o = _optics(rig, plan, peak_eps)
-    deflection = _blur(deflection, o.resolution / 2.3548 / grid.pixel_m)
+    deflection = _blur(deflection, o.resolution / FWHM_PER_SIGMA / grid.pixel_m)
 
     # Frames.
     retention = float(plan.exposure.retention) if plan.exposure is not None else 1.0
@@ -411,7 +404,7 @@ def render_preview(rig, plan=None, *, frames=None, noise=True, seed=0, progress=
                                    seed)
     summary["pressure_phase_at_view_deg"] = math.degrees(theta)
     summary["line_of_sight_phase_deg"] = line_of_sight_phase(rig, grid, f, speed)
-    sigma = o.resolution / 2.3548
+    sigma = o.resolution / FWHM_PER_SIGMA
     summary["blur_fwhm_m"] = o.resolution
     summary["blur_contrast_at_sound_wavelength"] = (
         math.exp(-0.5 * (2 * math.pi * sigma / lam) ** 2)
@@ -636,48 +629,15 @@ def _json_default(x):
     raise TypeError(type(x).__name__)
 
 
-def prepare_dir(outdir, rig_path=None):
-    """Apply the output policy to a directory: create it if missing, refuse anything else."""
-    import os
-    import stat
-    from pathlib import Path
-
-    from .errors import OutputError
-    from .io import _resolved, check_target
-    from .safetext import clean
-
-    shown = clean(str(outdir), 80)
-    p = Path(outdir)
-    if not str(outdir) or "\x00" in str(outdir):
-        raise OutputError(f"{shown!r}: expected a folder name")
-    try:
-        st = os.stat(p)
-    except FileNotFoundError:
-        st = None
-    except OSError as exc:
-        raise OutputError(f"{shown}: cannot be inspected ({exc.strerror})") from None
-    if st is not None and not stat.S_ISDIR(st.st_mode):
-        raise OutputError(f"{shown}: exists and is not a folder; -o names the folder for "
-                          "the preview's files")
-    _resolved(p)  # refuses /proc, /sys and /dev, also through a symlink
-    if st is None:
-        try:
-            os.makedirs(p, exist_ok=True)
-        except OSError as exc:
-            raise OutputError(f"{shown}: cannot create the folder ({exc.strerror})") from None
-    check_target(p / "preview.json", rig_path)
-    return p
-
-
 def write_preview(preview: Preview, outdir, rig_path=None) -> list:
     """Write the frames (16-bit TIFF, 8-bit PNG), loop.gif, contact_sheet.png, preview.json.
 
     Each file is written atomically through the output policy (``strobeplan.io``).
     Returns the names written.
     """
-    from .io import check_target, write_atomic
+    from .io import check_target, output_dir, write_atomic
 
-    folder = prepare_dir(outdir, rig_path)
+    folder = output_dir(outdir, rig_path, create=True, what="the preview's files")
     files = []
 
     def put(name, data):

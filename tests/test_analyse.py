@@ -498,3 +498,40 @@ def test_pixel_size_option(tmp_path):
     rig = example("levitator-40k")
     r = run_cli("analyse", rig, str(tmp_path / "none.tif"), "--pixel-size", "-3 um")
     assert r.exit_code == 2 and "--pixel-size" in _one_line_error(r)
+
+
+def _codes(rig, frames, phases_deg, plan):
+    return {f["code"] for f in analyse_frames(rig, frames, phases_deg, plan=plan)
+            .summary["findings"]}
+
+
+def test_every_analyse_finding_is_reachable(lev):
+    """Each registered finding (ANALYSE_RULES, listed in docs/findings.md) is raised by a
+    stack made for it, and every code raised is registered."""
+    from strobeplan.analyse import ANALYSE_RULES
+
+    rig, plan, grid, phases = lev
+    deg = np.degrees(phases)
+    seen = {
+        "analyse.clipped": _codes(rig, plane_stack(rig, plan, grid, phases, background=63000.0,
+                                                   contrast=0.05, noise=20.0), deg, plan),
+        "analyse.aliasing": _codes(rig, plane_stack(rig, plan, grid, np.arange(4) * math.pi / 2,
+                                                    noise=20.0, harmonic3=0.4),
+                                   np.arange(4) * 90.0, plan),
+        "analyse.no_wave": _codes(rig, np.zeros((len(phases), 40, 50), np.uint16), deg, plan),
+        # 3.4 deg off the knife edge: the knife sees 6 % of the gradient
+        "analyse.along_knife": _codes(rig, plane_stack(
+            rig, plan, grid, phases, noise=20.0, contrast=0.2,
+            direction=np.asarray(grid.u) + 0.06 * np.asarray(grid.v)), deg, plan),
+        "analyse.calibration": _codes(rig, plane_stack(rig, plan, grid, phases, noise=20.0,
+                                                       offset_s=3e-6), deg, plan),
+    }
+    bare = _bare_rig(None)
+    bare_plan = solve(bare)
+    seen["analyse.scale_unknown"] = _codes(bare, _plain_stack(96, 128, 1e-4, 3e-3, phases),
+                                           deg, bare_plan)
+    registered = {r.code for r in ANALYSE_RULES}
+    assert set(seen) == registered
+    for code, codes in seen.items():
+        assert code in codes, (code, codes)
+        assert codes <= registered

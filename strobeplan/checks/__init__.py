@@ -60,7 +60,7 @@ def findings_markdown() -> str:
             change = ", ".join(f"`{k} = {v!r}`" if v is not None else f"`{k}` removed"
                                for k, v in patch.items()) or "as bundled"
             lines += [f"Example: `{base}` with {change}", ""]
-    return "\n".join(lines + _preview_markdown())
+    return "\n".join(lines + _preview_markdown() + _analyse_markdown())
 
 
 def _preview_markdown() -> list[str]:
@@ -70,7 +70,22 @@ def _preview_markdown() -> list[str]:
     lines = ["# Findings from the picture (`strobeplan preview`)", "",
              "These need the rendered frames, so `check` never reports them; `preview` prints",
              "them and writes them to preview.json (tests/test_preview.py triggers each).", ""]
-    for r in PREVIEW_RULES:
+    return lines + _picture_rules(PREVIEW_RULES)
+
+
+def _analyse_markdown() -> list[str]:
+    """The findings ``strobeplan analyse`` draws from captured frames."""
+    from ..analyse import ANALYSE_RULES
+
+    lines = ["# Findings from captured frames (`strobeplan analyse`)", "",
+             "`analyse` prints them and writes them to analyse.json (tests/test_analyse.py",
+             "triggers each).", ""]
+    return lines + _picture_rules(ANALYSE_RULES)
+
+
+def _picture_rules(rules) -> list[str]:
+    lines: list[str] = []
+    for r in rules:
         lines += [f"### `{r.code}`", "", f"Severity: **{r.severity}**", "",
                   f"Trigger: {r.title}.", "", f"Fix: {r.fix}.", ""]
     return lines

@@ -8,7 +8,12 @@ References
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
+
+FWHM_PER_SIGMA = 2.0 * math.sqrt(2.0 * math.log(2.0))
+"""Full width at half maximum of a Gaussian over its standard deviation (2.3548). [1]"""
 
 __all__ = ["unique"]
 

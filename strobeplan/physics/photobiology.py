@@ -39,6 +39,8 @@ from __future__ import annotations
 
 import numpy as np
 
+from .arrays import FWHM_PER_SIGMA
+
 # IEC 62471:2006 Table 4.2 at 5 nm, 380-495 nm: B(lambda); R(lambda) = 10 B(lambda) there.
 _NM = np.arange(380.0, 500.0, 5.0)
 _B = np.array([0.01, 0.013, 0.025, 0.05, 0.10, 0.20, 0.40, 0.80, 0.90, 0.95, 0.98, 1.0,
@@ -110,7 +112,7 @@ def thermal_weight(wavelength):
 
 
 def _gauss(grid, centre, fwhm):
-    s = fwhm / 2.3548200450309493
+    s = fwhm / FWHM_PER_SIGMA
     return np.exp(-0.5 * ((grid - centre) / s) ** 2)
 
 
