@@ -55,8 +55,6 @@ MIN_FRAMES = 4  # 3 fit the mean and the first harmonic; one more estimates the 
 SNR_MASK = 5.0  # pixels whose first harmonic has an amplitude SNR >= 5 (phase noise <= 11 deg)
 CHUNK = 8  # frames per matrix product while accumulating
 ALIAS_RATIO = 0.05  # a spectral peak at an alias wave vector over 5 % of the main peak
-MAX_PIXEL_FRAMES = 4e10  # workload budget: frames x pixels
-PIXEL_FRAMES_PER_SECOND = 2.0e7  # accumulation rate on one core (bench/bench_analyse.py)
 SCHEMA = "strobeplan-analyse/1"
 
 
@@ -1018,14 +1016,9 @@ def _require_workload(count, items):
 
 def _check_workload(count, pixels):
     """Refuse a stack above the budget before the work (README "Limits")."""
-    from .workload import duration_text
+    from .workload import require_frames
 
-    total = float(count) * float(pixels)
-    if total > MAX_PIXEL_FRAMES:
-        raise FrameError(f"{count} frames of {pixels} pixels are {total:.3g} frame-pixels "
-                         f"({duration_text(total / PIXEL_FRAMES_PER_SECOND)}), above the "
-                         f"budget of {MAX_PIXEL_FRAMES:.3g}; analyse fewer or smaller frames "
-                         "(crop or bin them)")
+    require_frames(count, pixels)
 
 
 def _as_picture(value, name, shape=None):

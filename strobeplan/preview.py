@@ -46,6 +46,7 @@ from .physics import lineofsight as los
 from .physics.arrays import FWHM_PER_SIGMA
 from .plan import Finding, PictureRule
 from .viewgrid import ViewGrid, view_grid
+from .workload import MAX_PREVIEW_BYTES, MAX_PREVIEW_SECONDS
 
 __all__ = ["Preview", "PreviewError", "render_preview", "write_preview", "estimate_work",
            "PREVIEW_RULES", "LATTICE_FRACTION", "MAX_FRAMES", "MAX_WORK"]
@@ -58,10 +59,8 @@ FIELD_POINT_SECONDS = 6e-7
 """Cost of one piston at one lattice point (bench/bench_preview.py measured 4.5e-7 s)."""
 PIXEL_FRAME_SECONDS = 1.5e-7
 """Cost of one pixel of one frame with noise (bench/bench_preview.py measured 1.1e-7 s)."""
-MAX_WORK = 240.0
-"""Largest estimated preview run accepted. [s]"""
-MAX_BYTES = 2.0e9
-"""Largest estimated memory (frames plus work arrays) accepted. [B]"""
+MAX_WORK = MAX_PREVIEW_SECONDS  # the budgets live in strobeplan.workload
+MAX_BYTES = MAX_PREVIEW_BYTES
 SATURATED_FRACTION = 0.01  # cutoff clipping in more than 1 % of the view: a finding
 DARK_FRACTION = 0.5  # more than half the view below the SNR threshold: a finding
 LIGHT_SAMPLING = 4  # samples per sound wavelength along the light, at least

@@ -136,3 +136,30 @@ def require_schedule_rows(rows: int, budget: int = MAX_SCHEDULE_ROWS) -> None:
         f"schedule --steps {rows}: {_num(rows)} rows would take "
         f"{duration_text(rows / SCHEDULE_ROWS_PER_SECOND)} at {_num(SCHEDULE_ROWS_PER_SECOND)}"
         f" rows/s, above the budget of {_num(budget)} rows; lower --steps (or sweep.steps)")
+
+
+# --- pictures: preview draws them, analyse reads them ------------------------------------
+
+MAX_PREVIEW_SECONDS = 240.0
+"""Largest estimated preview run accepted (its cost model is preview.estimate_work). [s]"""
+
+MAX_PREVIEW_BYTES = 2.0e9
+"""Largest estimated preview memory (frames plus work arrays) accepted. [B]"""
+
+MAX_PIXEL_FRAMES = 4e10
+"""Largest stack analyse accepts: frames x pixels (about 33 min at the rate below)."""
+
+PIXEL_FRAMES_PER_SECOND = 2.0e7
+"""Frame-pixels demodulated per second on one core (bench/bench_analyse.py measures it)."""
+
+
+def require_frames(count: int, pixels: int, budget: float | None = None) -> None:
+    """Refuse a stack of ``count`` frames of ``pixels`` pixels above the budget (default
+    MAX_PIXEL_FRAMES), before the work (one line, exit 2)."""
+    budget = MAX_PIXEL_FRAMES if budget is None else budget
+    total = float(count) * float(pixels)
+    if total > budget:
+        raise WorkloadError(f"{count} frames of {pixels} pixels are {total:.3g} frame-pixels "
+                            f"({duration_text(total / PIXEL_FRAMES_PER_SECOND)}), above the "
+                            f"budget of {budget:.3g}; analyse fewer or smaller frames (crop "
+                            "or bin them)")

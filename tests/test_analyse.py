@@ -535,3 +535,14 @@ def test_every_analyse_finding_is_reachable(lev):
     for code, codes in seen.items():
         assert code in codes, (code, codes)
         assert codes <= registered
+
+
+def test_a_stack_above_the_budget_is_refused_before_the_work(tmp_path, monkeypatch):
+    from strobeplan import workload
+
+    folder = _write_frames(tmp_path / "f", np.full((6, 30, 40), 1000, np.uint16))
+    monkeypatch.setattr(workload, "MAX_PIXEL_FRAMES", 6 * 30 * 40 - 1)
+    r = run_cli("analyse", example("levitator-40k"), folder, "--phases",
+                ",".join(str(60 * i) for i in range(6)))
+    line = _one_line_error(r)
+    assert "frame-pixels" in line and "budget" in line
