@@ -430,15 +430,14 @@ def _grid_for(rig, plan, shape, notes, findings, pixel_m=None):
 
 def _cutoff(rig, plan):
     """(kind, sensitivity per rad (knife) or per rad^2 (rod), how it was obtained)."""
-    from .physics import cutoff as cut_model
+    from .stages.image import cutoff_blur
 
     opt = rig.optics
     img = getattr(plan, "image", None)
     if opt is None:
         return "knife", None, None
     if img is not None:
-        blur = cut_model.diffraction_blur(opt.light_wavelength, img.cutoff_distance_m,
-                                          opt.mirror_diameter)
+        blur = cutoff_blur(rig)
         if img.cutoff == "rod":
             return "rod", demod.rod_curvature(img.source_image_m, opt.cutoff_width or 0.0,
                                               blur, img.cutoff_distance_m,

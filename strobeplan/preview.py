@@ -210,13 +210,14 @@ class _Optics:
 
 
 def _optics(rig, plan, peak_deflection) -> _Optics:
+    from .stages.image import cutoff_blur
+
     img, opt, cam = plan.image, rig.optics, rig.camera
     bits = int(cam.bit_depth) if cam is not None else 8
     if img is not None:
         height = img.source_image_m
         rod = img.cutoff == "rod"
-        blur = float(cut_model.diffraction_blur(opt.light_wavelength, img.cutoff_distance_m,
-                                                opt.mirror_diameter))
+        blur = cutoff_blur(rig)
         known = img.electrons_open is not None
         dark = float(cam.dark_current * cam.exposure) if known else 0.0
         return _Optics(img.cutoff_distance_m, height, rod, opt.cut_fraction,

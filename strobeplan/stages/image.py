@@ -180,7 +180,7 @@ def compute(rig, design, plan) -> ImageSection | None:
     width = opt.cutoff_width or 0.0
     a = opt.cutoff_opening
     lam = opt.light_wavelength
-    blur = cut_model.diffraction_blur(lam, f2, d)
+    blur = cutoff_blur(rig)
     speed = plan.air.speed_of_sound_m_s
     sound_wl = speed / plan.timing.drive_frequency_hz
     order = 2 if rod else 1
@@ -359,10 +359,18 @@ def _light_budget(rig, design, plan, section, img_w, img_h, lens_pass, retention
         section.visible = _flag(binned >= opt.min_snr)
 
 
+def cutoff_blur(rig) -> float:
+    """Diffraction blur of the source image at the cutoff (the light's wavelength, the
+    cutoff distance f2 and the mirror's aperture; physics.cutoff.diffraction_blur): the
+    one value the image section, its traces, the preview and analyse use. [m]"""
+    opt = rig.optics
+    return float(cut_model.diffraction_blur(opt.light_wavelength, opt.cutoff_distance,
+                                            opt.mirror_diameter))
+
+
 def _mean_transmission(rig, section, img_h):
     opt = rig.optics
-    blur = cut_model.diffraction_blur(opt.light_wavelength, opt.cutoff_distance,
-                                      opt.mirror_diameter)
+    blur = cutoff_blur(rig)
     mean, _, _ = cut_model.harmonics(np.asarray(section.shift_amplitude_m), img_h,
                                      opt.cutoff == "rod", opt.cut_fraction,
                                      opt.cutoff_width or 0.0, blur)

@@ -134,13 +134,13 @@ def image_response(plan, n: int = 401):
     """(deflection, level) of the cutoff response: the mean signal in electrons per pixel per
     frame against a steady deflection, over twice the measuring range each way. [rad, e-]"""
     from ..physics import cutoff as cut_model
+    from .image import cutoff_blur
 
     img, opt = plan.image, plan.rig.optics
     unit = img.electrons_open
     span = 2.0 * max(img.measuring_range_rad, abs(img.deflection_rad or 0.0))
     eps = np.linspace(-span, span, n)
-    blur = cut_model.diffraction_blur(opt.light_wavelength, opt.cutoff_distance,
-                                      opt.mirror_diameter)
+    blur = cutoff_blur(plan.rig)
     t = cut_model.transmission(opt.cutoff_distance * eps, img.source_image_m,
                                opt.cutoff == "rod", opt.cut_fraction, opt.cutoff_width or 0.0,
                                blur)
