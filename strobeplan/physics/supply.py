@@ -480,22 +480,7 @@ def stuck_on_transient(supply_voltage, capacitance, esr, series_resistor, on_res
 
         r0, lim = flat(rise0), flat(allowed)
         d_k, z_k, g_k = per_step(decay), per_step(rise_zero), per_step(grid)
-        pk, pt = r0.copy(), np.zeros(r0.shape)
-        bk = np.full(r0.shape, -1)
-        open_ = ~(r0 >= lim)
-        rise = np.empty(r0.shape)
-        hit = np.empty(r0.shape, dtype=bool)
-        higher = np.empty(r0.shape, dtype=bool)
-        for k in range(n_steps + 1):
-            np.multiply(r0, d_k[k], out=rise)
-            np.add(rise, z_k[k], out=rise)
-            np.greater_equal(rise, lim, out=hit)
-            np.logical_and(hit, open_, out=hit)
-            np.copyto(bk, k, where=hit)
-            np.logical_and(open_, ~hit, out=open_)
-            np.greater(rise, pk, out=higher)
-            np.copyto(pk, rise, where=higher)
-            np.copyto(pt, g_k[k], where=higher)
+        pk, pt, bk, open_ = _scan(r0, lim, d_k, z_k, g_k, _steps_that_matter(r0, lim, d_k, z_k))
         back = np.argsort(perm)
         shaped = [shape[i] for i in perm]
         peak, peak_t, b_k, crossed = (
@@ -548,6 +533,120 @@ def stuck_on_transient(supply_voltage, capacitance, esr, series_resistor, on_res
     if np.ndim(out.time_to_limit) == 0:
         return StuckOnTransient(*(float(x) for x in out))
     return out
+
+
+def _scan(r0, lim, d_k, z_k, g_k, steps=None):
+    """The stuck-on junction scan of :func:`stuck_on_transient` on the (other axes, circuits)
+    layout: per step ``k`` the rise ``r0 x d_k + z_k``; the first maximum (a strictly higher
+    value replaces; the start ``r0`` at time 0 first) and the first step at or above ``lim``.
+
+    ``steps`` (circuits, m) lists, per circuit and in increasing order, the only steps that
+    can change either answer (:func:`_steps_that_matter`); None scans every step. Returns
+    (peak, peak time, first crossing step (-1: at the start or never), still below the limit).
+    """
+    pk, pt = r0.copy(), np.zeros(r0.shape)
+    bk = np.full(r0.shape, -1)
+    open_ = ~(r0 >= lim)
+    rise = np.empty(r0.shape)
+    hit = np.empty(r0.shape, dtype=bool)
+    higher = np.empty(r0.shape, dtype=bool)
+    if steps is None:
+        order = ((k, d_k[k], z_k[k], g_k[k]) for k in range(d_k.shape[0]))
+    else:
+        cols = np.arange(steps.shape[0])
+        order = ((steps[:, m], d_k[steps[:, m], cols], z_k[steps[:, m], cols],
+                  g_k[steps[:, m], cols]) for m in range(steps.shape[1]))
+    for k, d, z, g in order:
+        np.multiply(r0, d, out=rise)
+        np.add(rise, z, out=rise)
+        np.greater_equal(rise, lim, out=hit)
+        np.logical_and(hit, open_, out=hit)
+        if np.ndim(k):
+            np.copyto(bk, np.broadcast_to(k, bk.shape), where=hit)
+        else:
+            np.copyto(bk, k, where=hit)
+        np.logical_and(open_, ~hit, out=open_)
+        np.greater(rise, pk, out=higher)
+        np.copyto(pk, rise, where=higher)
+        np.copyto(pt, g, where=higher)
+    return pk, pt, bk, open_
+
+
+SCAN_SAMPLES = 4  # [1] intervals of the start-rise range per circuit in _steps_that_matter
+SCAN_TOLERANCE = 1e-9  # [1] margin (relative to the figures' size) a skipped step must clear
+
+
+def _steps_that_matter(r0, lim, d_k, z_k):
+    """Per circuit, the steps of the stuck-on scan that can change its answers, as (circuits,
+    m) step indices in increasing order (the last repeated to fill a row), or None (scan all).
+
+    Every step is a line in the start rise: ``rise_k(r0) = d_k r0 + z_k``; the circuit's
+    candidates have their ``r0`` in ``[a, b]``. A step is skipped only when, for every ``r0``
+    in ``[a, b]``, it is below the upper envelope of the steps (and the start line ``r0``) by
+    more than a margin (``SCAN_TOLERANCE`` of the figures' size, far above the rounding of
+    ``d r0 + z``): it can then neither be the maximum nor tie with it. The test is exact for
+    a piecewise-linear lower bound of the envelope: at ``SCAN_SAMPLES + 1`` points of
+    ``[a, b]`` the highest step (the envelope's value there) is taken, and on each interval
+    between two points the higher of those two steps is below the envelope; a line minus
+    that bound is concave, so it is below the bound everywhere when it is below it at the
+    interval's ends and at the two steps' intersection. For the first crossing of ``lim``
+    only steps up to the first one above every limit at every ``r0`` matter, and among
+    them only those not below every limit at every ``r0`` (a line's extremes on ``[a, b]``
+    are at its ends). Skipped steps change nothing: the scan over the rest gives the same
+    bits (a candidate's figures come from the same arithmetic on the same step).
+    """
+    n_steps, n_c = d_k.shape
+    if n_c == 0 or n_steps <= 2 * (SCAN_SAMPLES + 2):
+        return None
+    finite = np.isfinite(r0).all(axis=0) & np.isfinite(lim).all(axis=0)
+    if not finite.all() or not (np.isfinite(d_k).all() and np.isfinite(z_k).all()):
+        return None
+    a, b = r0.min(axis=0), r0.max(axis=0)  # (circuits,)
+    lo_lim, hi_lim = lim.min(axis=0), lim.max(axis=0)
+    d, z = d_k.T, z_k.T  # (circuits, steps)
+    size = 1.0 + np.maximum(np.abs(a), np.abs(b)) + np.max(np.abs(z), axis=1) \
+        + np.maximum(np.abs(lo_lim), np.abs(hi_lim))
+    tol = SCAN_TOLERANCE * size  # (circuits,)
+    # The envelope at the sample points (the start line r0 itself is step "-1").
+    x = a[:, None] + (b - a)[:, None] * np.linspace(0.0, 1.0, SCAN_SAMPLES + 1)  # (c, s)
+    best = np.empty(x.shape, dtype=np.intp)
+    top = np.empty(x.shape)
+    for j in range(x.shape[1]):
+        vals = x[:, j:j + 1] * d + z  # (c, steps)
+        best[:, j] = np.argmax(vals, axis=1)
+        top[:, j] = np.take_along_axis(vals, best[:, j:j + 1], axis=1)[:, 0]
+    start_wins = x >= top
+    sd = np.where(start_wins, 1.0, np.take_along_axis(d, best, axis=1))  # seed slopes
+    sz = np.where(start_wins, 0.0, np.take_along_axis(z, best, axis=1))  # seed intercepts
+    env = np.maximum(top, x)  # the envelope at the samples
+    # Intersections of neighbouring seeds, inside their interval (else the left end).
+    dd = sd[:, :-1] - sd[:, 1:]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        xi = (sz[:, 1:] - sz[:, :-1]) / dd
+    inside = (dd != 0) & (xi > x[:, :-1]) & (xi < x[:, 1:])
+    xi = np.where(inside, xi, x[:, :-1])
+    env_i = np.where(inside, sd[:, :-1] * xi + sz[:, :-1], env[:, :-1])
+    px = np.concatenate([x, xi], axis=1)  # (c, points)
+    pv = np.concatenate([env, env_i], axis=1) - tol[:, None]
+    near = np.zeros(d.shape, dtype=bool)
+    for j in range(px.shape[1]):
+        near |= px[:, j:j + 1] * d + z >= pv[:, j:j + 1]
+    # The first crossing.
+    ra, rb = a[:, None] * d + z, b[:, None] * d + z  # (c, steps): the line's two ends
+    never = np.maximum(ra, rb) < (lo_lim - tol)[:, None]
+    always = np.minimum(ra, rb) >= (hi_lim + tol)[:, None]
+    first_always = np.where(always.any(axis=1), np.argmax(always, axis=1), n_steps)
+    before = np.arange(n_steps)[None, :] <= first_always[:, None]
+    keep = near | (before & ~never)
+    count = keep.sum(axis=1)
+    m = int(count.max(initial=0))
+    if m == 0:
+        m, keep[:, 0], count = 1, True, np.maximum(count, 1)
+    if m * 2 > n_steps:
+        return None
+    steps = np.argsort(~keep, axis=1, kind="stable")[:, :m]
+    last = np.take_along_axis(steps, np.maximum(count - 1, 0)[:, None], axis=1)
+    return np.where(np.arange(m)[None, :] < count[:, None], steps, last)
 
 
 class _CircuitResponse(NamedTuple):
