@@ -199,18 +199,27 @@ def burst_sag(supply_voltage, capacitance, esr, series_resistor, on_resistance,
     v_end = vs.copy()
     first = np.empty_like(vs)
     last = np.empty_like(vs)
+    # The first flash starts at the set point: it does not depend on the spacing or the
+    # flash count, so it is solved once per circuit (e.g. not once per ``every`` of a grid).
+    circuit = (supply_voltage, capacitance, esr, series_resistor, on_resistance,
+               recharge_current, width, n_vt, saturation_current, led_series_resistance)
+    op = pulse_operating_point(*circuit)
+    peak = np.broadcast_to(np.asarray(op.peak_current, dtype=float), shape).ravel()
+    end = np.broadcast_to(np.asarray(op.end_voltage, dtype=float), shape).ravel()
+    first[:] = peak
+    last[:] = peak
+    v_end[:] = end
+    v_next = np.minimum(vs, end + ib * (s - tp) / c)
+    more = (1 < n) & (v_next != vs)
     # Only the candidates whose burst still changes are stepped: once a flash starts where
     # the previous one did, every later flash repeats it exactly.
-    act = np.arange(vs.size)
-    v = vs.copy()
-    k = 0
+    act, v = np.flatnonzero(more), v_next[more]
+    k = 1
     while act.size:
         op = pulse_operating_point(v, c[act], esr_[act], rser[act], ron[act], ib[act], tp[act],
                                    a[act], i_s[act], rs[act])
         peak = np.asarray(op.peak_current, dtype=float)
         end = np.asarray(op.end_voltage, dtype=float)
-        if k == 0:
-            first[act] = peak
         last[act] = peak
         v_before_last[act] = v
         v_end[act] = end
