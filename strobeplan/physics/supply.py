@@ -29,7 +29,6 @@ from typing import NamedTuple
 import numpy as np
 
 from strobeplan.physics.led import current_at_voltage, forward_voltage, pulse_operating_point
-from strobeplan.physics.thermal import foster_advance
 
 
 def _f(x):
@@ -527,9 +526,13 @@ def stuck_on_transient(supply_voltage, capacitance, esr, series_resistor, on_res
         start_state = np.where((k > 0)[:, None], zero_prev + r0[:, None] * share2 * free_prev,
                                r0[:, None] * share2)
         lo, up = np.zeros(todo.size), b_dt.copy()
+        # foster_advance(start_state, b_p, mid, r2, tau2), its parts that do not depend on
+        # mid computed once
+        target = b_p[:, None] * r2
+        gap = start_state - target
         for _ in range(60):
             mid = 0.5 * (lo + up)
-            above = np.sum(foster_advance(start_state, b_p, mid, r2, tau2), axis=-1) >= lim
+            above = np.sum(target + gap * np.exp(-mid[:, None] / tau2), axis=-1) >= lim
             up, lo = np.where(above, mid, up), np.where(above, lo, mid)
         np.put(hi, todo, up)
         np.put(b_t, todo, b_grid - b_dt)
@@ -760,11 +763,19 @@ def _compute_circuit_response(circuit, points_per_decade) -> _CircuitResponse:
     dt = np.diff(grid, axis=-1, prepend=0.0)
     heat = (1.0 - eff)[..., None] * np.diff(energy, axis=-1, prepend=0.0) / dt
     # Zero-state response of each term after each step (circuit shape, steps, terms).
-    zero = np.empty(grid.shape + r.shape[-1:])
+    # (foster_advance step by step: its target and decay factors for every step at once,
+    # then the recurrence, steps first so each step is one run of memory)
+    target = np.moveaxis(heat, -1, 0)[..., None] * r  # (steps, circuit, terms)
+    factor = np.exp(-np.moveaxis(dt, -1, 0)[..., None] / tau)
+    steps_first = np.empty(target.shape)
     state = np.zeros(r.shape)
+    gap = np.empty(r.shape)
     for k in range(n_steps + 1):
-        state = foster_advance(state, heat[..., k], dt[..., k], r, tau)
-        zero[..., k, :] = state
+        np.subtract(state, target[k], out=gap)
+        np.multiply(gap, factor[k], out=gap)
+        state = steps_first[k]
+        np.add(target[k], gap, out=state)
+    zero = np.ascontiguousarray(np.moveaxis(steps_first, 0, -2))
     free = np.exp(-grid[..., None] / tau[..., None, :])  # free decay of a unit initial state
     rise_zero = np.sum(zero, axis=-1)  # (circuit, steps)
     decay = np.sum(share[..., None, :] * free, axis=-1)  # (circuit, steps)
