@@ -525,15 +525,7 @@ def stuck_on_transient(supply_voltage, capacitance, esr, series_resistor, on_res
         free_prev = free.reshape(-1, steps, free.shape[-1])[flat_c, prev]
         start_state = np.where((k > 0)[:, None], zero_prev + r0[:, None] * share2 * free_prev,
                                r0[:, None] * share2)
-        lo, up = np.zeros(todo.size), b_dt.copy()
-        # foster_advance(start_state, b_p, mid, r2, tau2), its parts that do not depend on
-        # mid computed once
-        target = b_p[:, None] * r2
-        gap = start_state - target
-        for _ in range(60):
-            mid = 0.5 * (lo + up)
-            above = np.sum(target + gap * np.exp(-mid[:, None] / tau2), axis=-1) >= lim
-            up, lo = np.where(above, mid, up), np.where(above, lo, mid)
+        up = _bisect_crossing(start_state, b_p, r2, tau2, lim, b_dt)
         np.put(hi, todo, up)
         np.put(b_t, todo, b_grid - b_dt)
     t_cross = np.where(rise0 >= allowed, 0.0, np.where(crossed, b_t + hi, np.inf))
@@ -659,6 +651,49 @@ def _steps_that_matter(r0, lim, d_k, z_k):
     steps = np.argsort(~keep, axis=1, kind="stable")[:, :m]
     last = np.take_along_axis(steps, np.maximum(count - 1, 0)[:, None], axis=1)
     return np.where(np.arange(m)[None, :] < count[:, None], steps, last)
+
+
+def _bisect_crossing(start_state, heat, r, tau, lim, length, iterations=60):
+    """Time into an interval of constant ``heat`` at which the junction (the sum of the Foster
+    terms advanced from ``start_state`` by :func:`strobeplan.physics.thermal.foster_advance`)
+    first reaches ``lim``: the upper end of a bisection bracket ``[0, length]`` after
+    ``iterations`` halvings. Rows are candidates, the terms along the last axis.
+
+    The arithmetic is foster_advance's (``target + (state - target) exp(-t/tau)``, summed
+    over the terms in order), laid out term by term so each operation is one run of memory;
+    the parts that do not depend on the time are computed once.
+    """
+    target = heat[:, None] * r
+    gap = start_state - target
+    lo, up = np.zeros(length.shape), length.copy()
+    n_terms = r.shape[-1]
+    if n_terms >= 8:  # (np.sum's pairwise order from 8 terms on: keep its own arithmetic)
+        for _ in range(iterations):
+            mid = 0.5 * (lo + up)
+            above = np.sum(target + gap * np.exp(-mid[:, None] / tau), axis=-1) >= lim
+            up, lo = np.where(above, mid, up), np.where(above, lo, mid)
+        return up
+    # Below 8 terms np.sum adds them one after another: the same order here.
+    target_t, gap_t, tau_t = (np.ascontiguousarray(x.T) for x in (target, gap, tau))
+    mid, neg = np.empty(lo.shape), np.empty(lo.shape)
+    term, total = np.empty(lo.shape), np.empty(lo.shape)
+    above = np.empty(lo.shape, dtype=bool)
+    for _ in range(iterations):
+        np.add(lo, up, out=mid)
+        np.multiply(mid, 0.5, out=mid)
+        np.negative(mid, out=neg)
+        for j in range(n_terms):
+            part = total if j == 0 else term
+            np.divide(neg, tau_t[j], out=part)
+            np.exp(part, out=part)
+            np.multiply(gap_t[j], part, out=part)
+            np.add(target_t[j], part, out=part)
+            if j:
+                np.add(total, term, out=total)
+        np.greater_equal(total, lim, out=above)
+        np.copyto(up, mid, where=above)
+        np.copyto(lo, mid, where=~above)
+    return up
 
 
 class _CircuitResponse(NamedTuple):
