@@ -198,9 +198,12 @@ def tune(rig, limits: Limits | None = None, grid: Grid | None = None, *,
     require(rig)
     limits = limits or Limits()
     rig = limits.apply(rig)
+    # The rig's stages up to the flash: the design-free sections every chunk reuses (air,
+    # field: see rig_constants) and the edges the default grid starts from.
+    head = solve(rig, checks=False, upto="flash")
     if grid is None:
-        grid = default_grid(rig, solve(rig, checks=False), **(grid_options or {}))
-    known = rig_constants(rig)
+        grid = default_grid(rig, head, **(grid_options or {}))
+    known = {slot: getattr(head, slot) for slot in CONSTANT_SLOTS}
     forget_circuits()  # the stuck-on circuit response is shared by this search's chunks only
     try:
         return _search(rig, limits, grid, known, t0, chunk=chunk, runner_ups=runner_ups,
