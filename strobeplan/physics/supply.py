@@ -592,16 +592,19 @@ def _steps_that_matter(r0, lim, d_k, z_k):
     candidates have their ``r0`` in ``[a, b]``. A step is skipped only when, for every ``r0``
     in ``[a, b]``, it is below the upper envelope of the steps (and the start line ``r0``) by
     more than a margin (``SCAN_TOLERANCE`` of the figures' size, far above the rounding of
-    ``d r0 + z``): it can then neither be the maximum nor tie with it. The test is exact for
-    a piecewise-linear lower bound of the envelope: at ``SCAN_SAMPLES + 1`` points of
+    ``d r0 + z``): it can then neither be the maximum nor tie with it. The test uses a
+    piecewise-linear lower bound of the envelope: at ``SCAN_SAMPLES + 1`` points of
     ``[a, b]`` the highest step (the envelope's value there) is taken, and on each interval
-    between two points the higher of those two steps is below the envelope; a line minus
-    that bound is concave, so it is below the bound everywhere when it is below it at the
-    interval's ends and at the two steps' intersection. For the first crossing of ``lim``
-    only steps up to the first one above every limit at every ``r0`` matter, and among
-    them only those not below every limit at every ``r0`` (a line's extremes on ``[a, b]``
-    are at its ends). Skipped steps change nothing: the scan over the rest gives the same
-    bits (a candidate's figures come from the same arithmetic on the same step).
+    between two points both of those steps are below the envelope. A line below the left
+    one at the interval's left end and at an inner point ``p``, and below the right one at
+    ``p`` and at the right end, is below the left one on ``[left, p]`` and below the right
+    one on ``[p, right]`` (lines), so below the envelope on the whole interval; ``p`` is the
+    two steps' intersection (clipped to the interval), which makes the bound tight. For
+    the first crossing of ``lim`` only steps up to the first one above every limit at every
+    ``r0`` matter, and among them only those not below every limit at every ``r0`` (a
+    line's extremes on ``[a, b]`` are at its ends). Skipped steps change nothing: the scan
+    over the rest gives the same bits (a candidate's figures come from the same arithmetic
+    on the same step).
     """
     n_steps, n_c = d_k.shape
     if n_c == 0 or n_steps <= 2 * (SCAN_SAMPLES + 2):
@@ -627,13 +630,16 @@ def _steps_that_matter(r0, lim, d_k, z_k):
     sd = np.where(start_wins, 1.0, np.take_along_axis(d, best, axis=1))  # seed slopes
     sz = np.where(start_wins, 0.0, np.take_along_axis(z, best, axis=1))  # seed intercepts
     env = np.maximum(top, x)  # the envelope at the samples
-    # Intersections of neighbouring seeds, inside their interval (else the left end).
+    # A point between neighbouring samples (their seeds' intersection, kept inside the
+    # interval) and the lower of the two seeds there: a line below the left seed at the left
+    # end and at that point, and below the right seed there and at the right end, is below
+    # the envelope on the whole interval, wherever the point is (so the intersection's
+    # rounding cannot matter).
     dd = sd[:, :-1] - sd[:, 1:]
-    with np.errstate(divide="ignore", invalid="ignore"):
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         xi = (sz[:, 1:] - sz[:, :-1]) / dd
-    inside = (dd != 0) & (xi > x[:, :-1]) & (xi < x[:, 1:])
-    xi = np.where(inside, xi, x[:, :-1])
-    env_i = np.where(inside, sd[:, :-1] * xi + sz[:, :-1], env[:, :-1])
+    xi = np.clip(np.where(np.isfinite(xi), xi, x[:, :-1]), x[:, :-1], x[:, 1:])
+    env_i = np.minimum(sd[:, :-1] * xi + sz[:, :-1], sd[:, 1:] * xi + sz[:, 1:])
     px = np.concatenate([x, xi], axis=1)  # (c, points)
     pv = np.concatenate([env, env_i], axis=1) - tol[:, None]
     near = np.zeros(d.shape, dtype=bool)
