@@ -314,8 +314,8 @@ def _search(rig, limits, grid, known, t0, *, chunk, runner_ups, progress, refine
 
 def _evaluate_by_circuit(rig, rows: list, known: dict | None = None) -> list:
     """Each row (width, resistor, every, supply) evaluated as if on its own: rows sharing
-    a circuit (resistor and supply) are evaluated together. Returns (evaluation, design,
-    index) per row, in order.
+    a circuit (resistor and supply) are evaluated together. Returns (evaluation, index,
+    design) per row, in order (the arguments of ``_candidate``).
 
     Nothing in a row's evaluation depends on the other rows of its group: the stages are
     elementwise over the design, and the one figure shared across a batch, the stuck-on time
@@ -341,7 +341,9 @@ def _pick(rig, grid: Grid, flat: int, known: dict | None = None) -> Candidate:
 
 
 def _refine_rows(rig, grid: Grid, best: tuple) -> list[tuple[float, float, int, float]]:
-    """The rows :func:`_refine` tries for the best row (width, resistor, every, supply)."""
+    """The refinement's rows for the best row (width, resistor, every, supply): every whole
+    tick between its width and the next grid width (at most 256 of them, evenly spread) at
+    its resistor, every and supply."""
     clock = rig.controller.clock
     width, resistor, every, supply = best
     i = int(np.searchsorted(grid.widths, width))
@@ -361,17 +363,6 @@ def _refined(best: Candidate, done: list) -> Candidate | None:
     if ok.size == 0:
         return None
     return _candidate(*done[int(ok[np.argmax(score[ok])])])
-
-
-def _refine(rig, grid: Grid, best: Candidate, known: dict | None = None) -> Candidate | None:
-    """Every whole tick between the best width and the next grid width (at most 256 of
-    them, evenly spread) at the best's resistor, every and supply: the brightest feasible
-    one, when it beats the grid's best."""
-    rows = _refine_rows(rig, grid, (best.pulse_width_s, best.series_resistor_ohm,
-                                    best.every, best.supply_voltage_v))
-    if not rows:
-        return None
-    return _refined(best, _evaluate_by_circuit(rig, rows, known))
 
 
 _AXES = ("pulse width", "series resistor", "every", "supply voltage")
