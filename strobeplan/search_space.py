@@ -181,7 +181,8 @@ def default_grid(rig, plan, *, widths: int = 160, series: str = "E24",
                  resistor_range: tuple[float, float] = (0.1, 100.0), max_every: int = 8,
                  supply_range: tuple[float, float] | None = None,
                  supply_steps: int = 13) -> Grid:
-    """The search grid of a rig (see the module docstring); ``plan`` is ``solve(rig)``."""
+    """The search grid of a rig (see the module docstring); ``plan`` is ``solve(rig)`` (only
+    its ``flash`` section is read: a plan solved up to it will do)."""
     from .physics.eseries import series_values
 
     require(rig)

@@ -198,9 +198,12 @@ def tune(rig, limits: Limits | None = None, grid: Grid | None = None, *,
     require(rig)
     limits = limits or Limits()
     rig = limits.apply(rig)
+    # The rig's stages up to the flash: the design-free sections every chunk reuses (air,
+    # field: see rig_constants) and the edges the default grid starts from.
+    head = solve(rig, checks=False, upto="flash")
     if grid is None:
-        grid = default_grid(rig, solve(rig, checks=False), **(grid_options or {}))
-    known = rig_constants(rig)
+        grid = default_grid(rig, head, **(grid_options or {}))
+    known = {slot: getattr(head, slot) for slot in CONSTANT_SLOTS}
     forget_circuits()  # the stuck-on circuit response is shared by this search's chunks only
     try:
         return _search(rig, limits, grid, known, t0, chunk=chunk, runner_ups=runner_ups,
@@ -263,11 +266,16 @@ def _search(rig, limits, grid, known, t0, *, chunk, runner_ups, progress, refine
         if progress is not None:
             progress(min(nw, start + rows) * nr * ne * nv, grid.size)
 
-    cands = [_pick(rig, grid, flat, known) for _l, _m, flat in top]
+    # The kept candidates and the refinement's ticks (at the best's circuit), evaluated on
+    # their own: grouped by circuit, so one evaluation per distinct (resistor, supply).
+    rows = [grid.at(flat) for _l, _m, flat in top]
+    ticks = _refine_rows(rig, grid, rows[0]) if rows and refine else []
+    done = _evaluate_by_circuit(rig, rows + ticks, known)
+    cands = [_candidate(*one) for one in done[:len(rows)]]
     best = cands[0] if cands else None
     refined_from = None
-    if best is not None and refine:
-        better = _refine(rig, grid, best, known)
+    if best is not None and ticks:
+        better = _refined(best, done[len(rows):])
         if better is not None:
             refined_from = best.pulse_width_s
             best = better
@@ -304,32 +312,57 @@ def _search(rig, limits, grid, known, t0, *, chunk, runner_ups, progress, refine
         max_blur=rig.camera.max_blur if rig.camera is not None else None)
 
 
+def _evaluate_by_circuit(rig, rows: list, known: dict | None = None) -> list:
+    """Each row (width, resistor, every, supply) evaluated as if on its own: rows sharing
+    a circuit (resistor and supply) are evaluated together. Returns (evaluation, index,
+    design) per row, in order (the arguments of ``_candidate``).
+
+    Nothing in a row's evaluation depends on the other rows of its group: the stages are
+    elementwise over the design, and the one figure shared across a batch, the stuck-on time
+    grid's step count (the most any circuit of the batch needs), is the same for equal
+    circuits.
+    """
+    groups: dict[tuple, list[int]] = {}
+    for i, row in enumerate(rows):
+        groups.setdefault((row[1], row[3]), []).append(i)
+    out: list = [None] * len(rows)
+    for members in groups.values():
+        design = _design_of([rows[i] for i in members])
+        ev = evaluate(rig, design, known)
+        for k, i in enumerate(members):
+            out[i] = (ev, k, design)
+    return out
+
+
 def _pick(rig, grid: Grid, flat: int, known: dict | None = None) -> Candidate:
     """The candidate at a flat grid index, evaluated on its own."""
     design = _design_of([grid.at(flat)])
     return _candidate(evaluate(rig, design, known), 0, design)
 
 
-def _refine(rig, grid: Grid, best: Candidate, known: dict | None = None) -> Candidate | None:
-    """Every whole tick between the best width and the next grid width (at most 256 of
-    them, evenly spread) at the best's resistor, every and supply: the brightest feasible
-    one, when it beats the grid's best."""
+def _refine_rows(rig, grid: Grid, best: tuple) -> list[tuple[float, float, int, float]]:
+    """The refinement's rows for the best row (width, resistor, every, supply): every whole
+    tick between its width and the next grid width (at most 256 of them, evenly spread) at
+    its resistor, every and supply."""
     clock = rig.controller.clock
-    i = int(np.searchsorted(grid.widths, best.pulse_width_s))
-    lo = round(best.pulse_width_s * clock)
+    width, resistor, every, supply = best
+    i = int(np.searchsorted(grid.widths, width))
+    lo = round(width * clock)
     hi = (round(grid.widths[i + 1] * clock) if i + 1 < grid.widths.size
           else math.ceil(clock / rig.wave.frequency))
     ticks = np.unique(np.linspace(lo + 1, hi - 1, min(256, max(0, hi - lo - 1))).round())
-    if ticks.size == 0:
-        return None
-    design = _design_of([(t / clock, best.series_resistor_ohm, best.every,
-                          best.supply_voltage_v) for t in ticks])
-    ev = evaluate(rig, design, known)
-    ok = np.flatnonzero(ev.feasible & (ev.score > best.score))
+    return [(t / clock, resistor, every, supply) for t in ticks]
+
+
+def _refined(best: Candidate, done: list) -> Candidate | None:
+    """The brightest feasible of the refinement's evaluated rows ((evaluation, index,
+    design) each, in tick order) when it beats ``best``, else None."""
+    feasible = np.array([ev.feasible[k] for ev, k, _d in done], dtype=bool)
+    score = np.array([ev.score[k] for ev, k, _d in done], dtype=float)
+    ok = np.flatnonzero(feasible & (score > best.score))
     if ok.size == 0:
         return None
-    k = int(ok[np.argmax(ev.score[ok])])
-    return _candidate(ev, k, design)
+    return _candidate(*done[int(ok[np.argmax(score[ok])])])
 
 
 _AXES = ("pulse width", "series resistor", "every", "supply voltage")

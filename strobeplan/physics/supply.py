@@ -29,7 +29,6 @@ from typing import NamedTuple
 import numpy as np
 
 from strobeplan.physics.led import current_at_voltage, forward_voltage, pulse_operating_point
-from strobeplan.physics.thermal import foster_advance
 
 
 def _f(x):
@@ -199,18 +198,27 @@ def burst_sag(supply_voltage, capacitance, esr, series_resistor, on_resistance,
     v_end = vs.copy()
     first = np.empty_like(vs)
     last = np.empty_like(vs)
+    # The first flash starts at the set point: it does not depend on the spacing or the
+    # flash count, so it is solved once per circuit (e.g. not once per ``every`` of a grid).
+    circuit = (supply_voltage, capacitance, esr, series_resistor, on_resistance,
+               recharge_current, width, n_vt, saturation_current, led_series_resistance)
+    op = pulse_operating_point(*circuit)
+    peak = np.broadcast_to(np.asarray(op.peak_current, dtype=float), shape).ravel()
+    end = np.broadcast_to(np.asarray(op.end_voltage, dtype=float), shape).ravel()
+    first[:] = peak
+    last[:] = peak
+    v_end[:] = end
+    v_next = np.minimum(vs, end + ib * (s - tp) / c)
+    more = (1 < n) & (v_next != vs)
     # Only the candidates whose burst still changes are stepped: once a flash starts where
     # the previous one did, every later flash repeats it exactly.
-    act = np.arange(vs.size)
-    v = vs.copy()
-    k = 0
+    act, v = np.flatnonzero(more), v_next[more]
+    k = 1
     while act.size:
         op = pulse_operating_point(v, c[act], esr_[act], rser[act], ron[act], ib[act], tp[act],
                                    a[act], i_s[act], rs[act])
         peak = np.asarray(op.peak_current, dtype=float)
         end = np.asarray(op.end_voltage, dtype=float)
-        if k == 0:
-            first[act] = peak
         last[act] = peak
         v_before_last[act] = v
         v_end[act] = end
@@ -365,7 +373,11 @@ def stuck_on_transient(supply_voltage, capacitance, esr, series_resistor, on_res
     reaches the limit within 0.01 % of its time; random circuits stay within 0.2 K + 0.2 %
     of the rise (tests/physics/test_stuck_on_transient.py). The peak and the first crossing
     are taken at the grid points, and the crossing is refined inside its interval by bisection
-    on the exact in-interval response. After ``40 tau_max`` every term has followed the
+    on the exact in-interval response. Over many candidates per circuit the scan visits only
+    the grid points that can change a candidate's peak or first crossing (every point is a
+    line in the starting rise; the others are provably below the envelope of those lines by
+    a margin far above rounding, see ``_steps_that_matter``): the same numbers as a scan of
+    every point. After ``40 tau_max`` every term has followed the
     (non-increasing) heat, so the junction only cools towards its steady state: a limit
     not reached by then is never reached.
 
@@ -480,22 +492,7 @@ def stuck_on_transient(supply_voltage, capacitance, esr, series_resistor, on_res
 
         r0, lim = flat(rise0), flat(allowed)
         d_k, z_k, g_k = per_step(decay), per_step(rise_zero), per_step(grid)
-        pk, pt = r0.copy(), np.zeros(r0.shape)
-        bk = np.full(r0.shape, -1)
-        open_ = ~(r0 >= lim)
-        rise = np.empty(r0.shape)
-        hit = np.empty(r0.shape, dtype=bool)
-        higher = np.empty(r0.shape, dtype=bool)
-        for k in range(n_steps + 1):
-            np.multiply(r0, d_k[k], out=rise)
-            np.add(rise, z_k[k], out=rise)
-            np.greater_equal(rise, lim, out=hit)
-            np.logical_and(hit, open_, out=hit)
-            np.copyto(bk, k, where=hit)
-            np.logical_and(open_, ~hit, out=open_)
-            np.greater(rise, pk, out=higher)
-            np.copyto(pk, rise, where=higher)
-            np.copyto(pt, g_k[k], where=higher)
+        pk, pt, bk, open_ = _scan(r0, lim, d_k, z_k, g_k, _steps_that_matter(r0, lim, d_k, z_k))
         back = np.argsort(perm)
         shaped = [shape[i] for i in perm]
         peak, peak_t, b_k, crossed = (
@@ -532,11 +529,7 @@ def stuck_on_transient(supply_voltage, capacitance, esr, series_resistor, on_res
         free_prev = free.reshape(-1, steps, free.shape[-1])[flat_c, prev]
         start_state = np.where((k > 0)[:, None], zero_prev + r0[:, None] * share2 * free_prev,
                                r0[:, None] * share2)
-        lo, up = np.zeros(todo.size), b_dt.copy()
-        for _ in range(60):
-            mid = 0.5 * (lo + up)
-            above = np.sum(foster_advance(start_state, b_p, mid, r2, tau2), axis=-1) >= lim
-            up, lo = np.where(above, mid, up), np.where(above, lo, mid)
+        up = _bisect_crossing(start_state, b_p, r2, tau2, lim, b_dt)
         np.put(hi, todo, up)
         np.put(b_t, todo, b_grid - b_dt)
     t_cross = np.where(rise0 >= allowed, 0.0, np.where(crossed, b_t + hi, np.inf))
@@ -548,6 +541,169 @@ def stuck_on_transient(supply_voltage, capacitance, esr, series_resistor, on_res
     if np.ndim(out.time_to_limit) == 0:
         return StuckOnTransient(*(float(x) for x in out))
     return out
+
+
+def _scan(r0, lim, d_k, z_k, g_k, steps=None):
+    """The stuck-on junction scan of :func:`stuck_on_transient` on the (other axes, circuits)
+    layout: per step ``k`` the rise ``r0 x d_k + z_k``; the first maximum (a strictly higher
+    value replaces; the start ``r0`` at time 0 first) and the first step at or above ``lim``.
+
+    ``steps`` (circuits, m) lists, per circuit and in increasing order, the only steps that
+    can change either answer (:func:`_steps_that_matter`); None scans every step. Returns
+    (peak, peak time, first crossing step (-1: at the start or never), still below the limit).
+    """
+    pk, pt = r0.copy(), np.zeros(r0.shape)
+    bk = np.full(r0.shape, -1)
+    open_ = ~(r0 >= lim)
+    rise = np.empty(r0.shape)
+    hit = np.empty(r0.shape, dtype=bool)
+    higher = np.empty(r0.shape, dtype=bool)
+    if steps is None:
+        order = ((k, d_k[k], z_k[k], g_k[k]) for k in range(d_k.shape[0]))
+    else:
+        cols = np.arange(steps.shape[0])
+        order = ((steps[:, m], d_k[steps[:, m], cols], z_k[steps[:, m], cols],
+                  g_k[steps[:, m], cols]) for m in range(steps.shape[1]))
+    for k, d, z, g in order:
+        np.multiply(r0, d, out=rise)
+        np.add(rise, z, out=rise)
+        np.greater_equal(rise, lim, out=hit)
+        np.logical_and(hit, open_, out=hit)
+        if np.ndim(k):
+            np.copyto(bk, np.broadcast_to(k, bk.shape), where=hit)
+        else:
+            np.copyto(bk, k, where=hit)
+        np.logical_and(open_, ~hit, out=open_)
+        np.greater(rise, pk, out=higher)
+        np.copyto(pk, rise, where=higher)
+        np.copyto(pt, g, where=higher)
+    return pk, pt, bk, open_
+
+
+SCAN_SAMPLES = 4  # [1] intervals of the start-rise range per circuit in _steps_that_matter
+SCAN_TOLERANCE = 1e-9  # [1] margin (relative to the figures' size) a skipped step must clear
+
+
+def _steps_that_matter(r0, lim, d_k, z_k):
+    """Per circuit, the steps of the stuck-on scan that can change its answers, as (circuits,
+    m) step indices in increasing order (the last repeated to fill a row), or None (scan all).
+
+    Every step is a line in the start rise: ``rise_k(r0) = d_k r0 + z_k``; the circuit's
+    candidates have their ``r0`` in ``[a, b]``. A step is skipped only when, for every ``r0``
+    in ``[a, b]``, it is below the upper envelope of the steps (and the start line ``r0``) by
+    more than a margin (``SCAN_TOLERANCE`` of the figures' size, far above the rounding of
+    ``d r0 + z``): it can then neither be the maximum nor tie with it. The test uses a
+    piecewise-linear lower bound of the envelope: at ``SCAN_SAMPLES + 1`` points of
+    ``[a, b]`` the highest step (the envelope's value there) is taken, and on each interval
+    between two points both of those steps are below the envelope. A line below the left
+    one at the interval's left end and at an inner point ``p``, and below the right one at
+    ``p`` and at the right end, is below the left one on ``[left, p]`` and below the right
+    one on ``[p, right]`` (lines), so below the envelope on the whole interval; ``p`` is the
+    two steps' intersection (clipped to the interval), which makes the bound tight. For
+    the first crossing of ``lim`` only steps up to the first one above every limit at every
+    ``r0`` matter, and among them only those not below every limit at every ``r0`` (a
+    line's extremes on ``[a, b]`` are at its ends). Skipped steps change nothing: the scan
+    over the rest gives the same bits (a candidate's figures come from the same arithmetic
+    on the same step).
+    """
+    n_steps, n_c = d_k.shape
+    if n_c == 0 or n_steps <= 2 * (SCAN_SAMPLES + 2):
+        return None
+    finite = np.isfinite(r0).all(axis=0) & np.isfinite(lim).all(axis=0)
+    if not finite.all() or not (np.isfinite(d_k).all() and np.isfinite(z_k).all()):
+        return None
+    a, b = r0.min(axis=0), r0.max(axis=0)  # (circuits,)
+    lo_lim, hi_lim = lim.min(axis=0), lim.max(axis=0)
+    d, z = d_k.T, z_k.T  # (circuits, steps)
+    size = 1.0 + np.maximum(np.abs(a), np.abs(b)) + np.max(np.abs(z), axis=1) \
+        + np.maximum(np.abs(lo_lim), np.abs(hi_lim))
+    tol = SCAN_TOLERANCE * size  # (circuits,)
+    # The envelope at the sample points (the start line r0 itself is step "-1").
+    x = a[:, None] + (b - a)[:, None] * np.linspace(0.0, 1.0, SCAN_SAMPLES + 1)  # (c, s)
+    best = np.empty(x.shape, dtype=np.intp)
+    top = np.empty(x.shape)
+    for j in range(x.shape[1]):
+        vals = x[:, j:j + 1] * d + z  # (c, steps)
+        best[:, j] = np.argmax(vals, axis=1)
+        top[:, j] = np.take_along_axis(vals, best[:, j:j + 1], axis=1)[:, 0]
+    start_wins = x >= top
+    sd = np.where(start_wins, 1.0, np.take_along_axis(d, best, axis=1))  # seed slopes
+    sz = np.where(start_wins, 0.0, np.take_along_axis(z, best, axis=1))  # seed intercepts
+    env = np.maximum(top, x)  # the envelope at the samples
+    # A point between neighbouring samples (their seeds' intersection, kept inside the
+    # interval) and the lower of the two seeds there: a line below the left seed at the left
+    # end and at that point, and below the right seed there and at the right end, is below
+    # the envelope on the whole interval, wherever the point is (so the intersection's
+    # rounding cannot matter).
+    dd = sd[:, :-1] - sd[:, 1:]
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        xi = (sz[:, 1:] - sz[:, :-1]) / dd
+    xi = np.clip(np.where(np.isfinite(xi), xi, x[:, :-1]), x[:, :-1], x[:, 1:])
+    env_i = np.minimum(sd[:, :-1] * xi + sz[:, :-1], sd[:, 1:] * xi + sz[:, 1:])
+    px = np.concatenate([x, xi], axis=1)  # (c, points)
+    pv = np.concatenate([env, env_i], axis=1) - tol[:, None]
+    near = np.zeros(d.shape, dtype=bool)
+    for j in range(px.shape[1]):
+        near |= px[:, j:j + 1] * d + z >= pv[:, j:j + 1]
+    # The first crossing.
+    ra, rb = a[:, None] * d + z, b[:, None] * d + z  # (c, steps): the line's two ends
+    never = np.maximum(ra, rb) < (lo_lim - tol)[:, None]
+    always = np.minimum(ra, rb) >= (hi_lim + tol)[:, None]
+    first_always = np.where(always.any(axis=1), np.argmax(always, axis=1), n_steps)
+    before = np.arange(n_steps)[None, :] <= first_always[:, None]
+    keep = near | (before & ~never)
+    count = keep.sum(axis=1)
+    m = int(count.max(initial=0))
+    if m == 0:
+        m, keep[:, 0], count = 1, True, np.maximum(count, 1)
+    if m * 2 > n_steps:
+        return None
+    steps = np.argsort(~keep, axis=1, kind="stable")[:, :m]
+    last = np.take_along_axis(steps, np.maximum(count - 1, 0)[:, None], axis=1)
+    return np.where(np.arange(m)[None, :] < count[:, None], steps, last)
+
+
+def _bisect_crossing(start_state, heat, r, tau, lim, length, iterations=60):
+    """Time into an interval of constant ``heat`` at which the junction (the sum of the Foster
+    terms advanced from ``start_state`` by :func:`strobeplan.physics.thermal.foster_advance`)
+    first reaches ``lim``: the upper end of a bisection bracket ``[0, length]`` after
+    ``iterations`` halvings. Rows are candidates, the terms along the last axis.
+
+    The arithmetic is foster_advance's (``target + (state - target) exp(-t/tau)``, summed
+    over the terms in order), laid out term by term so each operation is one run of memory;
+    the parts that do not depend on the time are computed once.
+    """
+    target = heat[:, None] * r
+    gap = start_state - target
+    lo, up = np.zeros(length.shape), length.copy()
+    n_terms = r.shape[-1]
+    if n_terms >= 8:  # (np.sum's pairwise order from 8 terms on: keep its own arithmetic)
+        for _ in range(iterations):
+            mid = 0.5 * (lo + up)
+            above = np.sum(target + gap * np.exp(-mid[:, None] / tau), axis=-1) >= lim
+            up, lo = np.where(above, mid, up), np.where(above, lo, mid)
+        return up
+    # Below 8 terms np.sum adds them one after another: the same order here.
+    target_t, gap_t, tau_t = (np.ascontiguousarray(x.T) for x in (target, gap, tau))
+    mid, neg = np.empty(lo.shape), np.empty(lo.shape)
+    term, total = np.empty(lo.shape), np.empty(lo.shape)
+    above = np.empty(lo.shape, dtype=bool)
+    for _ in range(iterations):
+        np.add(lo, up, out=mid)
+        np.multiply(mid, 0.5, out=mid)
+        np.negative(mid, out=neg)
+        for j in range(n_terms):
+            part = total if j == 0 else term
+            np.divide(neg, tau_t[j], out=part)
+            np.exp(part, out=part)
+            np.multiply(gap_t[j], part, out=part)
+            np.add(target_t[j], part, out=part)
+            if j:
+                np.add(total, term, out=total)
+        np.greater_equal(total, lim, out=above)
+        np.copyto(up, mid, where=above)
+        np.copyto(lo, mid, where=~above)
+    return up
 
 
 class _CircuitResponse(NamedTuple):
@@ -652,11 +808,19 @@ def _compute_circuit_response(circuit, points_per_decade) -> _CircuitResponse:
     dt = np.diff(grid, axis=-1, prepend=0.0)
     heat = (1.0 - eff)[..., None] * np.diff(energy, axis=-1, prepend=0.0) / dt
     # Zero-state response of each term after each step (circuit shape, steps, terms).
-    zero = np.empty(grid.shape + r.shape[-1:])
+    # (foster_advance step by step: its target and decay factors for every step at once,
+    # then the recurrence, steps first so each step is one run of memory)
+    target = np.moveaxis(heat, -1, 0)[..., None] * r  # (steps, circuit, terms)
+    factor = np.exp(-np.moveaxis(dt, -1, 0)[..., None] / tau)
+    steps_first = np.empty(target.shape)
     state = np.zeros(r.shape)
+    gap = np.empty(r.shape)
     for k in range(n_steps + 1):
-        state = foster_advance(state, heat[..., k], dt[..., k], r, tau)
-        zero[..., k, :] = state
+        np.subtract(state, target[k], out=gap)
+        np.multiply(gap, factor[k], out=gap)
+        state = steps_first[k]
+        np.add(target[k], gap, out=state)
+    zero = np.ascontiguousarray(np.moveaxis(steps_first, 0, -2))
     free = np.exp(-grid[..., None] / tau[..., None, :])  # free decay of a unit initial state
     rise_zero = np.sum(zero, axis=-1)  # (circuit, steps)
     decay = np.sum(share[..., None, :] * free, axis=-1)  # (circuit, steps)

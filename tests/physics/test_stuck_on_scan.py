@@ -1,0 +1,163 @@
+"""The stuck-on scan's shortcuts in strobeplan.physics.supply give the full computation's bits.
+
+Oracles (the definitions the shortcuts replace, run here in full):
+
+- the full scan (every step of the stuck-on time grid: ``_scan`` with ``steps=None``) for
+  the scan restricted to ``_steps_that_matter``: the peak, its time, the first crossing of
+  the limit and the crossed flag must be equal bit for bit, on random step lines and on
+  candidates built right at the limit and right at ties between two steps;
+- ``foster_advance`` summed with ``np.sum`` (the crossing bisection's arithmetic before it
+  was laid out term by term) for ``_bisect_crossing``;
+- ``stuck_on_transient`` and ``burst_sag`` candidate by candidate (scalar calls) for the
+  same functions over a grid, where the grid's answer does not depend on its neighbours.
+"""
+
+import numpy as np
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from strobeplan.physics import supply, thermal
+
+
+def _lines(rng, n_steps, n_c, terms=3):
+    """(decay, zero-state rise, times) per step and circuit, shaped like the stuck-on
+    response: decay a sum of exponentials (shares of a Foster network) falling from ~1,
+    rise climbing to a plateau and, for some circuits, falling back (the dump's hump)."""
+    t = np.geomspace(1e-6, 100.0, n_steps)[:, None]  # (steps, 1)
+    share = rng.dirichlet(np.ones(terms), size=n_c)  # (c, terms)
+    tau = 10.0 ** rng.uniform(-5, 1.5, size=(n_c, terms))
+    decay = np.einsum("ct,kct->kc", share, np.exp(-t[:, :, None] / tau[None]))
+    top = rng.uniform(5.0, 200.0, size=n_c)
+    hump = rng.uniform(0.0, 1.5, size=n_c) * top
+    slow = 10.0 ** rng.uniform(-3, 1, size=n_c)
+    rise = top * (1.0 - np.exp(-t / slow)) + hump * (t / slow) * np.exp(1.0 - t / slow)
+    return decay, rise, np.broadcast_to(t, decay.shape).copy()
+
+
+def _same(a, b):
+    for x, y in zip(a, b, strict=True):
+        assert x.shape == y.shape and np.array_equal(x, y, equal_nan=x.dtype.kind == "f")
+
+
+@settings(max_examples=40, deadline=None)
+@given(seed=st.integers(0, 2**32 - 1), n_steps=st.integers(20, 400),
+       n_c=st.integers(1, 12), n_a=st.integers(1, 40),
+       spread=st.floats(0.0, 60.0), at_limit=st.floats(0.0, 1.0),
+       per_candidate_limit=st.booleans())
+def test_kept_steps_give_the_full_scans_bits(seed, n_steps, n_c, n_a, spread, at_limit,
+                                             per_candidate_limit):
+    rng = np.random.default_rng(seed)
+    d, z, g = _lines(rng, n_steps, n_c)
+    lim = np.full((n_a, n_c), rng.uniform(20.0, 250.0))
+    if per_candidate_limit:
+        lim = lim + rng.uniform(-5.0, 5.0, size=lim.shape)
+    r0 = rng.uniform(0.0, 1.0, size=(n_a, n_c)) * spread
+    # Candidates right at the limit: the start rise that puts step k exactly on it.
+    k = rng.integers(0, n_steps, size=(n_a, n_c))
+    cols = np.arange(n_c)[None, :]
+    with np.errstate(divide="ignore", over="ignore"):
+        exact = (lim - z[k, cols]) / d[k, cols]
+    pick = (rng.random((n_a, n_c)) < at_limit) & (exact >= 0) & (exact <= 2 * spread + 1)
+    r0 = np.where(pick, exact, r0)
+    # ... and right at a tie between two steps (their lines cross there).
+    i, j = rng.integers(0, n_steps, size=(2, n_a, n_c))
+    with np.errstate(divide="ignore", invalid="ignore"):
+        tie = (z[j, cols] - z[i, cols]) / (d[i, cols] - d[j, cols])
+    pick = (rng.random((n_a, n_c)) < 0.3) & np.isfinite(tie) & (tie >= 0) & (tie <= 200.0)
+    r0 = np.where(pick, tie, r0)
+    steps = supply._steps_that_matter(r0, lim, d, z)
+    _same(supply._scan(r0, lim, d, z, g, steps), supply._scan(r0, lim, d, z, g, None))
+
+
+def test_the_scan_keeps_few_steps_on_the_levitator_like_response():
+    # The point of the shortcut (not a tolerance: the bits are tested above): a realistic
+    # response keeps a small fraction of 341 steps.
+    rng = np.random.default_rng(7)
+    d, z, g = _lines(rng, 341, 50)
+    r0 = rng.uniform(0.0, 17.0, size=(100, 50))
+    lim = np.full(r0.shape, 100.0)
+    steps = supply._steps_that_matter(r0, lim, d, z)
+    assert steps is not None and steps.shape[1] < 341 // 4
+    _same(supply._scan(r0, lim, d, z, g, steps), supply._scan(r0, lim, d, z, g, None))
+
+
+def test_non_finite_inputs_scan_every_step():
+    rng = np.random.default_rng(3)
+    d, z, _ = _lines(rng, 100, 4)
+    r0 = rng.uniform(0.0, 10.0, size=(5, 4))
+    r0[2, 1] = np.nan
+    assert supply._steps_that_matter(r0, np.full(r0.shape, 50.0), d, z) is None
+
+
+@settings(max_examples=30, deadline=None)
+@given(seed=st.integers(0, 2**32 - 1), n=st.integers(1, 300), terms=st.integers(1, 9))
+def test_crossing_bisection_is_foster_advance_summed(seed, n, terms):
+    rng = np.random.default_rng(seed)
+    r = rng.uniform(0.1, 10.0, size=(n, terms))
+    tau = 10.0 ** rng.uniform(-6, 1, size=(n, terms))
+    state = rng.uniform(0.0, 50.0, size=(n, terms))
+    heat = rng.uniform(0.0, 20.0, size=n)
+    length = 10.0 ** rng.uniform(-7, 0, size=n)
+    end = np.sum(thermal.foster_advance(state, heat, length, r, tau), axis=-1)
+    start = np.sum(state, axis=-1)
+    lim = start + rng.uniform(0.0, 1.0, size=n) * (end - start)  # crossed inside
+    lo, up = np.zeros(n), length.copy()
+    for _ in range(60):  # the bisection as it was written with foster_advance
+        mid = 0.5 * (lo + up)
+        above = np.sum(thermal.foster_advance(state, heat, mid, r, tau), axis=-1) >= lim
+        up, lo = np.where(above, mid, up), np.where(above, lo, mid)
+    got = supply._bisect_crossing(state, heat, r, tau, lim, length)
+    assert np.array_equal(got, up)
+
+
+LEVITATOR_FIT = dict(n_vt=0.0913, saturation_current=2.2e-11, led_series_resistance=0.21)
+
+
+def test_stuck_on_grid_is_its_candidates_bit_for_bit():
+    # A grid of (resistor, voltage) circuits against a spread of starting temperatures:
+    # the grid's circuits share one time grid (the widest one needs the most steps), so the
+    # reference is the full scan on that same grid, forced by disabling the shortcut.
+    volts = np.array([12.0, 24.0, 36.0])[None, None, :]
+    ohms = np.array([0.5, 1.0, 2.2, 4.7, 10.0])[None, :, None]
+    start = 298.15 + np.linspace(0.0, 30.0, 17)[:, None, None]
+    args = dict(supply_voltage=volts, capacitance=10e-3, esr=0.05, series_resistor=ohms,
+                on_resistance=0.01, current_limit=0.5, efficiency=0.3,
+                resistances=[1.5, 3.0, 6.0, 15.0], time_constants=[20e-6, 2e-3, 80e-3, 20.0],
+                ambient=298.15, start_temperature=start, junction_max=398.15,
+                points_per_decade=32, **LEVITATOR_FIT)
+    fast = supply.stuck_on_transient(**args)
+    real = supply._steps_that_matter
+    supply._steps_that_matter = lambda *a: None
+    try:
+        supply.forget_circuits()
+        full = supply.stuck_on_transient(**args)
+    finally:
+        supply._steps_that_matter = real
+        supply.forget_circuits()
+    crossed = np.isfinite(full.time_to_limit)
+    assert crossed.any() and (~crossed).any()  # both verdicts occur
+    _same(fast, full)
+
+
+def test_burst_sag_grid_is_its_candidates_bit_for_bit():
+    # The first flash is solved once per circuit and broadcast over spacing and count;
+    # every candidate must still get what it gets alone (Charge balance, scalar calls).
+    width = np.array([2e-6, 8e-6, 20e-6])[:, None, None]
+    ohms = np.array([0.5, 2.2, 10.0])[None, :, None]
+    every = np.array([1, 2, 5, 8])[None, None, :]
+    spacing = every * 25e-6
+    n = np.maximum(40 // every, 1)
+    args = dict(capacitance=470e-6, esr=0.05, on_resistance=0.01, recharge_current=0.5,
+                **LEVITATOR_FIT)
+    grid = supply.burst_sag(24.0, args["capacitance"], args["esr"], ohms,
+                            args["on_resistance"], args["recharge_current"], width, spacing,
+                            n, args["n_vt"], args["saturation_current"],
+                            args["led_series_resistance"])
+    for idx in np.ndindex(3, 3, 4):
+        w, r, e = width[idx[0], 0, 0], ohms[0, idx[1], 0], idx[2]
+        one = supply.burst_sag(24.0, args["capacitance"], args["esr"], r,
+                               args["on_resistance"], args["recharge_current"], w,
+                               spacing[0, 0, e], n[0, 0, e], args["n_vt"],
+                               args["saturation_current"], args["led_series_resistance"])
+        for name, x in zip(one._fields, one, strict=True):
+            assert getattr(grid, name)[idx] == x, name
