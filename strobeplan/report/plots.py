@@ -116,6 +116,19 @@ def _eng(axis, unit: str, places: int | None = None):
         axis.set_minor_formatter(EngMinor(labelOnlyBase=False))
 
 
+def _ratio(axis):
+    """Plain numbers ("0.1", "20") on a log axis of a ratio, minor labels alike."""
+    from matplotlib.ticker import FuncFormatter, LogFormatter
+
+    axis.set_major_formatter(FuncFormatter(lambda x, _pos: f"{x:g}"))
+
+    class PlainMinor(LogFormatter):
+        def _num_to_string(self, x, vmin, vmax):
+            return f"{x:g}"
+
+    axis.set_minor_formatter(PlainMinor(labelOnlyBase=False))
+
+
 def _percent(axis):
     from matplotlib.ticker import PercentFormatter
 
@@ -500,7 +513,10 @@ def plot_tradeoff(plan, ax=None, result=None):
     snr = result.objective.startswith("image SNR")  # a ratio; else light per frame [A s]
     ax.set_ylabel(f"{result.objective} [1]" if snr else result.objective)
     _percent(ax.xaxis)
-    _eng(ax.yaxis, "" if snr else "A\N{MIDDLE DOT}s")
+    if snr:
+        _ratio(ax.yaxis)
+    else:
+        _eng(ax.yaxis, "A\N{MIDDLE DOT}s")
     ax.set_title(f"Design space: {result.candidates} candidates, {result.feasible} feasible",
                  fontsize="medium")
     ax.legend(loc="lower left", fontsize="x-small", framealpha=0.95)
