@@ -507,3 +507,63 @@ def test_image_plot_draws_the_cutoff_response(levitator):
 def test_image_plot_needs_a_layout():
     with pytest.raises(RigError):
         plots.plot(plain(), "image")
+
+
+# --- layout -----------------------------------------------------------------------------------
+
+
+def _inside(fig):
+    """Every drawn text and line of ``fig`` inside it, and two panels apart (the plots use a
+    fixed layout, not matplotlib's constrained one: this is what it must still keep)."""
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    renderer = FigureCanvasAgg(fig).get_renderer()
+    fig.draw(renderer)
+    width, height = fig.get_size_inches()
+    box = fig.get_tightbbox(renderer)  # [in]
+    assert box.x0 >= 0 and box.y0 >= 0 and box.x1 <= width and box.y1 <= height, box
+    boxes = [ax.get_tightbbox(renderer) for ax in fig.axes]
+    for upper, lower in zip(boxes, boxes[1:], strict=False):
+        assert upper.y0 >= lower.y1, (upper, lower)  # [px]: the panels do not overlap
+
+
+@pytest.mark.slow
+def test_every_plot_stays_inside_its_figure(all_figures):
+    figs = dict(all_figures)
+    for name in ("rangefinder-58k", "opposed-pair-40k"):
+        plan = solve(load_rig(example(name)))
+        for kind in plots.KINDS:
+            if kind != "tradeoff" and (kind != "divider" or plan.trigger_link is not None):
+                figs[f"{kind}-{name}"] = plots.plot(plan, kind)
+    figs["timing-plain"] = plots.plot(plain(phase="359 deg"), "timing")
+    for name, fig in figs.items():
+        try:
+            _inside(fig)
+        except AssertionError as exc:
+            raise AssertionError(f"{name}: {exc}") from None
+
+
+def test_log_axes_label_minor_ticks_in_the_major_notation(all_figures):
+    """A short log axis labels some minor ticks (matplotlib picks 2, 3, 4, 6 x 10^k): in the
+    major labels' notation, never mathtext ("3 x 10^1"): SI prefixes and the unit on an
+    engineering axis, plain numbers on the trade-off's SNR (a ratio, [1])."""
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    fig = all_figures["tradeoff"]
+    fig.draw(FigureCanvasAgg(fig).get_renderer())
+    ax = fig.axes[0]
+    minor = [t.get_text() for t in ax.yaxis.get_minorticklabels() if t.get_text()]
+    assert minor and all(float(t) > 0 for t in minor), minor  # plain numbers
+    assert ax.get_ylabel() == "image SNR per pixel per frame [1]"  # the levitator's camera
+
+    fig = Figure()
+    ax = fig.add_subplot()
+    ax.set_yscale("log")
+    ax.set_ylim(3e-3, 0.07)  # 3 mA s to 70 mA s: labelled minor ticks
+    plots._eng(ax.yaxis, "A\N{MIDDLE DOT}s")
+    fig.draw(FigureCanvasAgg(fig).get_renderer())
+    minor = [t.get_text() for t in ax.yaxis.get_minorticklabels() if t.get_text()]
+    major = [t.get_text() for t in ax.yaxis.get_majorticklabels() if t.get_text()]
+    assert "10 mA\N{MIDDLE DOT}s" in major
+    assert "20 mA\N{MIDDLE DOT}s" in minor and "4 mA\N{MIDDLE DOT}s" in minor, minor
+    assert not any("$" in t for t in minor + major)

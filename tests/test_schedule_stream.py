@@ -210,3 +210,97 @@ def test_too_long_a_schedule_is_refused_in_one_line():
     assert r.exit_code == 2
     assert "--steps" in r.stderr and "budget" in r.stderr
     assert len(r.stderr.strip().splitlines()) == 1 and "Traceback" not in r.stderr
+
+
+# --- the writers against the plain ones on random rows -----------------------------------------
+
+_FLOAT_COLUMNS = ("target_phase_deg", "achieved_phase_deg", "phase_error_deg", "edge_time_s",
+                  "smear")
+
+
+def _plain_json(sched) -> str:
+    """json.dumps of the whole document (plan.jsonable: NaN and infinities become null)."""
+    whole = {"format": "strobeplan.schedule", "version": 1, "mode": sched.mode,
+             "clock_hz": sched.clock_hz, "drive_period_ticks": sched.drive_period_ticks,
+             "flash_period_ticks": sched.flash_period_ticks,
+             "frame_period_ticks": sched.frame_period_ticks,
+             "rows": [jsonable(dict(zip(sched.COLUMNS, r, strict=True)))
+                      for r in sched.all_rows]}
+    return json.dumps(whole, indent=2, allow_nan=False) + "\n"
+
+
+def _plain_csv(sched) -> str:
+    """One cell at a time: '' for None, '%.6g' for a float, str() for an int."""
+    lines = [",".join(sched.COLUMNS)]
+    for r in sched.all_rows:
+        lines.append(",".join("" if v is None else (f"{v:.6g}" if isinstance(v, float)
+                                                    else str(v)) for v in r))
+    return "\n".join(lines) + "\n"
+
+
+class _Blocks:
+    """A stand-in for ScheduleRows: the given blocks of columns."""
+
+    def __init__(self, blocks):
+        self._blocks = blocks
+
+    def __len__(self):
+        return sum(len(b["frame"]) for b in self._blocks)
+
+    def blocks(self):
+        return iter(self._blocks)
+
+
+def _random_schedule(draw, sizes):
+    """A schedule of random blocks: ``draw(column, size)`` gives a column's values."""
+    blocks, rows = [], []
+    for size in sizes:
+        cols = {c: draw(c, size) for c in timing.Schedule.COLUMNS}
+        blocks.append(cols)
+        rows += list(zip(*(cols[c] for c in timing.Schedule.COLUMNS), strict=True))
+
+    class Sched:
+        COLUMNS = timing.Schedule.COLUMNS
+        mode, clock_hz = "sweep", 1e8
+        drive_period_ticks, flash_period_ticks, frame_period_ticks = 2500, 2500, None
+
+    Sched.rows, Sched.all_rows = _Blocks(blocks), rows
+    return Sched
+
+
+def test_writers_equal_the_plain_writers_on_random_rows():
+    """Byte for byte the plain writers on random rows: floats of every magnitude, -0.0,
+    NaN, infinities, a few distinct values repeated (the writer formats each distinct value
+    once), huge and negative ints, None in the flash columns, blocks of any size."""
+    import numpy as np
+
+    rng = np.random.default_rng(20261203)
+    special = np.array([0.0, -0.0, math.nan, math.inf, -math.inf, 5e-324,
+                        1.7976931348623157e308, 1e16, 1e-5, 123456789.0, 0.1, 1 / 3])
+
+    for trial in range(40):
+        def draw(column, size, trial=trial):
+            if column in _FLOAT_COLUMNS:
+                kind = (trial + _FLOAT_COLUMNS.index(column)) % 3
+                if kind == 0:  # distinct, of every magnitude
+                    x = rng.uniform(-1e3, 1e3, size) * 10.0 ** rng.integers(-30, 30, size)
+                elif kind == 1:  # a few values repeated: the gathered path
+                    x = rng.choice(rng.normal(0, 100, 7), size)
+                else:  # the special values among a few others
+                    x = rng.choice(np.r_[special, rng.normal(0, 1, 5)], size)
+                if trial % 2 == 0:  # half the trials without NaN or infinities
+                    x = np.where(np.isfinite(x), x, 0.5)
+                return [float(v) for v in x]
+            v = rng.integers(-2**62, 2**62, size).tolist()
+            if trial % 5 == 1:
+                v = [x * 2**70 for x in v]  # beyond int64
+            if column in ("first_flash_ticks", "flashes") and trial % 3 == 1:
+                v = [None if x % 4 == 0 else x for x in v]
+            if column == "flashes" and trial % 7 == 3:
+                v = [None] * size
+            return v
+
+        sizes = rng.integers(1, 200, rng.integers(1, 4)).tolist()
+        sched = _random_schedule(draw, sizes)
+        assert schedule_json(sched) == _plain_json(sched), trial
+        assert schedule_csv(sched) == _plain_csv(sched), trial

@@ -98,9 +98,8 @@ def _e(value) -> str:
 
 # --- figures ------------------------------------------------------------------------------
 
-_ID = re.compile(r'\bid="([^"]+)"')
-_HREF = re.compile(r'(\bhref=")#([^"]+)"')
-_URL = re.compile(r"url\(#([^)]+)\)")
+# One pass over the SVG for its ids and the three ways it refers to one.
+_REFS = re.compile(r'\b(id=")([^"]+)"|\b(href="#)([^"]+)"|(url\(#)([^)]+)\)')
 
 
 def figure_svg(fig, prefix: str, label: str | None = None) -> str:
@@ -117,10 +116,19 @@ def figure_svg(fig, prefix: str, label: str | None = None) -> str:
         fig.savefig(buf, format="svg", metadata={"Date": None})
     svg = buf.getvalue()
     svg = svg[svg.index("<svg"):]
-    svg = re.sub(r"\s*<metadata>.*?</metadata>", "", svg, flags=re.S)
-    svg = _ID.sub(lambda m: f'id="{prefix}-{m.group(1)}"', svg)
-    svg = _HREF.sub(lambda m: f'{m.group(1)}#{prefix}-{m.group(2)}"', svg)
-    svg = _URL.sub(lambda m: f"url(#{prefix}-{m.group(1)})", svg)
+    start = svg.find("<metadata>")
+    if start >= 0:
+        end = svg.index("</metadata>", start) + len("</metadata>")
+        svg = svg[:start].rstrip() + svg[end:]
+
+    def prefixed(m):
+        if m.group(1):
+            return f'id="{prefix}-{m.group(2)}"'
+        if m.group(3):
+            return f'href="#{prefix}-{m.group(4)}"'
+        return f"url(#{prefix}-{m.group(6)})"
+
+    svg = _REFS.sub(prefixed, svg)
     aria = f' aria-label="{_e(label)}"' if label else ""
     svg = svg.replace("<svg ", f'<svg id="{prefix}" role="img"{aria} ', 1)
     svg = svg.replace("<style type=\"text/css\">*{", f'<style type="text/css">#{prefix} *{{', 1)
@@ -378,7 +386,7 @@ def _preview(plan) -> str:
     except StrobeplanError as exc:
         return f'<p class="missing">No preview: {_e(str(exc))}</p>'
     sheet = contact_sheet(pv, tile=min(PREVIEW_PIXELS, pv.grid.nx))
-    png = base64.b64encode(_png_bytes(sheet, level=9)).decode()
+    png = base64.b64encode(_png_bytes(sheet, level=6)).decode()  # 9: 10 % smaller, 15x slower
     s = pv.summary
     notes = "".join(f"<li>{_e(f.code)}: {_e(f.message)}</li>" for f in pv.findings)
     return (f'<figure id="preview-sheet"><img alt="synthetic schlieren frames over the sweep" '

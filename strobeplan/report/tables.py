@@ -11,6 +11,8 @@ from __future__ import annotations
 import json
 import math
 
+import numpy as np
+
 _FLOATS = frozenset({"target_phase_deg", "achieved_phase_deg", "phase_error_deg",
                      "edge_time_s", "smear"})
 
@@ -33,37 +35,71 @@ def _csv_cell(v) -> str:
     return f"{v:.6g}" if isinstance(v, float) else str(v)
 
 
-def _block_rows(cols: dict, columns, fields, join: str, plain) -> str:
-    """Rows of one block through one %-template: ``fields[c]`` is (text before, the
-    %-conversion of its plain values, text after) for column c; a column holding other
-    values (None, NaN, infinities) goes through ``plain(value)`` and %s instead. Rows are
-    joined by ``join``."""
-    specs, values = [], []
-    for c in columns:
-        col = cols[c]
-        if c in _FLOATS:
-            ok = all(map(math.isfinite, col)) if plain is _json_number else True
+def _texts(col, floats: bool, spec: str, plain) -> list[str]:
+    """The cells of one column as text: ``spec % value`` each (floats ``"%r"`` in JSON,
+    ``"%.6g"`` in CSV; integers ``"%d"``), or ``plain(value)`` each when the column holds
+    a value the spec cannot write (None; in JSON a NaN or an infinity).
+
+    Most float columns repeat few values (an edge's time, the achieved phase and the smear
+    take at most one drive period's worth of values): each distinct value is formatted once
+    (numpy's unique over the values' bit patterns, so -0.0 and 0.0 stay apart) and the
+    texts gathered. A column of Python ints is written with ``int.__repr__`` (what ``"%d"``
+    gives an int).
+    """
+    kinds = set(map(type, col))
+    if not floats and kinds == {int}:
+        return list(map(int.__repr__, col))
+    if floats and kinds == {float}:
+        a = np.array(col, dtype=np.float64)
+        uniq, where = np.unique(a.view(np.int64), return_inverse=True)
+        values = uniq.view(np.float64).tolist()
+        json_ = plain is _json_number
+        write = float.__repr__ if json_ else spec.__mod__  # "%r" % a float is its repr
+        if json_ and not all(map(math.isfinite, values)):
+            texts = [write(v) if math.isfinite(v) else plain(v) for v in values]
+        elif 2 * len(values) > len(col):  # mostly distinct: no gain in gathering
+            return list(map(write, col))
         else:
-            ok = None not in col
-        before, spec, after = fields[c]
-        if ok:
-            specs.append(before + spec + after)
-            values.append(col)
-        else:
-            specs.append(before + "%s" + after)
-            values.append([plain(v) for v in col])
-    template = "".join(specs)
-    return join.join(map(template.__mod__, zip(*values, strict=True)))
+            texts = list(map(write, values))
+        return list(map(texts.__getitem__, where.ravel().tolist()))
+    if floats:
+        ok = all(map(math.isfinite, col)) if plain is _json_number else True
+    else:
+        ok = None not in col
+    return [spec % v for v in col] if ok else [plain(v) for v in col]
+
+
+def _block_rows(cols: dict, columns, pieces, end: str, plain, spec_float: str) -> str:
+    """Rows of one block: row i is ``pieces[0] + cell(0, i) + pieces[1] + ... +
+    cell(m-1, i) + pieces[m]``, with ``end`` in place of the last row's ``pieces[m]``.
+
+    The cells are :func:`_texts` of each column; the rows are interleaved with the fixed
+    pieces by slice assignment into one list and joined once (a %-template per row cost
+    twice as much: every float of every row went through repr).
+    """
+    n = len(cols[columns[0]])
+    if not n:
+        return ""
+    m = len(columns)
+    width = 2 * m + 1
+    parts: list = [None] * (n * width)
+    for j, c in enumerate(columns):
+        parts[2 * j::width] = [pieces[j]] * n
+        floats = c in _FLOATS
+        parts[2 * j + 1::width] = _texts(cols[c], floats, spec_float if floats else "%d",
+                                         plain)
+    parts[2 * m::width] = [pieces[m]] * n
+    parts[-1] = end
+    return "".join(parts)
 
 
 def iter_schedule_csv(sched):
     """The CSV (header row, then one row per frame) as chunks of text."""
     columns = sched.COLUMNS
     yield ",".join(columns) + "\n"
-    fields = {c: ("," if i else "", "%.6g" if c in _FLOATS else "%d", "")
-              for i, c in enumerate(columns)}
+    pieces = [""] + [","] * (len(columns) - 1) + ["\n"]
     for cols in sched.rows.blocks():
-        yield _block_rows(cols, columns, fields, "\n", _csv_cell) + "\n"
+        yield _block_rows(cols, columns, pieces, "\n", _csv_cell, "%.6g")
 
 
 def iter_schedule_json(sched):
@@ -82,14 +118,12 @@ def iter_schedule_json(sched):
     assert text.endswith('"rows": []\n}')
     yield text[:-len("[]\n}")] + "[\n"
     columns = sched.COLUMNS
-    last = len(columns) - 1
-    fields = {c: (("    {\n" if i == 0 else "") + f"      {json.dumps(c)}: ",
-                  "%r" if c in _FLOATS else "%d", ",\n" if i < last else "\n    }")
-              for i, c in enumerate(columns)}
-    sep = ""
-    for cols in sched.rows.blocks():
-        yield sep + _block_rows(cols, columns, fields, ",\n", _json_number)
-        sep = ",\n"
+    pieces = [("    {\n" if i == 0 else ",\n") + f"      {json.dumps(c)}: "
+              for i, c in enumerate(columns)] + ["\n    },\n"]
+    for k, cols in enumerate(sched.rows.blocks()):
+        if k:
+            yield ",\n"  # its own chunk: no copy of the block to prepend it
+        yield _block_rows(cols, columns, pieces, "\n    }", _json_number, "%r")
     yield "\n  ]\n}\n"
 
 
