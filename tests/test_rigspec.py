@@ -21,6 +21,7 @@ from hypothesis import strategies as st
 from strobeplan import rig, rigmodels, rigspec
 from strobeplan.errors import RigError
 from tests.conftest import BASES, EXAMPLES, example
+from tests.test_fuzz import _paths
 
 
 def _fields_sets(section, at="") -> dict:
@@ -127,17 +128,6 @@ OPTIONAL_TABLES = {
     "air": {"temperature_range": ["18 degC", "28 degC"], "co2": "500 ppm"},
     "reflector": [{"position": ["0 mm", "0 mm", "120 mm"], "normal": [0, 0, -1]}],
 }
-
-
-def _paths(node, prefix=()):
-    if isinstance(node, dict):
-        for k, v in node.items():
-            yield prefix + (k,)
-            yield from _paths(v, prefix + (k,))
-    elif isinstance(node, list):
-        for i, v in enumerate(node):
-            yield prefix + (i,)
-            yield from _paths(v, prefix + (i,))
 
 
 def _rescaled(value, factor: float, step: int):
