@@ -512,9 +512,25 @@ def _alias_check(spec, f_row, f_col, phases, orders, main, noise_floor):
     return hits
 
 
+def _fit_sample(z, mask, grid, limit=60000):
+    """Every n-th masked pixel (at most ``limit``): (rows, cols, x, y, values, n)."""
+    ys, xs = np.nonzero(mask)
+    stride = max(1, ys.size // limit)
+    ys, xs = ys[::stride], xs[::stride]
+    x = (xs - (grid.nx - 1) / 2.0) * grid.pixel_m
+    y = ((grid.ny - 1) / 2.0 - ys) * grid.pixel_m
+    return ys, xs, x, y, z[ys, xs], stride
+
+
 def _wave_vector(z, mask, grid, kind_hint=None):
     """Measured in-plane wave vector (k_u, k_v) [rad/m], its magnitude's sigma, the kind
-    ('travelling' or 'standing'), how it was measured, and the spectrum data."""
+    ('travelling' or 'standing'), how it was measured, and the spectrum data.
+
+    The wave vector is refined in both components by the least-squares fit of a wave, its
+    counter-wave and a uniform phasor (what frame-to-frame light changes leave on the map)
+    over the masked pixels; a standing wave keeps that fit, a travelling one is measured
+    from the phase gradient of the map less the uniform phasor (which follows a curved
+    wavefront)."""
     pix = grid.pixel_m
     f_row, f_col, main, mirror, spec = _spectrum_peak(z, mask)
     standing = mirror >= 0.3 * main
@@ -522,11 +538,34 @@ def _wave_vector(z, mask, grid, kind_hint=None):
     k_u0 = -2 * math.pi * f_col / pix
     k_v0 = 2 * math.pi * f_row / pix
     k0 = math.hypot(k_u0, k_v0)
-    lam_px = 2 * math.pi / max(k0 * pix, 1e-12)
     info = {"f_row": f_row, "f_col": f_col, "main": main, "spec": spec}
+    ys, xs, x, y, zz, stride = _fit_sample(z, mask, grid)
+    if ys.size < 10 or not k0 > 0:
+        return None
+    n_fit = max(1, zz.size - 6)
+
+    def rss_vec(kvec):
+        rms = demod.two_wave_fit(zz, x, y, kvec[0], kvec[1], constant=True)[3]
+        return rms**2 * n_fit
+
+    # the spectrum's peak is only a start: a picture of few cycles locates it to a few per
+    # cent; the fit refines both components
+    from scipy.optimize import minimize
+
+    step = 0.03 * k0
+    best = minimize(rss_vec, np.array([k_u0, k_v0]), method="Nelder-Mead",
+                    options={"xatol": 1e-5 * k0, "fatol": 0.0, "maxiter": 400,
+                             "initial_simplex": [[k_u0, k_v0], [k_u0 + step, k_v0],
+                                                 [k_u0, k_v0 + step]]})
+    k_fit = float(np.hypot(*best.x))
+    direction = np.asarray(best.x, dtype=float) / k_fit
+    alpha, beta, _, _, gamma = demod.two_wave_fit(zz, x, y, best.x[0], best.x[1],
+                                                  constant=True)
+    info["uniform"] = gamma
     if not standing:
+        lam_px = 2 * math.pi / max(k_fit * pix, 1e-12)
         step = max(1, int(round(lam_px / 8)))
-        g_col, g_row = demod.phase_gradient(z, step)
+        g_col, g_row = demod.phase_gradient(z - gamma, step)
         both = mask[:-step, :-step] & mask[:-step, step:] & mask[step:, :-step]
         if both.sum() < 10:
             return None
@@ -557,33 +596,8 @@ def _wave_vector(z, mask, grid, kind_hint=None):
         k_u, k_v = -dc * scale / pix, dr * scale / pix  # direction from the mean vector
         sigma = sd / math.sqrt(max(n_tiles, 1)) / pix
         return k_u, k_v, sigma, "travelling", "phase gradient", info
-    # standing: the wave number that best fits a wave plus its counter-wave (node pattern)
-    ys, xs = np.nonzero(mask)
-    if ys.size < 10:
-        return None
-    stride = max(1, ys.size // 60000)
-    ys, xs = ys[::stride], xs[::stride]
-    x = (xs - (grid.nx - 1) / 2.0) * pix
-    y = ((grid.ny - 1) / 2.0 - ys) * pix
-    zz = z[ys, xs]
-    n_fit = max(1, zz.size - 4)
 
-    def rss_vec(kvec):
-        a, b, _, rms = demod.two_wave_fit(zz, x, y, kvec[0], kvec[1])
-        return rms**2 * n_fit
-
-    # the wave vector in both components (the spectrum's peak is only a start: a picture of
-    # few cycles locates it to a few per cent), then the magnitude's curvature for sigma
-    from scipy.optimize import minimize
-
-    step = 0.03 * k0
-    best = minimize(rss_vec, np.array([k_u0, k_v0]), method="Nelder-Mead",
-                    options={"xatol": 1e-5 * k0, "fatol": 0.0, "maxiter": 400,
-                             "initial_simplex": [[k_u0, k_v0], [k_u0 + step, k_v0],
-                                                 [k_u0, k_v0 + step]]})
-    k_fit = float(np.hypot(*best.x))
-    direction = np.asarray(best.x, dtype=float) / k_fit
-
+    # standing: the node pattern's wave number, its sigma from the fit's curvature
     def rss(k):
         return rss_vec(k * direction)
 
@@ -626,14 +640,9 @@ def _image_wavelength(rig, plan, grid, z, zs, good, k_u, k_v, kind, notes):
     with theta the pressure's phase at the view (preview's frame convention), so the
     frames' contrast is S E exp(-i theta) exp(i delta) for a wave delta late.
     """
-    ys, xs = np.nonzero(good)
-    if ys.size < 50:
+    if int(good.sum()) < 50:
         return None, None
-    stride = max(1, ys.size // 60000)
-    ys, xs = ys[::stride], xs[::stride]
-    x = (xs - (grid.nx - 1) / 2.0) * grid.pixel_m
-    y = ((grid.ny - 1) / 2.0 - ys) * grid.pixel_m
-    zz = z[ys, xs]
+    ys, xs, x, y, zz, _ = _fit_sample(z, good, grid)
     *_, rms = demod.two_wave_fit(zz, x, y, k_u, k_v)
     noise2 = 2.0 * float(np.mean(zs[ys, xs] ** 2))
     chi2 = rms**2 / noise2 if noise2 > 0 else math.inf
@@ -846,7 +855,7 @@ def analyse_frames(rig, frames_or_paths, phases_deg=None, *, plan=None, dark=Non
 
     wave = None
     if good.sum() >= 50:
-        wave = _wave_vector(z, good, grid)
+        wave = _wave_vector(contrast, good, grid)
     summary_wave = None
     view_block = None
     calib = None
@@ -872,8 +881,13 @@ def analyse_frames(rig, frames_or_paths, phases_deg=None, *, plan=None, dark=Non
         if rod:  # the second harmonic shows the wave at twice its spatial frequency
             k_u, k_v, k_sigma = k_u / 2, k_v / 2, k_sigma / 2
         k = math.hypot(k_u, k_v)
+        # the uniform phasor the fit found (frame-to-frame light changes) leaves the map
+        uniform = complex(info.get("uniform", 0.0))
+        contrast = contrast - uniform
+        with np.errstate(divide="ignore", invalid="ignore"):
+            contrast_sigma = np.where(background > 0, zs / background, np.nan)
         image, model_map = (None, None) if rod else _image_wavelength(
-            rig, plan, grid, z, zs, good, k_u, k_v, wave_kind, notes)
+            rig, plan, grid, contrast, contrast_sigma, good, k_u, k_v, wave_kind, notes)
         factor = image["factor"] if image is not None and image["applied"] else 1.0
         lam = 2 * math.pi / k * factor
         lam_sigma = lam * k_sigma / k
@@ -900,6 +914,7 @@ def analyse_frames(rig, frames_or_paths, phases_deg=None, *, plan=None, dark=Non
             "planned_air_temperature_c": a.temperature - ZERO_CELSIUS,
             "pixels_used": int(good.sum()),
             "image_wavelength_m": 2 * math.pi / k,
+            "uniform_contrast": [uniform.real, uniform.imag],
             "wavelength_model": image,
         }
         view_block, calib, pressure, deflection = _at_view(

@@ -386,8 +386,10 @@ def robust_mean(values, clip=4.0, rounds=3):
     return float(x.mean()), float(x.std(ddof=1)) if x.size > 1 else math.nan, int(x.size)
 
 
-def two_wave_fit(z, x, y, kx, ky, weights=None):
-    """Fit Z = alpha exp(-i k.r) + beta exp(+i k.r) (a wave and its counter-wave).
+def two_wave_fit(z, x, y, kx, ky, weights=None, constant=False):
+    """Fit Z = alpha exp(-i k.r) + beta exp(+i k.r) (a wave and its counter-wave), plus a
+    uniform phasor gamma when ``constant`` (what flash-to-flash or frame-to-frame light
+    changes leave on a harmonic's map: the same complex number at every pixel).
 
     Parameters
     ----------
@@ -399,6 +401,8 @@ def two_wave_fit(z, x, y, kx, ky, weights=None):
         Wave vector of the forward wave. [rad/m]
     weights : ndarray, optional
         Weights of the samples. [1]
+    constant : bool
+        Fit the uniform phasor gamma too (returned last). [1]
 
     Returns
     -------
@@ -408,6 +412,8 @@ def two_wave_fit(z, x, y, kx, ky, weights=None):
         Covariance of (alpha, beta) from the residuals. [any^2]
     rms : float
         Root-mean-square residual. [any]
+    gamma : complex
+        The uniform phasor (only when ``constant``). [any]
 
     References
     ----------
@@ -416,15 +422,20 @@ def two_wave_fit(z, x, y, kx, ky, weights=None):
     """
     zz = np.asarray(z).reshape(-1)
     ph = kx * np.asarray(x, float).reshape(-1) + ky * np.asarray(y, float).reshape(-1)
-    a = np.stack([np.exp(-1j * ph), np.exp(1j * ph)], axis=1)
+    cols = [np.exp(-1j * ph), np.exp(1j * ph)]
+    if constant:
+        cols.append(np.ones(ph.shape, dtype=complex))
+    a = np.stack(cols, axis=1)
     w = np.ones(zz.shape) if weights is None else np.asarray(weights, float).reshape(-1)
     sw = np.sqrt(w)
     sol, *_ = np.linalg.lstsq(a * sw[:, None], zz * sw, rcond=None)
     resid = zz - a @ sol
-    dof = max(1, zz.size - 2)
+    dof = max(1, zz.size - len(cols))
     var = float(np.sum(w * np.abs(resid) ** 2) / np.sum(w) * zz.size / dof)
     aw = a * sw[:, None]
-    cov = var * np.linalg.inv(aw.conj().T @ aw).real
+    cov = var * np.linalg.pinv(aw.conj().T @ aw).real[:2, :2]
+    if constant:
+        return complex(sol[0]), complex(sol[1]), cov, math.sqrt(var), complex(sol[2])
     return complex(sol[0]), complex(sol[1]), cov, math.sqrt(var)
 
 
