@@ -199,6 +199,7 @@ class Stack:
     colour: bool
     clipped: np.ndarray       # (ny, nx) bool: a frame reached the top grey level
     sources: list = field(default_factory=list)
+    levels: np.ndarray | None = None  # (N,) each frame's mean level, less the dark [grey]
 
     @property
     def shape(self):
@@ -226,7 +227,7 @@ def _load_single(path, name: str, shape=None) -> np.ndarray:
     return grey
 
 
-def demodulate(frames, phases, orders=(1, 2), dark=None) -> Stack:
+def demodulate(frames, phases, orders=(1, 2), dark=None, gains=None) -> Stack:
     """Accumulate the least-squares normal equations frame by frame and solve them.
 
     Parameters
@@ -239,6 +240,9 @@ def demodulate(frames, phases, orders=(1, 2), dark=None) -> Stack:
         Harmonics to fit (limited to what the frame count resolves).
     dark : ndarray, optional
         Dark frame subtracted from each frame. [grey]
+    gains : sequence of float, optional
+        Each frame (less the dark) is divided by its gain (frame-to-frame light changes,
+        :func:`frame_gains`). [1]
     """
     phases = np.asarray(phases, dtype=float)
     n = len(phases)
@@ -267,6 +271,7 @@ def demodulate(frames, phases, orders=(1, 2), dark=None) -> Stack:
     count = 0
     where0 = ""
     sources = []
+    levels: list[float] = []
 
     def flush():
         nonlocal moments, sumsq
@@ -290,6 +295,8 @@ def demodulate(frames, phases, orders=(1, 2), dark=None) -> Stack:
                                  f"{shape[1]} x {shape[0]} like the frames")
             _check_workload(n, grey.size)
             first = grey - dark if dark is not None else grey.copy()
+            if gains is not None:
+                first /= gains[0]
             npix = first.size
             moments = np.zeros((p, npix))
             sumsq = np.zeros(npix)
@@ -306,9 +313,14 @@ def demodulate(frames, phases, orders=(1, 2), dark=None) -> Stack:
         clipped |= grey >= (2**bits - 1)
         colour_any |= colour
         row = buf[len(rows)].reshape(first.shape)
-        np.subtract(grey, first, out=row)  # (grey - dark) - first: first is dark-free
         if dark is not None:
-            row -= dark
+            np.subtract(grey, dark, out=row)
+        else:
+            row[...] = grey
+        levels.append(float(row.mean()))
+        if gains is not None:
+            row /= gains[count]
+        row -= first  # first is dark-free (and gain-free)
         rows.append(count)
         sources.append(where)
         count += 1
@@ -326,7 +338,37 @@ def demodulate(frames, phases, orders=(1, 2), dark=None) -> Stack:
     coef[0] += first  # the fit ran on frames minus the first one
     return Stack(coefficients=coef, variance=var.reshape(first.shape), gram=gram,
                  orders=orders, frames=n, bits=bits0, colour=colour_any, clipped=clipped,
-                 sources=sources)
+                 sources=sources, levels=np.asarray(levels))
+
+
+LEVEL_NOISE_RATIO = 5.0  # frame levels scattering over 5 x what the pixels' noise explains
+LEVEL_FLOOR = 1e-4  # ... and over 0.01 % of the mean level: the light changes frame to frame
+
+
+def frame_gains(stack: Stack, phases) -> tuple[np.ndarray | None, float]:
+    """Frame-to-frame light changes from the frames' mean levels: (the gains to divide the
+    frames by, or None when the levels scatter no more than the noise explains; their rms
+    relative to the mean [1]).
+
+    The levels are fitted with the same harmonics as the pixels: the wave's own mean over
+    the picture (and any change that follows the phase) stays; what is left over is a
+    change of the whole frame's light (flash energy, camera gain), which otherwise
+    inflates every pixel's residual and so its noise estimate.
+    """
+    levels = np.asarray(stack.levels, dtype=float)
+    basis = demod.harmonic_basis(np.asarray(phases, dtype=float), stack.orders)
+    coef, *_ = np.linalg.lstsq(basis, levels, rcond=None)
+    resid = levels - basis @ coef
+    mean = float(coef[0])
+    if not mean > 0:
+        return None, 0.0
+    dof = max(1, levels.size - basis.shape[1])
+    rms = math.sqrt(float(resid @ resid) / dof) / mean
+    pixels = int(np.prod(stack.shape))
+    expected = math.sqrt(float(np.median(stack.variance)) / max(pixels, 1)) / mean
+    if rms <= max(LEVEL_NOISE_RATIO * expected, LEVEL_FLOOR):
+        return None, rms
+    return 1.0 + resid / mean, rms
 
 
 # --- results ---------------------------------------------------------------------------------
@@ -458,7 +500,9 @@ def _spectrum_peak(z, mask):
     bins; there the peak is located again on a windowed, zero-padded spectrum of a copy
     reduced to at most 64 pixels a side (the wave spans over a third of the picture, so
     the reduction cannot alias it)."""
-    zz = np.where(mask, z, 0.0)
+    # less the masked mean: a uniform phasor would leak from zero frequency through the
+    # mask's own pattern
+    zz = np.where(mask, z - (np.mean(z[mask]) if mask.any() else 0.0), 0.0)
     spec = np.abs(np.fft.fft2(zz))
     ny, nx = spec.shape
     fr = np.fft.fftfreq(ny)
@@ -549,6 +593,10 @@ def _wave_vector(z, mask, grid, kind_hint=None):
     n_fit = max(1, zz.size - 6)
 
     def rss_vec(kvec):
+        # within a factor 2 of the spectrum's estimate: towards zero the waves and the
+        # uniform phasor become one and the same
+        if not 0.5 * k0 < math.hypot(kvec[0], kvec[1]) < 2.0 * k0:
+            return math.inf
         rms = demod.two_wave_fit(zz, x, y, kvec[0], kvec[1], constant=True)[3]
         return rms**2 * n_fit
 
@@ -819,6 +867,12 @@ def analyse_frames(rig, frames_or_paths, phases_deg=None, *, plan=None, dark=Non
                          "needs at least 5 frames")
     dark_arr = _as_picture(dark, "--dark")
     stack = demodulate(items, phases, orders, dark=dark_arr)
+    gains, level_rms = frame_gains(stack, phases)
+    if gains is not None:
+        stack = demodulate(items, phases, orders, dark=dark_arr, gains=gains)
+        notes.append(f"the frames' light changes from frame to frame by {level_rms:.2%} rms "
+                     "beyond what the wave and the noise explain (flash energy, camera "
+                     "gain): each frame is divided by its level before the fit")
     shape = stack.shape
     if dark_arr is not None and dark_arr.shape != shape:
         raise FrameError("--dark: size differs from the frames")
@@ -860,6 +914,22 @@ def analyse_frames(rig, frames_or_paths, phases_deg=None, *, plan=None, dark=Non
     wave = None
     if good.sum() >= 50:
         wave = _wave_vector(contrast, good, grid)
+    if wave is not None:
+        # a uniform phasor (frame-to-frame light changes) adds to the wave on one side of
+        # each node and cancels it on the other, so the SNR mask it leaves repeats once a
+        # wavelength and can mislead the spectrum: with a noticeable one, the mask is made
+        # again from the map without it and the wave measured again
+        uniform = complex(wave[5].get("uniform", 0.0))
+        level = float(np.median(np.abs(contrast[good])))
+        if abs(uniform) > 0.05 * level:
+            with np.errstate(divide="ignore", invalid="ignore"):
+                snr = np.abs(z - uniform * background) / zs
+            again = (snr >= snr_threshold) & ~stack.clipped & (background > 0) \
+                & np.isfinite(contrast)
+            if again.sum() >= 50:
+                second = _wave_vector(contrast, again, grid)
+                if second is not None:
+                    wave, good = second, again
     summary_wave = None
     view_block = None
     calib = None
@@ -941,6 +1011,8 @@ def analyse_frames(rig, frames_or_paths, phases_deg=None, *, plan=None, dark=Non
                               if stack.colour else "grey"),
                    "dark": dark is not None, "flat": flat is not None,
                    "phases_from": phases_from,
+                   "level_changes_rms": level_rms,
+                   "levels_normalised": gains is not None,
                    "phases_deg": [float(x) for x in np.degrees(phases)]},
         "grid": {"pixel_m": grid.pixel_m, "pixel_from": scale_from, "width_px": grid.nx,
                  "height_px": grid.ny,

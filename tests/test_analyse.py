@@ -572,3 +572,28 @@ def test_flash_to_flash_light_changes_leave_a_uniform_phasor(lev, kind):
     expected = complex(coef[2], coef[1])  # Im[Z exp(i phi)] = a cos phi + b sin phi
     got_u = complex(*a["wave"]["uniform_contrast"])
     assert abs(got_u - expected) < 0.1 * abs(expected)
+    # the rest of the gain series is taken out frame by frame: its rms is the series' own
+    # (1 % drawn; the sample's scatter about its harmonic fit, computed here)
+    assert a["frames"]["levels_normalised"]
+    resid = gain / gain.mean() - basis @ coef
+    sample = math.sqrt(float(resid @ resid) / (len(phases) - basis.shape[1]))
+    assert a["frames"]["level_changes_rms"] == pytest.approx(sample, rel=0.1)
+    # steady light: nothing is normalised
+    steady = analyse_frames(rig, plane_stack(rig, plan, grid, phases, kind=kind, noise=50.0,
+                                             contrast=0.03, seed=1), plan=plan).summary
+    assert not steady["frames"]["levels_normalised"]
+
+
+def test_two_percent_light_changes_keep_the_wave(lev):
+    # at 2 % rms the changes swamp each pixel's noise estimate (50 grey of noise against
+    # 400 of light change) unless the frames are divided by their levels
+    rig, plan, grid, phases = lev
+    lam = plan.air.speed_of_sound_m_s / plan.timing.drive_frequency_hz
+    for seed in range(3):
+        frames = plane_stack(rig, plan, grid, phases, kind="standing", noise=50.0,
+                             contrast=0.03, seed=seed).astype(float)
+        gain = 1 + np.random.default_rng(100 + seed).normal(0, 0.02, len(phases))
+        frames = np.clip(np.rint(frames * gain[:, None, None]), 0, 65535).astype(np.uint16)
+        a = analyse_frames(rig, frames, plan=plan).summary
+        assert a["wave"]["wavelength_m"] == pytest.approx(lam, rel=0.002)
+        assert abs(a["view"]["phase_difference_deg"]) < 3.0
