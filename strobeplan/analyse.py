@@ -48,6 +48,7 @@ from .physics import acoustics, demod
 from .physics.air import ZERO_CELSIUS
 from .plan import PictureRule
 from .safetext import clean
+from .workload import require_frames
 
 IMAGE_SUFFIXES = (".png", ".tif", ".tiff")
 LUMA_BT709 = (0.2126, 0.7152, 0.0722)  # ITU-R BT.709 luma weights on R, G, B (as stored)
@@ -293,7 +294,7 @@ def demodulate(frames, phases, orders=(1, 2), dark=None, gains=None) -> Stack:
             if dark is not None and dark.shape != shape:
                 raise FrameError(f"--dark: {dark.shape[1]} x {dark.shape[0]} pixels, expected "
                                  f"{shape[1]} x {shape[0]} like the frames")
-            _check_workload(n, grey.size)
+            require_frames(n, grey.size)
             first = grey - dark if dark is not None else grey.copy()
             if gains is not None:
                 first /= gains[0]
@@ -570,7 +571,7 @@ def _fit_sample(z, mask, grid, limit=60000):
     return ys, xs, x, y, z[ys, xs], stride
 
 
-def _wave_vector(z, mask, grid, kind_hint=None):
+def _wave_vector(z, mask, grid):
     """Measured in-plane wave vector (k_u, k_v) [rad/m], its magnitude's sigma, the kind
     ('travelling' or 'standing'), how it was measured, and the spectrum data.
 
@@ -890,7 +891,8 @@ def analyse_frames(rig, frames_or_paths, phases_deg=None, *, plan=None, dark=Non
     with np.errstate(divide="ignore", invalid="ignore"):
         snr = np.abs(z) / zs
         contrast = np.where(background > 0, z / background, np.nan)
-    good = (snr >= snr_threshold) & ~stack.clipped & (background > 0) & np.isfinite(contrast)
+    usable = ~stack.clipped & (background > 0) & np.isfinite(contrast)
+    good = (snr >= snr_threshold) & usable
     clipped_frac = float(stack.clipped.mean())
     if clipped_frac > 1e-3:
         findings.append(_finding("analyse.clipped",
@@ -924,8 +926,7 @@ def analyse_frames(rig, frames_or_paths, phases_deg=None, *, plan=None, dark=Non
         if abs(uniform) > 0.05 * level:
             with np.errstate(divide="ignore", invalid="ignore"):
                 snr = np.abs(z - uniform * background) / zs
-            again = (snr >= snr_threshold) & ~stack.clipped & (background > 0) \
-                & np.isfinite(contrast)
+            again = (snr >= snr_threshold) & usable
             if again.sum() >= 50:
                 second = _wave_vector(contrast, again, grid)
                 if second is not None:
@@ -1098,17 +1099,10 @@ def _count_pictures(paths) -> int:
 
 def _require_workload(count, items):
     if isinstance(items, np.ndarray):
-        _check_workload(count, int(np.prod(items.shape[1:])))
+        require_frames(count, int(np.prod(items.shape[1:])))
     elif items and isinstance(items[0], np.ndarray):
-        _check_workload(count, int(items[0].size))
+        require_frames(count, int(items[0].size))
     # files: checked once the first frame is decoded (demodulate)
-
-
-def _check_workload(count, pixels):
-    """Refuse a stack above the budget before the work (README "Limits")."""
-    from .workload import require_frames
-
-    require_frames(count, pixels)
 
 
 def _as_picture(value, name, shape=None):

@@ -439,8 +439,6 @@ def analyse(rig, frames, outdir, phases, dark, flat, lens, lens_focal_length, pi
         raise InputError(f"--lens-focal-length {lens_focal_length!r}: expected a positive "
                          "length")
     pixel = _quantity(pixel_size, "length", "--pixel-size") if pixel_size else None
-    if pixel is not None and not (math.isfinite(pixel) and pixel > 0):
-        raise InputError(f"--pixel-size {pixel_size!r}: expected a positive length")
     _check_output(write_rig, rig)
     out = None
     if outdir is not None:

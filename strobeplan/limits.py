@@ -25,6 +25,7 @@ OPTIONS: dict[str, str | tuple[str, dict[str, float]]] = {
     "--min-retention": "strobe.min_retention",
     "--min-margin": ("temperature_difference", {"ge": 0.0, "lt": 300.0}),
     "--max-blur": "camera.max_blur",
+    "--pixel-size": "camera.object_pixel",
     "--resistor-range": "supply.series_resistor",
     "--supply-range": "supply.voltage",
 }

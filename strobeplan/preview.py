@@ -49,7 +49,7 @@ from .viewgrid import ViewGrid, view_grid
 from .workload import MAX_PREVIEW_BYTES, MAX_PREVIEW_SECONDS
 
 __all__ = ["Preview", "PreviewError", "render_preview", "write_preview", "estimate_work",
-           "PREVIEW_RULES", "LATTICE_FRACTION", "MAX_FRAMES", "MAX_WORK"]
+           "PREVIEW_RULES", "LATTICE_FRACTION", "MAX_FRAMES"]
 
 LATTICE_FRACTION = los.LATTICE_FRACTION
 ORDER = los.DEFAULT_ORDER
@@ -59,8 +59,6 @@ FIELD_POINT_SECONDS = 6e-7
 """Cost of one piston at one lattice point (bench/bench_preview.py measured 4.5e-7 s)."""
 PIXEL_FRAME_SECONDS = 1.5e-7
 """Cost of one pixel of one frame with noise (bench/bench_preview.py measured 1.1e-7 s)."""
-MAX_WORK = MAX_PREVIEW_SECONDS  # the budgets live in strobeplan.workload
-MAX_BYTES = MAX_PREVIEW_BYTES
 SATURATED_FRACTION = 0.01  # cutoff clipping in more than 1 % of the view: a finding
 DARK_FRACTION = 0.5  # more than half the view below the SNR threshold: a finding
 LIGHT_SAMPLING = 4  # samples per sound wavelength along the light, at least
@@ -85,34 +83,32 @@ class Preview:
     rig_name: str = ""
 
 
-PreviewRule = PictureRule  # the picture rules' one type (strobeplan.plan)
-
 PREVIEW_RULES = (
-    PreviewRule("preview.cutoff_saturated", "warning",
+    PictureRule("preview.cutoff_saturated", "warning",
                 "The wave saturates the cutoff in part of the view (the source image moves "
                 "wholly onto or off the knife or rod; the picture clips there)",
                 "lower the drive (SPL), cut less of the source image, widen the source or "
                 "shorten the focal length f2"),
-    PreviewRule("preview.below_snr", "warning",
+    PictureRule("preview.below_snr", "warning",
                 "Most of the view is below the SNR threshold (the wave will not stand out "
                 "of the noise)",
                 "more light (current, pulse width, flashes per frame), a larger source, "
                 "binning or averaging frames, or a more sensitive cutoff"),
-    PreviewRule("preview.double_image", "warning",
+    PictureRule("preview.double_image", "warning",
                 "The double-pass image overlaps itself: its two copies, offset by the "
                 "source-cutoff separation, add with a shift and blur or cancel the wave",
                 "use a beamsplitter on the axis (source_separation = 0) or put the test "
                 "region close to the mirror (smaller test_distance)"),
-    PreviewRule("preview.light_sampling", "warning",
+    PictureRule("preview.light_sampling", "warning",
                 "The sampling along the light axis is too coarse for the sound wavelength "
                 "(the line-of-sight integral aliases)",
                 "raise [view].samples or shorten [view].depth"),
-    PreviewRule("preview.view_sampling", "warning",
+    PictureRule("preview.view_sampling", "warning",
                 "The pixels are too coarse for the sound wavelength (the picture aliases the "
                 "wave)",
                 "a longer camera lens, or a narrower [view] with the object pixel of the "
                 "image chain"),
-    PreviewRule("preview.no_image_chain", "note",
+    PictureRule("preview.no_image_chain", "note",
                 "No image chain (an [optics] layout and a camera with lens and pixel "
                 "pitch): the preview is a normalised knife-edge picture without a light "
                 "budget or noise",
@@ -155,17 +151,17 @@ def estimate_work(grid: ViewGrid, wavelength: float, sources: int, frames: int,
     return seconds, memory, points
 
 
-def _require_within(grid, seconds, memory, frames, max_seconds=MAX_WORK):
+def _require_within(grid, seconds, memory, frames, max_seconds=MAX_PREVIEW_SECONDS):
     from .workload import WorkloadError, duration_text
 
-    if seconds <= max_seconds and memory <= MAX_BYTES:
+    if seconds <= max_seconds and memory <= MAX_PREVIEW_BYTES:
         return
     raise WorkloadError(
         f"preview: {grid.nx} x {grid.ny} pixels x {frames} frames with {grid.samples} "
         f"samples along the light would take about {duration_text(seconds)} and "
-        f"{memory / 1e9:.1f} GB (limits {duration_text(max_seconds)}, {MAX_BYTES / 1e9:.0f} "
-        "GB); narrow it with --frames, [view].width/height, [view].samples or "
-        "[view].depth")
+        f"{memory / 1e9:.1f} GB (limits {duration_text(max_seconds)}, "
+        f"{MAX_PREVIEW_BYTES / 1e9:.0f} GB); narrow it with --frames, "
+        "[view].width/height, [view].samples or [view].depth")
 
 
 # --- the picture -------------------------------------------------------------------------
@@ -289,7 +285,8 @@ def reduced_grid(grid: ViewGrid, max_pixels: int) -> ViewGrid:
 
 
 def render_preview(rig, plan=None, *, frames=None, noise=True, seed=0, progress=None,
-                   max_pixels=None, max_seconds=MAX_WORK, grid=None, speed=None) -> Preview:
+                   max_pixels=None, max_seconds=MAX_PREVIEW_SECONDS, grid=None,
+                   speed=None) -> Preview:
     """Draw the frames the camera will record over the planned sweep.
 
     Parameters

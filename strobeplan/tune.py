@@ -334,12 +334,6 @@ def _evaluate_by_circuit(rig, rows: list, known: dict | None = None) -> list:
     return out
 
 
-def _pick(rig, grid: Grid, flat: int, known: dict | None = None) -> Candidate:
-    """The candidate at a flat grid index, evaluated on its own."""
-    design = _design_of([grid.at(flat)])
-    return _candidate(evaluate(rig, design, known), 0, design)
-
-
 def _refine_rows(rig, grid: Grid, best: tuple) -> list[tuple[float, float, int, float]]:
     """The refinement's rows for the best row (width, resistor, every, supply): every whole
     tick between its width and the next grid width (at most 256 of them, evenly spread) at

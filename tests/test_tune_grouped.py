@@ -15,6 +15,12 @@ from strobeplan.solve import solve
 from tests.conftest import example
 
 
+def _alone(rig, grid, flat, known):
+    """The candidate at a flat grid index, evaluated on its own (a one-row design)."""
+    design = tuner._design_of([grid.at(flat)])
+    return tuner._candidate(tuner.evaluate(rig, design, known), 0, design)
+
+
 def test_grouped_rows_equal_rows_alone():
     rig = load_rig(example("levitator-40k"))
     grid = tuner.default_grid(rig, solve(rig, checks=False), widths=24,
@@ -32,7 +38,7 @@ def test_grouped_rows_equal_rows_alone():
     done = tuner._evaluate_by_circuit(rig, rows, known)
     assert len({(r[1], r[3]) for r in rows}) < len(rows)  # some groups hold several rows
     for flat, one in zip(flats, done, strict=True):
-        alone = tuner._pick(rig, grid, flat, known)
+        alone = _alone(rig, grid, flat, known)
         assert tuner._candidate(*one).to_json() == alone.to_json()
 
 
@@ -43,7 +49,7 @@ def test_grouped_refinement_is_the_refinement_alone():
     ev = tuner.evaluate(rig, grid.design(), known)
     assert ev.feasible.any()
     best_flat = int(np.argmax(np.where(ev.feasible, ev.score, -np.inf)))
-    best = tuner._pick(rig, grid, best_flat, known)
+    best = _alone(rig, grid, best_flat, known)
     row = grid.at(best_flat)
     ticks = tuner._refine_rows(rig, grid, row)
     assert ticks
