@@ -63,7 +63,8 @@ _NEEDS = {
 
 
 def solve(rig, design: Design | None = None, *, checks: bool = True,
-          upto: str | None = None, known: dict | None = None) -> Plan:
+          upto: str | None = None, known: dict | None = None,
+          rules_only: bool = False) -> Plan:
     """Compute every section the rig has inputs for, then run all rules.
 
     Parameters
@@ -81,6 +82,9 @@ def solve(rig, design: Design | None = None, *, checks: bool = True,
     known : dict, optional
         Slot -> section already solved for this rig, used instead of running its stage
         (only for stages that read no design choice: ``tune.rig_constants``).
+    rules_only : bool
+        The plan of a grid chunk of the design search (``Plan.rules_only``): figures that
+        only a rule's threshold reads may be resolved just as far as the verdict needs.
 
     Floating-point overflow in an absurd but valid rig becomes inf/nan in a figure (shown as
     null, with the checks saying why) rather than a warning on stderr.
@@ -88,7 +92,7 @@ def solve(rig, design: Design | None = None, *, checks: bool = True,
     with np.errstate(over="ignore", divide="ignore", invalid="ignore", under="ignore"):
         if design is None:
             design = Design.of(rig)
-        plan = Plan(rig=rig, design=design)
+        plan = Plan(rig=rig, design=design, rules_only=rules_only)
         for stage, slot in STAGES:
             if known is not None and slot in known:
                 setattr(plan, slot, known[slot])

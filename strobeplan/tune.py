@@ -86,14 +86,17 @@ class Evaluation:
                 if RULES[c].severity in ("hazard", "fault") or c in AVOID}
 
 
-def evaluate(rig, design: Design, known: dict | None = None) -> Evaluation:
+def evaluate(rig, design: Design, known: dict | None = None, *,
+             rules_only: bool = False) -> Evaluation:
     """Solve ``rig`` for an (array) design and evaluate every rule over it (``known``: sections
-    that do not depend on the design, computed once per search: see :func:`rig_constants`)."""
+    that do not depend on the design, computed once per search: see :func:`rig_constants`;
+    ``rules_only``: a grid chunk, whose plan feeds only the masks and the search's figures,
+    see ``Plan.rules_only``)."""
     from .checks import RULES, masks
     from .solve import solve
 
     shape = design.shape
-    plan = solve(rig, design, checks=False, known=known)
+    plan = solve(rig, design, checks=False, known=known, rules_only=rules_only)
     fired = masks(plan, shape)
     fail = np.zeros(shape, dtype=bool)
     warn = np.zeros(shape, dtype=bool)
@@ -230,7 +233,7 @@ def _search(rig, limits, grid, known, t0, *, chunk, runner_ups, progress, refine
     goal = None
     for start in range(0, nw, rows):
         sl = slice(start, min(nw, start + rows))
-        ev = evaluate(rig, grid.design(sl), known)
+        ev = evaluate(rig, grid.design(sl), known, rules_only=True)
         goal = goal or objective(ev.plan)[0]
         cons = ev.constraint_masks()
         n_bad = sum((m.astype(np.int64) for m in cons.values()), np.zeros(ev.light.shape, int))

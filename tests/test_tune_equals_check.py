@@ -69,6 +69,13 @@ def test_tune_verdict_equals_check(case):
     design = Design(pulse_width=a[:, 0], series_resistor=a[:, 1],
                     every=a[:, 2].astype(np.int64), supply_voltage=a[:, 3])
     ev = tuner.evaluate(rig, design)
+    # the grid chunks' mode (figures resolved only as far as the rules need) fires the same
+    grid = tuner.evaluate(rig, design, rules_only=True)
+    for code, m in ev.masks.items():
+        assert np.array_equal(grid.masks[code], m), code
+    for name in ("verdict", "feasible", "score", "margin", "retention", "light"):
+        assert np.array_equal(getattr(grid, name), getattr(ev, name),
+                              equal_nan=name not in ("verdict", "feasible")), name
     for k, values in enumerate(designs):
         plan = solve(tuner.candidate_rig(rig, _candidate(values)))
         # The timer counters' discrete fits and the schedule's frame-by-frame checks are
