@@ -4,14 +4,13 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..stages.power import RATING_DISAGREEMENT
+from ..stages.power import RATING_DISAGREEMENT, REACTION_TIME
 from ..units import render
 from .registry import Hit, rule
 
 EXTRAPOLATION_RATIO = 2.0  # fit used beyond 2x the highest datasheet point (project choice)
 EDGE_FRACTION = 0.10  # edges over 10 % of the pulse width (project choice)
 BRIGHTNESS_CHANGE_MAX = 0.05  # 5 % flash-to-flash change is visible (common practice)
-REACTION_TIME = 10.0  # [s] nobody notices and switches off a stuck gate faster (common practice)
 
 STUCK_ON_FIX = ("limit the gate's on-time in hardware, independent of the firmware (e.g. an "
                 "RC-coupled gate or a monostable that ends every pulse), and fuse the LED "

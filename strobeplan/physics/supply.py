@@ -346,7 +346,7 @@ TAIL_FACTOR = 1e6  # [1] diode-tail horizon (no boost) in initial discharge time
 def stuck_on_transient(supply_voltage, capacitance, esr, series_resistor, on_resistance,
                        current_limit, n_vt, saturation_current, led_series_resistance,
                        efficiency, resistances, time_constants, ambient, start_temperature,
-                       junction_max, points_per_decade=64):
+                       junction_max, points_per_decade=64, verdict_time=None):
     """Gate stuck on with the storage capacitor charged: the dump, then the boost limit.
 
     Circuit (the one :func:`strobeplan.physics.led.pulse_operating_point` solves): the
@@ -422,13 +422,22 @@ def stuck_on_transient(supply_voltage, capacitance, esr, series_resistor, on_res
         Junction temperature limit. [K]
     points_per_decade : int
         Density of the log-spaced time grid.
+    verdict_time : float, optional
+        Resolve only what comparing the time to the limit with this time needs (a design
+        search's verdicts): a first crossing whose grid interval lies wholly before
+        ``verdict_time`` or wholly at or after it is reported at the interval's end (the
+        exact time is inside the interval, so on the same side; only an interval that
+        holds ``verdict_time`` is bisected), and the peak and its time are not computed
+        (NaN; the scan then visits only the steps that can hold the first crossing).
+        Whether the limit is reached, and ``time_to_limit >= verdict_time``, are exactly
+        those of the full computation; None (default) resolves everything. [s]
 
     Returns
     -------
     StuckOnTransient
         Time to the junction limit [s] (0 if already at it, inf if never), peak junction
-        temperature [K] and its time [s], start and steady current [A], resistor peak power
-        [W] and pulse energy [J].
+        temperature [K] and its time [s] (NaN with ``verdict_time``), start and steady
+        current [A], resistor peak power [W] and pulse energy [J].
 
     References
     ----------
@@ -492,7 +501,9 @@ def stuck_on_transient(supply_voltage, capacitance, esr, series_resistor, on_res
 
         r0, lim = flat(rise0), flat(allowed)
         d_k, z_k, g_k = per_step(decay), per_step(rise_zero), per_step(grid)
-        pk, pt, bk, open_ = _scan(r0, lim, d_k, z_k, g_k, _steps_that_matter(r0, lim, d_k, z_k))
+        want_peak = verdict_time is None
+        pk, pt, bk, open_ = _scan(r0, lim, d_k, z_k, g_k,
+                                  _steps_that_matter(r0, lim, d_k, z_k, want_peak), want_peak)
         back = np.argsort(perm)
         shaped = [shape[i] for i in perm]
         peak, peak_t, b_k, crossed = (
@@ -505,37 +516,39 @@ def stuck_on_transient(supply_voltage, capacitance, esr, series_resistor, on_res
     b_t = np.zeros(shape)
     todo = np.flatnonzero(crossed & ~(rise0 >= allowed))
     if todo.size:
-        k = b_k.ravel()[todo]
-        if shape:
-            cidx = np.unravel_index(todo, shape)
-            pad = _padded(cshape, len(shape))
-            cpos = tuple(ix if size > 1 else np.zeros_like(ix)
-                         for ix, size in zip(cidx, pad, strict=True))
-            flat_c = np.ravel_multi_index(cpos, pad)
-        else:
-            flat_c = np.zeros(todo.size, dtype=np.intp)
         steps = heat.shape[-1]
+        flat_c = _circuit_rows(todo, shape, cshape)
+        k = b_k.ravel()[todo]
+        # only the crossing interval's entries (no per-candidate copies of the whole grid)
+        b_dt = dt.reshape(-1, steps)[flat_c, k]
+        b_start = grid.reshape(-1, steps)[flat_c, k] - b_dt
+        np.put(b_t, todo, b_start)
+        np.put(hi, todo, b_dt)
+        if verdict_time is not None:
+            # The time is b_start + (a bisection end in [0, b_dt]), and a rounded sum is
+            # monotone in its terms: an interval wholly on one side of verdict_time decides
+            # the comparison already (reported at its end, b_dt above).
+            split = ~(b_start >= verdict_time) & ~(b_start + b_dt < verdict_time)
+            todo, flat_c, k, b_dt = todo[split], flat_c[split], k[split], b_dt[split]
+    if todo.size:
         share2 = share.reshape(-1, share.shape[-1])[flat_c]
         r2 = r.reshape(-1, r.shape[-1])[flat_c]
         tau2 = tau.reshape(-1, tau.shape[-1])[flat_c]
         r0 = rise0.ravel()[todo]
         lim = allowed.ravel()[todo]
-        # only the crossing interval's entries (no per-candidate copies of the whole grid)
         b_p = heat.reshape(-1, steps)[flat_c, k]
-        b_dt = dt.reshape(-1, steps)[flat_c, k]
-        b_grid = grid.reshape(-1, steps)[flat_c, k]
         prev = np.maximum(k - 1, 0)
         zero_prev = zero.reshape(-1, steps, zero.shape[-1])[flat_c, prev]
         free_prev = free.reshape(-1, steps, free.shape[-1])[flat_c, prev]
         start_state = np.where((k > 0)[:, None], zero_prev + r0[:, None] * share2 * free_prev,
                                r0[:, None] * share2)
-        up = _bisect_crossing(start_state, b_p, r2, tau2, lim, b_dt)
-        np.put(hi, todo, up)
-        np.put(b_t, todo, b_grid - b_dt)
+        np.put(hi, todo, _bisect_crossing(start_state, b_p, r2, tau2, lim, b_dt))
     t_cross = np.where(rise0 >= allowed, 0.0, np.where(crossed, b_t + hi, np.inf))
     t_amb = np.broadcast_to(t_amb, shape)
     i0, i_ss, rser, pulse_energy = (np.broadcast_to(x, shape) for x in (i0, i_ss, rser,
                                                                           pulse_energy))
+    if verdict_time is not None:  # (not resolved: see verdict_time)
+        peak, peak_t = np.full(shape, np.nan), np.full(shape, np.nan)
     out = StuckOnTransient(t_cross, t_amb + peak, peak_t, i0, i_ss, rser * i0**2,
                            pulse_energy)
     if np.ndim(out.time_to_limit) == 0:
@@ -543,16 +556,30 @@ def stuck_on_transient(supply_voltage, capacitance, esr, series_resistor, on_res
     return out
 
 
-def _scan(r0, lim, d_k, z_k, g_k, steps=None):
+def _circuit_rows(todo, shape, cshape):
+    """The circuit's flat row of each flat candidate index ``todo`` of ``shape`` (the
+    circuit's shape ``cshape`` broadcast to it)."""
+    if not shape:
+        return np.zeros(todo.size, dtype=np.intp)
+    cidx = np.unravel_index(todo, shape)
+    pad = _padded(cshape, len(shape))
+    cpos = tuple(ix if size > 1 else np.zeros_like(ix)
+                 for ix, size in zip(cidx, pad, strict=True))
+    return np.ravel_multi_index(cpos, pad)
+
+
+def _scan(r0, lim, d_k, z_k, g_k, steps=None, peak=True):
     """The stuck-on junction scan of :func:`stuck_on_transient` on the (other axes, circuits)
     layout: per step ``k`` the rise ``r0 x d_k + z_k``; the first maximum (a strictly higher
     value replaces; the start ``r0`` at time 0 first) and the first step at or above ``lim``.
 
     ``steps`` (circuits, m) lists, per circuit and in increasing order, the only steps that
     can change either answer (:func:`_steps_that_matter`); None scans every step. Returns
-    (peak, peak time, first crossing step (-1: at the start or never), still below the limit).
+    (peak, peak time, first crossing step (-1: at the start or never), still below the limit);
+    with ``peak`` False the maximum is not tracked (peak and its time NaN) and ``steps``
+    need only hold the steps that can change the first crossing.
     """
-    pk, pt = r0.copy(), np.zeros(r0.shape)
+    pk, pt = (r0.copy(), np.zeros(r0.shape)) if peak else (np.full(r0.shape, np.nan),) * 2
     bk = np.full(r0.shape, -1)
     open_ = ~(r0 >= lim)
     rise = np.empty(r0.shape)
@@ -574,6 +601,8 @@ def _scan(r0, lim, d_k, z_k, g_k, steps=None):
         else:
             np.copyto(bk, k, where=hit)
         np.logical_and(open_, ~hit, out=open_)
+        if not peak:
+            continue
         np.greater(rise, pk, out=higher)
         np.copyto(pk, rise, where=higher)
         np.copyto(pt, g, where=higher)
@@ -584,9 +613,11 @@ SCAN_SAMPLES = 4  # [1] intervals of the start-rise range per circuit in _steps_
 SCAN_TOLERANCE = 1e-9  # [1] margin (relative to the figures' size) a skipped step must clear
 
 
-def _steps_that_matter(r0, lim, d_k, z_k):
+def _steps_that_matter(r0, lim, d_k, z_k, peak=True):
     """Per circuit, the steps of the stuck-on scan that can change its answers, as (circuits,
     m) step indices in increasing order (the last repeated to fill a row), or None (scan all).
+    With ``peak`` False only the first crossing's steps (the last part below; the envelope
+    test is skipped): for a scan that does not track the maximum.
 
     Every step is a line in the start rise: ``rise_k(r0) = d_k r0 + z_k``; the circuit's
     candidates have their ``r0`` in ``[a, b]``. A step is skipped only when, for every ``r0``
@@ -618,6 +649,28 @@ def _steps_that_matter(r0, lim, d_k, z_k):
     size = 1.0 + np.maximum(np.abs(a), np.abs(b)) + np.max(np.abs(z), axis=1) \
         + np.maximum(np.abs(lo_lim), np.abs(hi_lim))
     tol = SCAN_TOLERANCE * size  # (circuits,)
+    near = np.zeros(d.shape, dtype=bool) if not peak else _near_envelope(a, b, d, z, tol)
+    # The first crossing.
+    ra, rb = a[:, None] * d + z, b[:, None] * d + z  # (c, steps): the line's two ends
+    never = np.maximum(ra, rb) < (lo_lim - tol)[:, None]
+    always = np.minimum(ra, rb) >= (hi_lim + tol)[:, None]
+    first_always = np.where(always.any(axis=1), np.argmax(always, axis=1), n_steps)
+    before = np.arange(n_steps)[None, :] <= first_always[:, None]
+    keep = near | (before & ~never)
+    count = keep.sum(axis=1)
+    m = int(count.max(initial=0))
+    if m == 0:
+        m, keep[:, 0], count = 1, True, np.maximum(count, 1)
+    if m * 2 > n_steps:
+        return None
+    steps = np.argsort(~keep, axis=1, kind="stable")[:, :m]
+    last = np.take_along_axis(steps, np.maximum(count - 1, 0)[:, None], axis=1)
+    return np.where(np.arange(m)[None, :] < count[:, None], steps, last)
+
+
+def _near_envelope(a, b, d, z, tol):
+    """(circuits, steps): the steps of :func:`_steps_that_matter` not provably below the
+    envelope by ``tol`` on ``[a, b]`` (its envelope test)."""
     # The envelope at the sample points (the start line r0 itself is step "-1").
     x = a[:, None] + (b - a)[:, None] * np.linspace(0.0, 1.0, SCAN_SAMPLES + 1)  # (c, s)
     best = np.empty(x.shape, dtype=np.intp)
@@ -645,22 +698,7 @@ def _steps_that_matter(r0, lim, d_k, z_k):
     near = np.zeros(d.shape, dtype=bool)
     for j in range(px.shape[1]):
         near |= px[:, j:j + 1] * d + z >= pv[:, j:j + 1]
-    # The first crossing.
-    ra, rb = a[:, None] * d + z, b[:, None] * d + z  # (c, steps): the line's two ends
-    never = np.maximum(ra, rb) < (lo_lim - tol)[:, None]
-    always = np.minimum(ra, rb) >= (hi_lim + tol)[:, None]
-    first_always = np.where(always.any(axis=1), np.argmax(always, axis=1), n_steps)
-    before = np.arange(n_steps)[None, :] <= first_always[:, None]
-    keep = near | (before & ~never)
-    count = keep.sum(axis=1)
-    m = int(count.max(initial=0))
-    if m == 0:
-        m, keep[:, 0], count = 1, True, np.maximum(count, 1)
-    if m * 2 > n_steps:
-        return None
-    steps = np.argsort(~keep, axis=1, kind="stable")[:, :m]
-    last = np.take_along_axis(steps, np.maximum(count - 1, 0)[:, None], axis=1)
-    return np.where(np.arange(m)[None, :] < count[:, None], steps, last)
+    return near
 
 
 def _bisect_crossing(start_state, heat, r, tau, lim, length, iterations=60):

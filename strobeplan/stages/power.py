@@ -23,7 +23,10 @@ Models (strobeplan.physics.led / thermal / switching / supply):
   The junction follows the Foster network driven by that heat from the mean junction
   temperature of normal operation (:func:`strobeplan.physics.supply.stuck_on_transient`):
   time to junction_max, the peak and when it happens; the series resistor's peak power and
-  the dump's energy in it.
+  the dump's energy in it. In a design search's chunks (``plan.rules_only``) the time to
+  junction_max is resolved only as far as its comparison with ``REACTION_TIME`` needs (a
+  time inside the same grid interval, on the same side of it) and the peak and its time are
+  not computed (NaN): no rule reads them.
 """
 
 from __future__ import annotations
@@ -209,6 +212,11 @@ STUCK_ON_POINTS_PER_DECADE = 32
 # The two datasheet pulse limits disagree when they differ by more than this fraction.
 RATING_DISAGREEMENT = 0.20
 
+# Nobody notices and switches off a stuck gate faster (common practice): the stuck-on rules
+# compare the time to the junction limit with it, and a design search's chunks resolve that
+# time only as far as this comparison needs.
+REACTION_TIME = 10.0  # [s]
+
 
 def pulse_limit(led, width, duty):
     """The LED's allowed pulse current: the lower of ``led.max_pulse_current`` and the
@@ -352,7 +360,8 @@ def compute(rig, design, plan) -> dict:
     dump = supply_model.stuck_on_transient(
         v_sup, sup.storage_capacitance, sup.esr, r_ser, ron, sup.max_current, fit.n_vt,
         fit.saturation_current, fit.series_resistance, led.efficiency, r, tau, led.ambient,
-        t_start, led.junction_max, points_per_decade=STUCK_ON_POINTS_PER_DECADE)
+        t_start, led.junction_max, points_per_decade=STUCK_ON_POINTS_PER_DECADE,
+        verdict_time=REACTION_TIME if plan.rules_only else None)
     out["stuck_on"] = StuckOnSection(
         time_to_limit_s=_finite_or_none(np.asarray(dump.time_to_limit, dtype=float)),
         peak_junction_k=scalar(dump.peak_temperature),

@@ -13,6 +13,7 @@ Oracles (the definitions the shortcuts replace, run here in full):
 """
 
 import numpy as np
+import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
@@ -161,3 +162,69 @@ def test_burst_sag_grid_is_its_candidates_bit_for_bit():
                                args["saturation_current"], args["led_series_resistance"])
         for name, x in zip(one._fields, one, strict=True):
             assert getattr(grid, name)[idx] == x, name
+
+
+@settings(max_examples=40, deadline=None)
+@given(seed=st.integers(0, 2**32 - 1), n_steps=st.integers(20, 400),
+       n_c=st.integers(1, 12), n_a=st.integers(1, 40), spread=st.floats(0.0, 60.0),
+       at_limit=st.floats(0.0, 1.0))
+def test_crossing_only_steps_give_the_full_scans_crossing(seed, n_steps, n_c, n_a, spread,
+                                                          at_limit):
+    # Without the peak, only the steps that can hold the first crossing are kept: the
+    # crossing step and the crossed flag must still be the full scan's, bit for bit.
+    rng = np.random.default_rng(seed)
+    d, z, g = _lines(rng, n_steps, n_c)
+    lim = np.full((n_a, n_c), rng.uniform(20.0, 250.0)) + rng.uniform(-5.0, 5.0, (n_a, n_c))
+    r0 = rng.uniform(0.0, 1.0, size=(n_a, n_c)) * spread
+    k = rng.integers(0, n_steps, size=(n_a, n_c))
+    cols = np.arange(n_c)[None, :]
+    with np.errstate(divide="ignore", over="ignore"):
+        exact = (lim - z[k, cols]) / d[k, cols]
+    pick = (rng.random((n_a, n_c)) < at_limit) & (exact >= 0) & (exact <= 2 * spread + 1)
+    r0 = np.where(pick, exact, r0)
+    steps = supply._steps_that_matter(r0, lim, d, z, False)
+    pk, pt, bk, open_ = supply._scan(r0, lim, d, z, g, steps, False)
+    full = supply._scan(r0, lim, d, z, g, None)
+    assert np.isnan(pk).all() and np.isnan(pt).all()
+    assert np.array_equal(bk, full[2]) and np.array_equal(open_, full[3])
+
+
+def _verdict_case(volts, start, cap=10e-3, limit=0.5):
+    return dict(supply_voltage=volts, capacitance=cap, esr=0.05,
+                series_resistor=np.array([0.5, 1.0, 2.2, 4.7, 10.0])[None, :, None],
+                on_resistance=0.01, current_limit=limit, efficiency=0.3,
+                resistances=[1.5, 3.0, 6.0, 15.0], time_constants=[20e-6, 2e-3, 80e-3, 20.0],
+                ambient=298.15, start_temperature=start, junction_max=398.15,
+                points_per_decade=32, **LEVITATOR_FIT)
+
+
+@pytest.mark.parametrize("limit", [0.5, 2.0])
+def test_verdict_time_keeps_every_verdict_of_the_full_transient(limit):
+    # The design search's mode against the full computation (the oracle: every crossing
+    # bisected): whether the limit is reached and the side of verdict_time must agree for
+    # every candidate, at verdict times spread over the crossings and right at them (so that
+    # the crossing's interval holds verdict_time: there the time must be the exact one).
+    args = _verdict_case(np.array([12.0, 24.0, 36.0])[None, None, :],
+                         298.15 + np.linspace(0.0, 60.0, 17)[:, None, None], limit=limit)
+    full = supply.stuck_on_transient(**args)
+    t = full.time_to_limit
+    finite = np.isfinite(t) & (t > 0)
+    assert finite.any() and (~np.isfinite(t)).any()
+    times = list(np.quantile(t[finite], [0.0, 0.3, 0.5, 0.9, 1.0])) + [10.0, 1e-9, 1e9]
+    for vt in times:
+        fast = supply.stuck_on_transient(**args, verdict_time=vt)
+        assert np.array_equal(np.isfinite(fast.time_to_limit), np.isfinite(t))
+        assert np.array_equal(fast.time_to_limit >= vt, t >= vt), vt
+        at = t == vt
+        assert np.array_equal(fast.time_to_limit[at], t[at])
+        assert np.isnan(fast.peak_temperature).all() and np.isnan(fast.peak_time).all()
+        for name in ("start_current", "steady_current", "resistor_peak_power",
+                     "resistor_pulse_energy"):
+            assert np.array_equal(getattr(fast, name), getattr(full, name)), name
+    # a verdict time inside a crossing's interval gets that crossing bisected exactly
+    vt = float(np.median(t[finite]))
+    fast = supply.stuck_on_transient(**args, verdict_time=vt)
+    moved = fast.time_to_limit != t
+    assert not moved[t == vt].any()
+    assert moved.any()  # the rest were decided by their interval (reported at its end)
+    assert (fast.time_to_limit[moved] >= t[moved]).all()
