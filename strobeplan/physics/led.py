@@ -434,11 +434,18 @@ def pulse_operating_point(supply_voltage, capacitance, esr, series_resistor, on_
     # Start current if the capacitor supplies the difference I - Ib through its ESR.
     i0_cap = np.broadcast_to(current_at_voltage(vs_c + esr_c * ib_c, a_c, is_c,
                                                 rs_c + esr_c + rser_c + ron_c), vs.shape)
-    # Start current if the boost carries the whole string (no capacitor current, no ESR drop).
-    i_hold = np.broadcast_to(current_at_voltage(vs_c, a_c, is_c, rs_c + rser_c + ron_c),
-                             vs.shape)
     droops = np.asarray(i0_cap > ib)
-    i0 = np.where(droops, i0_cap, i_hold)
+    # (every candidate drooping, e.g. a burst's later flashes: the boost-only branch below is
+    # selected nowhere, so it is not solved)
+    hold = not droops.all()
+    if hold:
+        # Start current if the boost carries the whole string (no capacitor current, no ESR
+        # drop).
+        i_hold = np.broadcast_to(current_at_voltage(vs_c, a_c, is_c, rs_c + rser_c + ron_c),
+                                 vs.shape)
+        i0 = np.where(droops, i0_cap, i_hold)
+    else:
+        i0 = np.array(i0_cap)
 
     # Safe placeholders where the capacitor does not droop.
     ib_d = np.where(droops, ib, 0.0)
@@ -478,10 +485,10 @@ def pulse_operating_point(supply_voltage, capacitance, esr, series_resistor, on_
     j = r_tot * (dp2 - i_s * dp1) + a * dp3  # int I ln(I + Is) F'(I) du
     e_led = rs * i2t + a * (c * j - np.log(i_s) * charge)
 
-    v_hold = forward_voltage(i0, a, i_s, rs)
     charge = np.where(droops, charge, i0 * tp)
     i2t = np.where(droops, i2t, i0**2 * tp)
-    e_led = np.where(droops, e_led, i0 * v_hold * tp)
+    if hold:
+        e_led = np.where(droops, e_led, i0 * forward_voltage(i0, a, i_s, rs) * tp)
     i_end = np.where(droops, i1, i0)
     vc_drop = np.where(droops, vc_drop, 0.0)
     out = OperatingPoint(i0, charge, e_led, vs - vc_drop, vc_drop, charge / tp, i_end, i2t)

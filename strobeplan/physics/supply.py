@@ -139,14 +139,14 @@ class BurstSag(NamedTuple):
 
 def burst_sag(supply_voltage, capacitance, esr, series_resistor, on_resistance,
               recharge_current, width, spacing, n_pulses, n_vt, saturation_current,
-              led_series_resistance):
+              led_series_resistance, first=None):
     """Capacitor sag across a burst, flash by flash.
 
     Each flash is the exact operating point (:func:`strobeplan.physics.led.
     pulse_operating_point`) from the voltage the previous one left; between flashes the
     boost recharges at its limit for ``spacing - width``, never above the set point. The
     loop runs over the flash index (up to the largest ``n_pulses``), each step vectorised
-    over the candidates.
+    over the candidates whose burst still changes.
 
     Parameters
     ----------
@@ -174,6 +174,10 @@ def burst_sag(supply_voltage, capacitance, esr, series_resistor, on_resistance,
         LED saturation current. [A]
     led_series_resistance : float or ndarray
         LED series resistance. [ohm]
+    first : strobeplan.physics.led.OperatingPoint, optional
+        The first flash, if the caller has solved it already: ``pulse_operating_point`` of
+        these same arguments (all but ``spacing`` and ``n_pulses``, in this order); None
+        solves it here.
 
     Returns
     -------
@@ -185,48 +189,53 @@ def burst_sag(supply_voltage, capacitance, esr, series_resistor, on_resistance,
     ----------
     1. Charge balance ``C dV = (Ib - I) dt``, flash by flash.
     """
-    vs, c, esr_, rser, ron, ib, tp, s, n, a, i_s, rs = (x.ravel() for x in np.broadcast_arrays(
-        *[np.asarray(x, dtype=float) for x in (
-            supply_voltage, capacitance, esr, series_resistor, on_resistance,
-            recharge_current, width, spacing, n_pulses, n_vt, saturation_current,
-            led_series_resistance)]))
-    shape = np.broadcast_shapes(*(np.shape(x) for x in (
+    args = [np.asarray(x, dtype=float) for x in (
         supply_voltage, capacitance, esr, series_resistor, on_resistance, recharge_current,
-        width, spacing, n_pulses, n_vt, saturation_current, led_series_resistance)))
+        width, spacing, n_pulses, n_vt, saturation_current, led_series_resistance)]
+    vs, c, esr_, rser, ron, ib, tp, s, n, a, i_s, rs = args
+    shape = np.broadcast_shapes(*(x.shape for x in args))
     n = np.maximum(np.rint(n), 1.0)
-    v_before_last = vs.copy()
-    v_end = vs.copy()
-    first = np.empty_like(vs)
-    last = np.empty_like(vs)
     # The first flash starts at the set point: it does not depend on the spacing or the
     # flash count, so it is solved once per circuit (e.g. not once per ``every`` of a grid).
-    circuit = (supply_voltage, capacitance, esr, series_resistor, on_resistance,
-               recharge_current, width, n_vt, saturation_current, led_series_resistance)
-    op = pulse_operating_point(*circuit)
-    peak = np.broadcast_to(np.asarray(op.peak_current, dtype=float), shape).ravel()
-    end = np.broadcast_to(np.asarray(op.end_voltage, dtype=float), shape).ravel()
-    first[:] = peak
-    last[:] = peak
-    v_end[:] = end
+    if first is None:
+        first = pulse_operating_point(vs, c, esr_, rser, ron, ib, tp, a, i_s, rs)
+    peak = np.asarray(first.peak_current, dtype=float)
+    end = np.asarray(first.end_voltage, dtype=float)
     v_next = np.minimum(vs, end + ib * (s - tp) / c)
-    more = (1 < n) & (v_next != vs)
+    grid = shape or (1,)  # (one candidate as a row of one)
+    more = np.broadcast_to((1 < n) & (v_next != vs), grid)
+
+    def full(x):
+        return np.array(np.broadcast_to(x, grid)).ravel()
+
+    vs_f = full(vs)
+    v_before_last, v_end, first_i, last = vs_f.copy(), full(end), full(peak), full(peak)
     # Only the candidates whose burst still changes are stepped: once a flash starts where
-    # the previous one did, every later flash repeats it exactly.
-    act, v = np.flatnonzero(more), v_next[more]
+    # the previous one did, every later flash repeats it exactly. Their arguments are taken
+    # once (a single value stays a scalar) and narrowed with the set.
+    act = np.flatnonzero(more)
+    where = np.unravel_index(act, grid)
+
+    def take(x):
+        return x.reshape(()) if x.size == 1 else np.broadcast_to(x, grid)[where]
+
+    v = np.broadcast_to(v_next, grid)[where]
+    part = [take(x) for x in (c, esr_, rser, ron, ib, tp, a, i_s, rs, vs, s, n)]
     k = 1
     while act.size:
-        op = pulse_operating_point(v, c[act], esr_[act], rser[act], ron[act], ib[act], tp[act],
-                                   a[act], i_s[act], rs[act])
+        c_a, esr_a, rser_a, ron_a, ib_a, tp_a, a_a, is_a, rs_a, vs_a, s_a, n_a = part
+        op = pulse_operating_point(v, c_a, esr_a, rser_a, ron_a, ib_a, tp_a, a_a, is_a, rs_a)
         peak = np.asarray(op.peak_current, dtype=float)
         end = np.asarray(op.end_voltage, dtype=float)
         last[act] = peak
         v_before_last[act] = v
         v_end[act] = end
-        v_next = np.minimum(vs[act], end + ib[act] * (s[act] - tp[act]) / c[act])
-        more = (k + 1 < n[act]) & (v_next != v)
+        v_next = np.minimum(vs_a, end + ib_a * (s_a - tp_a) / c_a)
+        more = (k + 1 < n_a) & (v_next != v)
         act, v = act[more], v_next[more]
+        part = [x[more] if x.ndim else x for x in part]
         k += 1
-    out = BurstSag(*((x).reshape(shape) for x in (vs - v_before_last, vs - v_end, first,
+    out = BurstSag(*((x).reshape(shape) for x in (vs_f - v_before_last, vs_f - v_end, first_i,
                                                    last)))
     if out.at_end.ndim == 0:
         return BurstSag(*(float(x) for x in out))

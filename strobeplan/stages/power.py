@@ -334,7 +334,7 @@ def compute(rig, design, plan) -> dict:
     e_flash = np.asarray(op.led_energy) + np.asarray(op.i2t) * (r_ser + ron + sup.esr)
     sag = supply_model.burst_sag(v_sup, sup.storage_capacitance, sup.esr, r_ser, ron,
                                  sup.max_current, width, pat.spacing, pat.n, fit.n_vt,
-                                 fit.saturation_current, fit.series_resistance)
+                                 fit.saturation_current, fit.series_resistance, first=op)
     idle = pat.frame - (pat.n - 1) * pat.spacing - width
     stored = supply_model.stored_energy(sup.storage_capacitance, v_sup)
     out["supply"] = SupplySection(
