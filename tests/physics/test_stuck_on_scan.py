@@ -17,7 +17,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from strobeplan.physics import supply, thermal
+from strobeplan.physics import led, supply, thermal
 
 
 def _lines(rng, n_steps, n_c, terms=3):
@@ -228,3 +228,33 @@ def test_verdict_time_keeps_every_verdict_of_the_full_transient(limit):
     assert not moved[t == vt].any()
     assert moved.any()  # the rest were decided by their interval (reported at its end)
     assert (fast.time_to_limit[moved] >= t[moved]).all()
+
+
+def test_burst_sag_given_its_first_flash_is_the_same():
+    # The power stage hands burst_sag the first flash it has solved: the same bits as the
+    # burst solving it itself (the oracle), on a grid where some bursts sag and some not.
+    width = np.array([2e-6, 8e-6, 20e-6])[:, None, None]
+    ohms = np.array([0.5, 2.2, 10.0])[None, :, None]
+    every = np.array([1, 2, 5, 8])[None, None, :]
+    circuit = (24.0, 470e-6, 0.05, ohms, 0.01, 0.5, width, LEVITATOR_FIT["n_vt"],
+               LEVITATOR_FIT["saturation_current"], LEVITATOR_FIT["led_series_resistance"])
+    first = led.pulse_operating_point(*circuit)
+    rest = (every * 25e-6, np.maximum(40 // every, 1))
+    own = supply.burst_sag(*circuit[:7], *rest, *circuit[7:])
+    given_first = supply.burst_sag(*circuit[:7], *rest, *circuit[7:], first=first)
+    assert (own.at_end > own.at_end.min()).any()  # the bursts differ
+    _same(given_first, own)
+
+
+def test_operating_point_of_drooping_flashes_needs_no_boost_only_branch():
+    # Every candidate drooping skips the boost-only start current; their figures must be
+    # the ones they get beside candidates the boost alone carries (the oracle: the branch
+    # computed and not selected).
+    vs = np.array([24.0, 12.0, 6.0, 3.0])
+    args = (470e-6, 0.05, 2.2, 0.01, 0.2, 8e-6, LEVITATOR_FIT["n_vt"],
+            LEVITATOR_FIT["saturation_current"], LEVITATOR_FIT["led_series_resistance"])
+    mixed = led.pulse_operating_point(np.append(vs, 2.4), *args)
+    assert mixed.peak_current[-1] <= 0.2 < mixed.peak_current[:-1].min()  # last one held
+    alone = led.pulse_operating_point(vs, *args)
+    for name, x in zip(alone._fields, alone, strict=True):
+        assert np.array_equal(x, getattr(mixed, name)[:-1]), name
