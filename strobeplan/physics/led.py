@@ -475,11 +475,16 @@ def pulse_operating_point(supply_voltage, capacitance, esr, series_resistor, on_
     # P1 = int ln X du (dilogarithm; short intervals by 6-node Gauss-Legendre, where the
     # difference of two dilogarithms would cancel), P2 = int X ln X du,
     # P3 = int (1 - Is/X) ln X du
-    dp1_li = ln_d * du - (dilog_neg(u0 - ln_d) - dilog_neg(u1 - ln_d))
-    gx, gw = _GL6
-    un = 0.5 * (u0 + u1)[..., None] + 0.5 * du[..., None] * gx
-    dp1_gl = 0.5 * du * np.sum(gw * np.logaddexp(ln_d[..., None], un), axis=-1)
-    dp1 = np.where(du < 0.5, dp1_gl, dp1_li)
+    # (a form no candidate selects is not computed: e.g. a burst's short flashes)
+    short = du < 0.5
+    dp1_li = dp1_gl = 0.0
+    if not short.all():
+        dp1_li = ln_d * du - (dilog_neg(u0 - ln_d) - dilog_neg(u1 - ln_d))
+    if short.any():
+        gx, gw = _GL6
+        un = 0.5 * (u0 + u1)[..., None] + 0.5 * du[..., None] * gx
+        dp1_gl = 0.5 * du * np.sum(gw * np.logaddexp(ln_d[..., None], un), axis=-1)
+    dp1 = np.where(short, dp1_gl, dp1_li)
     dp2 = de * (lx1 - 1.0) + x0 * dl + d * dp1  # [X ln X - X] difference + D*P1
     dp3 = (ib_d / d) * dp1 + (i_s / d) * 0.5 * dl * (2.0 * lx1 + dl)
     j = r_tot * (dp2 - i_s * dp1) + a * dp3  # int I ln(I + Is) F'(I) du

@@ -258,3 +258,20 @@ def test_operating_point_of_drooping_flashes_needs_no_boost_only_branch():
     alone = led.pulse_operating_point(vs, *args)
     for name, x in zip(alone._fields, alone, strict=True):
         assert np.array_equal(x, getattr(mixed, name)[:-1]), name
+
+
+def test_operating_point_computes_only_the_energy_forms_it_selects():
+    # Short flashes (under 0.5 e-folds of droop) take the Gauss-Legendre form, long ones the
+    # dilogarithm form; an array of one kind computes only its own form. The oracle: the
+    # same candidates beside one of the other kind (both forms computed, one selected).
+    args = (470e-6, 0.05, 2.2, 0.01, 0.2)
+    fit = (LEVITATOR_FIT["n_vt"], LEVITATOR_FIT["saturation_current"],
+           LEVITATOR_FIT["led_series_resistance"])
+    vs = np.array([24.0, 18.0, 12.0])
+    for width, other in ((np.array([2e-6, 8e-6, 20e-6]), 0.05),
+                         (np.array([0.02, 0.05, 0.1]), 2e-6)):
+        alone = led.pulse_operating_point(vs, *args, width, *fit)
+        mixed = led.pulse_operating_point(np.append(vs, 24.0), *args, np.append(width, other),
+                                          *fit)
+        for name, x in zip(alone._fields, alone, strict=True):
+            assert np.array_equal(x, getattr(mixed, name)[:-1]), name
