@@ -505,11 +505,8 @@ def stuck_on_transient(supply_voltage, capacitance, esr, series_resistor, on_res
             return np.ascontiguousarray(np.broadcast_to(x, shape).transpose(perm)).reshape(
                 n_a, n_c)
 
-        def per_step(x):
-            return np.ascontiguousarray(x.reshape(n_c, -1).T)
-
         r0, lim = flat(rise0), flat(allowed)
-        d_k, z_k, g_k = per_step(decay), per_step(rise_zero), per_step(grid)
+        d_k, z_k, g_k = cr.decay_k, cr.rise_zero_k, cr.grid_k
         want_peak = verdict_time is None
         pk, pt, bk, open_ = _scan(r0, lim, d_k, z_k, g_k,
                                   _steps_that_matter(r0, lim, d_k, z_k, want_peak), want_peak)
@@ -771,6 +768,9 @@ class _CircuitResponse(NamedTuple):
     free: np.ndarray
     rise_zero: np.ndarray
     decay: np.ndarray
+    decay_k: np.ndarray  # decay, rise_zero and grid as (steps, circuits): the scan's layout
+    rise_zero_k: np.ndarray
+    grid_k: np.ndarray
     n_steps: int
 
 
@@ -873,4 +873,6 @@ def _compute_circuit_response(circuit, points_per_decade) -> _CircuitResponse:
     decay = np.sum(share[..., None, :] * free, axis=-1)  # (circuit, steps)
     return _CircuitResponse(cshape, i_ss, i0, np.array(rser), pulse_energy, share,
                             np.array(r), np.array(tau), grid, heat, dt, zero, free,
-                            rise_zero, decay, n_steps)
+                            rise_zero, decay, *(np.ascontiguousarray(
+                                x.reshape(math.prod(cshape), -1).T) for x in (
+                                    decay, rise_zero, grid)), n_steps)
