@@ -510,32 +510,38 @@ def _solve_end(hi, tp, i0, ib, i_s, a, r_tot, c, mask, iterations=100):
     (nearly linear where either the series resistance or the diode term dominates), with
     bisection when a step leaves the bracket.
     """
-    hi = np.asarray(hi, dtype=float).copy()
-    v = hi.copy()
-    lo = np.zeros_like(hi)
+    v = np.array(hi, dtype=float)
+    vf = v.ravel()
     active = np.flatnonzero(np.broadcast_to(mask, v.shape))
-    flat = [np.ravel(np.broadcast_to(x, v.shape)) for x in (tp, i0, ib, i_s, a, r_tot, c)]
-    vf, lof, hif = v.ravel(), lo.ravel(), hi.ravel()
+    # The unsolved candidates' arguments and bracket, narrowed as they finish (a value the
+    # same for all stays a scalar); each candidate's arithmetic is its own.
+    part = [x.reshape(()) if x.size == 1 else np.broadcast_to(x, v.shape).ravel()[active]
+            for x in (np.asarray(y, dtype=float) for y in (tp, i0, ib, i_s, a, r_tot, c))]
+    va = vf[active]
+    lo_a, hi_a = np.zeros(active.size), va.copy()
     for _ in range(iterations):
         if active.size == 0:
             break
-        tp_, i0_, ib_, is_, a_, r_, c_ = (x[active] for x in flat)
-        va = vf[active]
+        tp_, i0_, ib_, is_, a_, r_, c_ = part
         t = _discharge_time(va, i0_, ib_, is_, a_, r_, c_)
         e = (i0_ - ib_) * np.exp(-va)
         dt = c_ * (r_ + a_ / (ib_ + e + is_))
         big = t > tp_
-        lo_a = np.where(big, lof[active], va)
-        hi_a = np.where(big, va, hif[active])
-        lof[active], hif[active] = lo_a, hi_a
+        lo_a = np.where(big, lo_a, va)
+        hi_a = np.where(big, va, hi_a)
         with np.errstate(divide="ignore", invalid="ignore"):
             new = va - (np.log(t) - np.log(tp_)) * t / dt
         inside = (new > lo_a) & (new < hi_a)
         new = np.where(inside, new, 0.5 * (lo_a + hi_a))
         done = (np.abs(t - tp_) <= 1e-13 * tp_) | (np.abs(new - va) <= 1e-15 * va)
-        vf[active] = np.where(done, va, new)
-        active = active[~done]
-    return vf.reshape(v.shape)
+        vf[active[done]] = va[done]
+        if done.all():
+            return v
+        more = ~done
+        active, va, lo_a, hi_a = active[more], new[more], lo_a[more], hi_a[more]
+        part = [x[more] if x.ndim else x for x in part]
+    vf[active] = va  # (the iterations ran out: the last iterate)
+    return v
 
 
 def rated_pulse_current(width, duty, table_width, table_duty, table_current):
