@@ -669,9 +669,18 @@ def _steps_that_matter(r0, lim, d_k, z_k, peak=True):
         m, keep[:, 0], count = 1, True, np.maximum(count, 1)
     if m * 2 > n_steps:
         return None
-    steps = np.argsort(~keep, axis=1, kind="stable")[:, :m]
-    last = np.take_along_axis(steps, np.maximum(count - 1, 0)[:, None], axis=1)
-    return np.where(np.arange(m)[None, :] < count[:, None], steps, last)
+    return _listed(keep, count, m)
+
+
+def _listed(keep, count, m):
+    """Each row's True columns of ``keep`` (``count`` per row, ``m`` at most) in increasing
+    order, the row's last one repeated to fill ``m`` (a row with none: column 0)."""
+    rows, cols = np.nonzero(keep)  # (row by row, columns increasing)
+    ends = np.cumsum(count)
+    steps = np.empty((keep.shape[0], m), dtype=np.intp)
+    steps[:] = np.where(count > 0, cols[np.maximum(ends - 1, 0)], 0)[:, None] if cols.size else 0
+    steps[rows, np.arange(rows.size) - (ends - count)[rows]] = cols
+    return steps
 
 
 def _near_envelope(a, b, d, z, tol):

@@ -275,3 +275,22 @@ def test_operating_point_computes_only_the_energy_forms_it_selects():
                                           *fit)
         for name, x in zip(alone._fields, alone, strict=True):
             assert np.array_equal(x, getattr(mixed, name)[:-1]), name
+
+
+@settings(max_examples=60, deadline=None)
+@given(seed=st.integers(0, 2**32 - 1), n_c=st.integers(1, 20), n_steps=st.integers(1, 200),
+       density=st.floats(0.0, 0.3), empty_rows=st.floats(0.0, 0.5))
+def test_kept_steps_are_listed_as_a_stable_argsort_lists_them(seed, n_c, n_steps, density,
+                                                              empty_rows):
+    # The layout the scan reads: per circuit its kept steps in increasing order, then its
+    # last kept step repeated (step 0 for a circuit that keeps none). Oracle: the stable
+    # argsort of the mask and the last kept step taken along it (the former construction).
+    rng = np.random.default_rng(seed)
+    keep = rng.random((n_c, n_steps)) < density
+    keep[rng.random(n_c) < empty_rows] = False
+    count = keep.sum(axis=1)
+    m = max(int(count.max()), 1)
+    order = np.argsort(~keep, axis=1, kind="stable")[:, :m]
+    last = np.take_along_axis(order, np.maximum(count - 1, 0)[:, None], axis=1)
+    want = np.where(np.arange(m)[None, :] < count[:, None], order, last)
+    assert np.array_equal(supply._listed(keep, count, m), want)
