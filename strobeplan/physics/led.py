@@ -420,6 +420,56 @@ def pulse_operating_point(supply_voltage, capacitance, esr, series_resistor, on_
     1. Schubert (2006), sec. 4.2 (LED I-V).
     2. Lewin (1981), dilogarithm identities used for the LED-energy integral.
     """
+    return _pulse(supply_voltage, capacitance, esr, series_resistor, on_resistance,
+                  recharge_current, width, n_vt, saturation_current, led_series_resistance)
+
+
+def pulse_end(supply_voltage, capacitance, esr, series_resistor, on_resistance,
+              recharge_current, width, n_vt, saturation_current, led_series_resistance):
+    """Peak current and end voltage of one flash: :func:`pulse_operating_point`'s
+    ``peak_current`` and ``end_voltage`` alone, by its arithmetic (the pulse's integrals,
+    which a burst's flash-by-flash sag does not read, are not computed).
+
+    Parameters
+    ----------
+    supply_voltage : float or ndarray
+        Capacitor voltage at the start of the pulse. [V]
+    capacitance : float or ndarray
+        Storage capacitance. [F]
+    esr : float or ndarray
+        Equivalent series resistance of the capacitor. [ohm]
+    series_resistor : float or ndarray
+        Current-setting series resistor. [ohm]
+    on_resistance : float or ndarray
+        Switch on-resistance. [ohm]
+    recharge_current : float or ndarray
+        Boost current limit. [A]
+    width : float or ndarray
+        Gate-on time. [s]
+    n_vt : float or ndarray
+        LED ideality times thermal voltage. [V]
+    saturation_current : float or ndarray
+        LED saturation current. [A]
+    led_series_resistance : float or ndarray
+        LED series resistance. [ohm]
+
+    Returns
+    -------
+    tuple of ndarray
+        Peak current [A] and the ideal capacitor voltage at the end of the pulse [V].
+
+    References
+    ----------
+    1. Schubert (2006), sec. 4.2 (LED I-V).
+    """
+    return _pulse(supply_voltage, capacitance, esr, series_resistor, on_resistance,
+                  recharge_current, width, n_vt, saturation_current, led_series_resistance,
+                  end_only=True)
+
+
+def _pulse(supply_voltage, capacitance, esr, series_resistor, on_resistance, recharge_current,
+           width, n_vt, saturation_current, led_series_resistance, end_only=False):
+    """:func:`pulse_operating_point` (or, with ``end_only``, :func:`pulse_end`)."""
     vs, c, esr_, rser, ron, ib, tp, a, i_s, rs = np.broadcast_arrays(
         *[np.asarray(x, dtype=float) for x in (
             supply_voltage, capacitance, esr, series_resistor, on_resistance,
@@ -466,6 +516,8 @@ def pulse_operating_point(supply_voltage, capacitance, esr, series_resistor, on_
     with np.errstate(divide="ignore"):
         ln_d = np.log(d)
     vc_drop = r_tot * de + a * dl
+    if end_only:
+        return i0, vs - np.where(droops, vc_drop, 0.0)
     charge = c * vc_drop + ib_d * tp
     # integral of du/X from u1 to u0, times D:  ln((X-D)/X) difference
     d_inv_x = np.logaddexp(0.0, ln_d - u1) - np.logaddexp(0.0, ln_d - u0)

@@ -28,7 +28,12 @@ from typing import NamedTuple
 
 import numpy as np
 
-from strobeplan.physics.led import current_at_voltage, forward_voltage, pulse_operating_point
+from strobeplan.physics.led import (
+    current_at_voltage,
+    forward_voltage,
+    pulse_end,
+    pulse_operating_point,
+)
 
 
 def _f(x):
@@ -143,7 +148,8 @@ def burst_sag(supply_voltage, capacitance, esr, series_resistor, on_resistance,
     """Capacitor sag across a burst, flash by flash.
 
     Each flash is the exact operating point (:func:`strobeplan.physics.led.
-    pulse_operating_point`) from the voltage the previous one left; between flashes the
+    pulse_operating_point`; its peak current and end voltage, :func:`strobeplan.physics.led.
+    pulse_end`) from the voltage the previous one left; between flashes the
     boost recharges at its limit for ``spacing - width``, never above the set point. The
     loop runs over the flash index (up to the largest ``n_pulses``), each step vectorised
     over the candidates whose burst still changes.
@@ -224,9 +230,7 @@ def burst_sag(supply_voltage, capacitance, esr, series_resistor, on_resistance,
     k = 1
     while act.size:
         c_a, esr_a, rser_a, ron_a, ib_a, tp_a, a_a, is_a, rs_a, vs_a, s_a, n_a = part
-        op = pulse_operating_point(v, c_a, esr_a, rser_a, ron_a, ib_a, tp_a, a_a, is_a, rs_a)
-        peak = np.asarray(op.peak_current, dtype=float)
-        end = np.asarray(op.end_voltage, dtype=float)
+        peak, end = pulse_end(v, c_a, esr_a, rser_a, ron_a, ib_a, tp_a, a_a, is_a, rs_a)
         last[act] = peak
         v_before_last[act] = v
         v_end[act] = end

@@ -294,3 +294,25 @@ def test_kept_steps_are_listed_as_a_stable_argsort_lists_them(seed, n_c, n_steps
     last = np.take_along_axis(order, np.maximum(count - 1, 0)[:, None], axis=1)
     want = np.where(np.arange(m)[None, :] < count[:, None], order, last)
     assert np.array_equal(supply._listed(keep, count, m), want)
+
+
+@settings(max_examples=40, deadline=None)
+@given(seed=st.integers(0, 2**32 - 1), n=st.integers(1, 50))
+def test_pulse_end_is_the_operating_points_peak_and_end_voltage(seed, n):
+    # A burst's later flashes read only the peak current and the end voltage: pulse_end
+    # must give the operating point's own (the oracle), bit for bit, drooping or held by
+    # the boost, short or long against the circuit's time constant.
+    rng = np.random.default_rng(seed)
+    vs = rng.uniform(2.0, 36.0, n)
+    c = 10.0 ** rng.uniform(-6, -2, n)
+    rser = rng.choice([0.22, 1.0, 4.7, 68.0], n)
+    ib = rng.uniform(0.0, 2.0, n)
+    width = 10.0 ** rng.uniform(-7, -1, n)
+    args = (vs, c, 0.05, rser, 0.01, ib, width, LEVITATOR_FIT["n_vt"],
+            LEVITATOR_FIT["saturation_current"], LEVITATOR_FIT["led_series_resistance"])
+    op = led.pulse_operating_point(*args)
+    peak, end = led.pulse_end(*args)
+    assert np.array_equal(peak, op.peak_current) and np.array_equal(end, op.end_voltage)
+    one = tuple(x[0] if np.ndim(x) else x for x in args)
+    op1 = led.pulse_operating_point(*one)
+    assert tuple(map(float, led.pulse_end(*one))) == (op1.peak_current, op1.end_voltage)
