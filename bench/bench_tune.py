@@ -16,8 +16,9 @@ nothing.
   operating point's transcendentals, counted once although the burst sag repeats them per
   flash). The full stuck-on time grid (``steps`` below) is not counted: the engine scans
   only the steps that can change the peak or the first crossing
-  (``physics.supply._steps_that_matter``, a rigorous envelope test; the number it kept is
-  printed). Median of --repeat alternating runs with the engine; the ratio engine / floor
+  (``physics.supply._steps_that_matter``, a rigorous envelope test; the number it kept for
+  a full plan is printed; the search's chunks, which no rule reads the peak of, keep only
+  the crossing's). Median of --repeat alternating runs with the engine; the ratio engine / floor
   says how far the engine is above numpy's limit.
 * "scalar": the same floor operations on plain Python floats with ``math`` (one candidate
   at a time: the fair scalar baseline, not numpy on one-element arrays); the grid's speed-up
