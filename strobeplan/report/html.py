@@ -416,10 +416,8 @@ def report_html(plan, rig_text: str | None = None, plots=PLOT_ORDER, tune_result
     plots : sequence of str, optional
         Which plots to draw, in order (a plot whose inputs the plan lacks is listed with
         the reason instead).
-    tune_result : strobeplan.tune.TuneResult or callable, optional
-        The design search of the rig, for the trade-off plot; or a function returning it
-        (:func:`strobeplan.background.start`), called once the figures that do not need
-        it and the preview are drawn (the search may run in another process meanwhile).
+    tune_result : strobeplan.tune.TuneResult, optional
+        The design search of the rig, for the trade-off plot.
     measured : strobeplan.analyse.Analysis, optional
         Captured frames analysed (``report --frames``): a "Measured against planned"
         section (strobeplan/report/measured.py).
@@ -433,16 +431,7 @@ def report_html(plan, rig_text: str | None = None, plots=PLOT_ORDER, tune_result
 
     rig = plan.rig
     verdict = plan.verdict
-    # The search's figure last: the others and the preview do not wait for it.
-    searched = [k for k in plots if k == "tradeoff"]
-    drawn, missing = _figures(plan, [k for k in plots if k not in searched])
-    preview = _preview(plan)
-    if searched:
-        result = tune_result() if callable(tune_result) else tune_result
-        more, why = _figures(plan, searched, result)
-        order = {k: i for i, k in enumerate(plots)}
-        drawn = sorted(drawn + more, key=lambda kv: order[kv[0]])
-        missing = sorted(missing + why, key=lambda kv: order[kv[0]])
+    drawn, missing = _figures(plan, plots, tune_result)
     parts = [
         "<!DOCTYPE html>",
         '<html lang="en">',
@@ -484,7 +473,7 @@ def report_html(plan, rig_text: str | None = None, plots=PLOT_ORDER, tune_result
         parts.append('<p class="missing">Not drawn:</p><ul class="missing">'
                      + "".join(f"<li>{_e(k)}: {_e(why)}</li>" for k, why in missing)
                      + "</ul>")
-    parts += ["</section>", '<section id="preview"><h2>Preview</h2>', preview,
+    parts += ["</section>", '<section id="preview"><h2>Preview</h2>', _preview(plan),
               "</section>", '<section id="plan"><h2>Plan</h2>']
     parts += [_section_table(name, section) for name, section in plan.sections()]
     if measured is not None:
