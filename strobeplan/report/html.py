@@ -388,7 +388,8 @@ def _preview(plan) -> str:
     except StrobeplanError as exc:
         return f'<p class="missing">No preview: {_e(str(exc))}</p>'
     sheet = contact_sheet(pv, tile=min(PREVIEW_PIXELS, pv.grid.nx))
-    png = base64.b64encode(_png_bytes(sheet, level=6)).decode()  # 9: 10 % smaller, 15x slower
+    # zlib level 4: 10 % larger than level 6 and a third of its time (9: 15 x slower)
+    png = base64.b64encode(_png_bytes(sheet, level=4)).decode()
     s = pv.summary
     notes = "".join(f"<li>{_e(f.code)}: {_e(f.message)}</li>" for f in pv.findings)
     return (f'<figure id="preview-sheet"><img alt="synthetic schlieren frames over the sweep" '
