@@ -289,7 +289,7 @@ def _search(rig, limits, grid, known, t0, *, chunk, runner_ups, progress, refine
     # not evaluated over a grid (the timer counters' discrete fits); such a candidate is
     # listed and the next one tried.
     for cand in cands:
-        plan = solve(candidate_rig(rig, cand))
+        plan = solve(candidate_rig(rig, cand), known=known)  # air, field: the rig's own
         if plan.verdict == cand.verdict:
             best, best_plan = cand, plan
             break
