@@ -4,7 +4,9 @@ The package is installed the way users get it (``pip install --no-deps --target 
 a regular, non-editable, byte-compiled install) and run from there with PYTHONPATH=TMP
 (the editable install is left alone). Every command and its floor run alternately in fresh
 processes; each figure is the median of --repeat runs (>= 9), and the verdict is its ratio
-to the floor measured in the same run, so the load of a shared machine cancels out:
+to the floor measured in the same run, so the load of a shared machine cancels out (the
+ratio of CPU times, user + system of the command and any process it starts, is printed
+beside it: on a loaded machine the steadier of the two):
 
 * F    = ``python -c "import numpy, pydantic, click"``
 * Fmpl = F + ``import matplotlib.figure`` + one backend (agg for PNG, svg for SVG)
@@ -21,6 +23,7 @@ from __future__ import annotations
 
 import argparse
 import os
+import resource
 import statistics
 import subprocess
 import sys
@@ -57,26 +60,33 @@ def install(target: Path) -> None:
                    check=True)
 
 
-def run(cmd: list[str], env: dict) -> float:
+def run(cmd: list[str], env: dict) -> tuple[float, float]:
+    """(wall seconds, CPU seconds: user + system of the process and its children)."""
+    before = resource.getrusage(resource.RUSAGE_CHILDREN)
     t0 = time.perf_counter()
     subprocess.run(cmd, env=env, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL,
                    cwd=tempfile.gettempdir())
-    return time.perf_counter() - t0
+    wall = time.perf_counter() - t0
+    after = resource.getrusage(resource.RUSAGE_CHILDREN)
+    return wall, (after.ru_utime - before.ru_utime) + (after.ru_stime - before.ru_stime)
 
 
 def compare(label: str, cmd: list[str], floor: list[str], env: dict, repeat: int,
             target: float, floor_name: str) -> float:
-    """Median seconds of ``cmd`` and of ``floor``, run alternately; prints the ratio."""
+    """Median seconds of ``cmd`` and of ``floor``, run alternately; prints the ratio of the
+    wall times (the target's) and, for a loaded machine, of the CPU times."""
     run(cmd, env)  # warm the page cache (and matplotlib's font cache) once
     a, b = [], []
     for _ in range(repeat):
         b.append(run(floor, env))
         a.append(run(cmd, env))
-    ma, mb = statistics.median(a), statistics.median(b)
+    ma, mb = (statistics.median(w for w, _c in x) for x in (a, b))
+    ca, cb = (statistics.median(c for _w, c in x) for x in (a, b))
     ratio = ma / mb
     ok = "met" if ratio <= target else "NOT MET"
     print(f"{label:<42} {ma * 1e3:7.0f} ms / {floor_name} {mb * 1e3:5.0f} ms = "
-          f"{ratio:5.2f} x {floor_name} (target <= {target:g}: {ok})", flush=True)
+          f"{ratio:5.2f} x {floor_name} (target <= {target:g}: {ok}); CPU time "
+          f"{ca / cb:5.2f} x", flush=True)
     return ratio
 
 

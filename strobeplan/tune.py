@@ -237,9 +237,10 @@ def _search(rig, limits, grid, known, t0, *, chunk, runner_ups, progress, refine
         goal = goal or objective(ev.plan)[0]
         cons = ev.constraint_masks()
         n_bad = sum((m.astype(np.int64) for m in cons.values()), np.zeros(ev.light.shape, int))
+        alone = n_bad == 1
         for code, m in cons.items():
-            excluded[code] = excluded.get(code, 0) + int(m.sum())
-            only[code] = only.get(code, 0) + int((m & (n_bad == 1)).sum())
+            excluded[code] = excluded.get(code, 0) + int(np.count_nonzero(m))
+            only[code] = only.get(code, 0) + int(np.count_nonzero(m & alone))
         reached["retention"] = max(reached["retention"], float(np.nanmax(ev.retention)))
         reached["margin"] = max(reached["margin"], float(np.nanmax(ev.margin)))
         ok = ev.feasible
@@ -289,7 +290,7 @@ def _search(rig, limits, grid, known, t0, *, chunk, runner_ups, progress, refine
     # not evaluated over a grid (the timer counters' discrete fits); such a candidate is
     # listed and the next one tried.
     for cand in cands:
-        plan = solve(candidate_rig(rig, cand))
+        plan = solve(candidate_rig(rig, cand), known=known)  # air, field: the rig's own
         if plan.verdict == cand.verdict:
             best, best_plan = cand, plan
             break
