@@ -1,0 +1,174 @@
+"""The design search's shortcuts give the same numbers as the plain computation.
+
+A grid chunk's plan (``rules_only``) skips figures no rule reads and resolves the eye's time
+to the limit only as far as its rule's threshold; the light budget computes each factor at
+the fewest design dimensions it depends on. The reference for every comparison is numpy's
+own broadcasting (NumPy reference, "Broadcasting"): the plain formula on broadcast arrays,
+and the plan of the same design solved with every figure.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from strobeplan import tune as tuner
+from strobeplan.checks import RULES, load_all
+from strobeplan.checks.image import EYE_HAZARD_TIME
+from strobeplan.physics import camera as cam_model
+from strobeplan.physics.arrays import compact, expand
+from strobeplan.physics.photobiology import HAZARD_TIME
+from strobeplan.rig import rig_from_dict
+from strobeplan.solve import solve
+from strobeplan.stages import image as image_stage
+from tests.conftest import patched
+
+# Figures a grid chunk's light budget leaves out (no rule and no search figure reads them).
+SKIPPED = {"electrons_per_flash", "grey_level", "grey_fraction", "shot_noise_electrons",
+           "min_detectable_spl_db", "visible"}
+
+
+@st.composite
+def broadcast_cases(draw):
+    shape = tuple(draw(st.lists(st.integers(1, 4), min_size=1, max_size=4)))
+    small = tuple(n if draw(st.booleans()) else 1 for n in shape)
+    small = small[draw(st.integers(0, len(small))):]  # fewer leading axes
+    return small, shape
+
+
+@settings(max_examples=60, deadline=None)
+@given(broadcast_cases())
+def test_compact_and_expand_agree_with_broadcast_to(case):
+    small, shape = case
+    x = np.arange(float(np.prod(small))).reshape(small) + 0.5
+    view = np.broadcast_to(x, shape)
+    full = expand(x, shape)
+    # numpy's broadcast_to is the reference: same values, a fresh C-contiguous array
+    assert full.shape == shape and full.flags.c_contiguous
+    assert np.array_equal(full, view) and not np.shares_memory(full, x)
+    back = compact(view)
+    assert np.array_equal(np.broadcast_to(back, shape), view)
+    assert back.size == x.size  # every broadcast axis cut to one
+    assert np.array_equal(expand(view, shape), view)
+
+
+def test_expand_refuses_shapes_that_do_not_broadcast():
+    with pytest.raises(ValueError):
+        expand(np.zeros((3, 2)), (3, 4))
+    with pytest.raises(ValueError):
+        expand(np.zeros((2, 3)), (3,))
+
+
+def _grid_design(rig, every=3):
+    base = solve(rig, checks=False, upto="flash")
+    grid = tuner.default_grid(rig, base, widths=5, series="E12", resistor_range=(0.1, 100.0),
+                              max_every=every, supply_range=(6.0, 36.0), supply_steps=2)
+    return grid.design(slice(0, grid.shape[0]))
+
+
+RIGS = [("levitator-40k", {}),
+        ("levitator-40k", {"supply.storage_capacitance": "47 uF",
+                           "supply.max_current": "150 mA"}),  # the burst droops
+        ("rangefinder-58k", {}),
+        ("unsafe-bench", {}),  # the eye hazard fires
+        ("levitator-40k", {"led.emitting_size": "30 um"})]
+
+
+@pytest.mark.parametrize("base, patch", RIGS)
+def test_grid_chunk_figures_equal_the_full_plan(base, patch):
+    rig = rig_from_dict(patched(base, patch))
+    design = _grid_design(rig)
+    full = solve(rig, design, checks=False)
+    chunk = solve(rig, design, checks=False, rules_only=True)
+    shape = design.shape
+    if full.image is not None:
+        for name, value in vars(full.image).items():
+            got = getattr(chunk.image, name)
+            if got is None and name in SKIPPED:
+                continue
+            if value is None or isinstance(value, str):
+                assert got == value, name
+                continue
+            assert np.array_equal(np.broadcast_to(got, shape), np.broadcast_to(value, shape),
+                                  equal_nan=True), name
+    if full.eye is not None:
+        t_full = np.asarray(full.eye.time_to_limit_s, dtype=float)
+        t_chunk = np.asarray(chunk.eye.time_to_limit_s, dtype=float)
+        assert np.array_equal(np.broadcast_to(t_chunk < EYE_HAZARD_TIME, shape),
+                              np.broadcast_to(t_full < EYE_HAZARD_TIME, shape))
+        # exact, or inf where (and because) no candidate reaches a limit that fast
+        assert np.all((t_chunk == t_full) | (np.isinf(t_chunk) & (t_full >= HAZARD_TIME)))
+    load_all()
+    for code in ("image.too_dark", "image.snr_low", "image.overexposed", "eye.hazard",
+                 "led.optical_exceeds_electrical", "led.output_extrapolated"):
+        a, b = RULES[code].func(full), RULES[code].func(chunk)
+        if a is None:
+            assert b is None, code
+            continue
+        assert np.array_equal(np.broadcast_to(np.asarray(a.when), shape),
+                              np.broadcast_to(np.asarray(b.when), shape)), code
+
+
+def test_the_eye_rule_and_the_stage_share_the_threshold():
+    assert EYE_HAZARD_TIME == HAZARD_TIME == 0.25  # IEC 62471:2006, Table 6.1 (0.25 s)
+
+
+@pytest.mark.parametrize("base, patch", RIGS[:2])
+def test_flash_energy_equals_the_simpson_formula_on_broadcast_arrays(base, patch):
+    # The plain formula (Simpson over the pulse's peak, mean and end current, then over the
+    # burst's first, middle and last flash), on arrays broadcast to the grid's full shape.
+    rig = rig_from_dict(patched(base, patch))
+    design = _grid_design(rig, every=4)
+    plan = solve(rig, design, checks=False)
+    shape = design.shape
+    led = rig.led
+    table = led.relative_output or []
+
+    def flux(i):
+        return cam_model.radiant_flux(i, led.optical_power.current, led.optical_power.power,
+                                      [p.current for p in table], [p.ratio for p in table])
+
+    def full(x):
+        return np.broadcast_to(np.asarray(x, dtype=float), shape)
+
+    pk, mean, end = (full(getattr(plan.led, k))
+                     for k in ("peak_current_a", "mean_current_a", "end_current_a"))
+    last = full(plan.supply.last_flash_current_a)
+    width = full(plan.flash.current_width_s)
+    s = np.where(pk > 0, last / np.where(pk > 0, pk, 1.0), 1.0)
+
+    def flash(scale):
+        return width * (flux(scale * pk) + 4.0 * flux(scale * mean) + flux(scale * end)) / 6.0
+
+    one = (flash(1.0) + 4.0 * flash((1.0 + s) / 2.0) + flash(s)) / 6.0
+    n, got, _ = image_stage._emitted(rig, plan)
+    assert np.array_equal(np.broadcast_to(got, shape), one)
+    if patch:
+        assert np.any(s != 1.0)  # the drooping rig exercises the per-element path
+    energy, _, _, _ = image_stage._emitted_per_frame(rig, design, plan)
+    assert np.array_equal(np.broadcast_to(energy, shape), full(n) * one)
+
+
+@settings(max_examples=25, deadline=None)
+@given(st.floats(-3.0, 3.0))
+def test_eye_bound_keeps_the_hazard_mask_near_its_threshold(log_scale):
+    # The LED's rated flux scaled over six decades around the levitator's: the grid chunk's
+    # bounded time to the limit fires exactly where the exact one does.
+    raw = patched("levitator-40k", {"led.emitting_size": "100 um"})
+    power = raw["led"]["optical_power"]
+    power["power"] = f"{float(_watts(power['power'])) * 10.0 ** log_scale!r} W"
+    rig = rig_from_dict(raw)
+    design = _grid_design(rig, every=2)
+    load_all()
+    full = RULES["eye.hazard"].func(solve(rig, design, checks=False))
+    chunk = RULES["eye.hazard"].func(solve(rig, design, checks=False, rules_only=True))
+    assert np.array_equal(np.broadcast_to(np.asarray(chunk.when), design.shape),
+                          np.broadcast_to(np.asarray(full.when), design.shape))
+
+
+def _watts(text):
+    from strobeplan.units import parse
+
+    return parse(text, "power") if isinstance(text, str) else float(text)
