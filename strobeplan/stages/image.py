@@ -26,6 +26,9 @@ scalar rig and a grid of designs alike (fields are then arrays).
 
 from __future__ import annotations
 
+from dataclasses import field
+from typing import Any
+
 import numpy as np
 
 from ..physics import camera as cam_model
@@ -105,6 +108,8 @@ class ImageSection(Section):
     min_snr: float | None = q(default=None)
     min_detectable_spl_db: float | None = q("dB", default=None)
     visible: bool | None = q(default=None)
+    # (flashes per frame, one flash's optical energy, peak flux): ``_emitted``, for the eye
+    _emitted: Any = field(default=None, repr=False, compare=False)
 
 
 @dataclass
@@ -201,7 +206,7 @@ def compute(rig, design, plan) -> ImageSection | None:
     bench = imaging.bench_length(double, f, d, cam.lens.focal_length, separation)
     pupil = cam.lens.focal_length / cam.lens.f_number
     lens_pass = cam_model.lens_pass(pupil, img_w, img_h)
-    t0 = cut_model.transmission(0.0, img_h, rod, opt.cut_fraction, width, blur)
+    t0 = _cutoff("transmission", 0.0, img_h, rod, opt.cut_fraction, width, blur)
     rng = cut_model.linear_range(img_h, rod, opt.cut_fraction, width)
 
     section = ImageSection(
@@ -226,8 +231,8 @@ def compute(rig, design, plan) -> ImageSection | None:
     if optics is not None and optics.deflection_rad is not None:
         eps = optics.deflection_rad
         shift = f2 * np.asarray(eps)
-        mean, first, second = cut_model.harmonics(shift, img_h, rod, opt.cut_fraction, width,
-                                                  blur)
+        mean, first, second = _cutoff("harmonics", shift, img_h, rod, opt.cut_fraction, width,
+                                      blur)
         section.deflection_rad = _val(eps)
         section.shift_amplitude_m = _val(shift)
         section.saturated = _flag(shift > rng)
@@ -235,13 +240,36 @@ def compute(rig, design, plan) -> ImageSection | None:
         section.second_harmonic = _val(second)
         # the highest harmonic the phase sweep must resolve, and the fewest equal steps
         # that do (N steps resolve orders up to (N - 1) / 2: physics/demod.py)
-        amps = cut_model.harmonic_amplitudes(shift, img_h, rod, opt.cut_fraction, width, blur,
-                                             orders=HARMONICS_CHECKED)
+        amps = _cutoff("harmonic_amplitudes", shift, img_h, rod, opt.cut_fraction, width, blur,
+                       HARMONICS_CHECKED)
         top = demod.highest_significant_order(amps, order, ALIAS_FRACTION)
         section.harmonic_order = _int(top)
         section.min_phase_steps = _int(demod.min_steps(top))
     _light_budget(rig, design, plan, section, img_w, img_h, lens_pass, retention)
     return section
+
+
+_CUTOFF_MEMO: dict = {}
+
+
+def _cutoff(name, shift, *args):
+    """``physics.cutoff.<name>(shift, *args)``, remembered for a scalar shift and scalar
+    arguments: every chunk of a design search shares one deflection, so the cutoff's
+    response (a pure function of these numbers) is computed once. Arrays are returned
+    read-only."""
+    fn = getattr(cut_model, name)
+    if np.ndim(shift) != 0 or any(np.ndim(a) != 0 for a in args):
+        return fn(shift, *args)
+    key = (name,) + tuple(repr(float(a)) for a in (shift,) + args)
+    if key not in _CUTOFF_MEMO:
+        if len(_CUTOFF_MEMO) >= 256:
+            _CUTOFF_MEMO.clear()
+        out = fn(shift, *args)
+        for a in out if isinstance(out, tuple) else (out,):
+            if isinstance(a, np.ndarray):
+                a.flags.writeable = False
+        _CUTOFF_MEMO[key] = out
+    return _CUTOFF_MEMO[key]
 
 
 def _flux(led, current):
@@ -251,15 +279,17 @@ def _flux(led, current):
                                   [p.current for p in table], [p.ratio for p in table])
 
 
+def _expanded(*xs):
+    """The arrays broadcast against one another, those with broadcast axes of their own
+    expanded (physics.arrays.expand: elementwise work on them is faster, same numbers)."""
+    xs = [np.asarray(x) for x in xs]
+    shape = np.broadcast_shapes(*(x.shape for x in xs))
+    return [expand(x, shape) if x.size > 1 and x.shape != shape else x for x in xs]
+
+
 def _times(a, b):
-    """``a * b``; operands with broadcast axes of their own are expanded first (same numbers:
-    see physics.arrays.expand)."""
-    a, b = np.asarray(a), np.asarray(b)
-    shape = np.broadcast_shapes(a.shape, b.shape)
-    if a.size > 1 and a.shape != shape:
-        a = expand(a, shape)
-    if b.size > 1 and b.shape != shape:
-        b = expand(b, shape)
+    """``a * b`` on :func:`_expanded` operands."""
+    a, b = _expanded(a, b)
     return a * b
 
 
@@ -279,7 +309,8 @@ def _emitted(rig, plan):
     end = compact(np.asarray(lp.end_current_a, dtype=float))
     last = plan.supply.last_flash_current_a if plan.supply is not None else lp.peak_current_a
     safe = np.where(pk > 0, pk, 1.0)
-    s_last = np.where(pk > 0, compact(np.asarray(last, dtype=float)) / safe, 1.0)
+    lit, safe, last = _expanded(pk > 0, safe, compact(np.asarray(last, dtype=float)))
+    s_last = np.where(lit, last / safe, 1.0)
     width = compact(np.asarray(plan.flash.current_width_s, dtype=float))
 
     def flash(scale, pk, mean, end, width):  # Simpson over the pulse: peak, mean, end current
@@ -297,7 +328,7 @@ def _emitted(rig, plan):
                + flash(s_last, pk, mean, end, width)) / 6.0
     elif droops.any():
         shape = np.broadcast_shapes(one.shape, droops.shape)
-        at = np.nonzero(np.broadcast_to(droops, shape))
+        at = np.unravel_index(np.flatnonzero(np.broadcast_to(droops, shape)), shape)
 
         def pick(x):
             return np.broadcast_to(x, shape)[at]
@@ -308,9 +339,12 @@ def _emitted(rig, plan):
     return n, one, _flux(led, pk)
 
 
-def _emitted_per_frame(rig, design, plan):
-    """(optical energy of the flashes in one frame, of one mean flash, flashes, peak flux)."""
+def _emitted_per_frame(rig, design, plan, section=None):
+    """(optical energy of the flashes in one frame, of one mean flash, flashes, peak flux);
+    ``_emitted`` is kept on ``section`` (the image section) for the eye stage."""
     n, one, flux_pk = _emitted(rig, plan)
+    if section is not None:
+        section._emitted = (n, one, flux_pk)
     return _times(n, one), one, n, flux_pk
 
 
@@ -329,7 +363,7 @@ def _light_budget(rig, design, plan, section, img_w, img_h, lens_pass, retention
     white = led.spectrum == "white"
     peak = led.wavelength or 0.0
     lam = eye_model.photon_wavelength(peak, white)
-    energy_frame, energy_flash, n, flux_pk = _emitted_per_frame(rig, design, plan)
+    energy_frame, energy_flash, n, flux_pk = _emitted_per_frame(rig, design, plan, section)
     area = led.emitting_size**2
     src_w, src_h = _source(rig)
     src_area = src_w * src_h
@@ -422,7 +456,7 @@ def cutoff_blur(rig) -> float:
 def _mean_transmission(rig, section, img_h):
     opt = rig.optics
     blur = cutoff_blur(rig)
-    mean, _, _ = cut_model.harmonics(np.asarray(section.shift_amplitude_m), img_h,
+    mean, _, _ = _cutoff("harmonics", np.asarray(section.shift_amplitude_m), img_h,
                                      opt.cutoff == "rod", opt.cut_fraction,
                                      opt.cutoff_width or 0.0, blur)
     return np.asarray(mean)
@@ -440,7 +474,7 @@ def compute_eye(rig, design, plan) -> EyeSection | None:
     if img is None or img.flux_peak_w is None or plan.supply is None:
         return None
     double = opt.layout == "double-pass"
-    _, energy_flash, _ = _emitted(rig, plan)
+    _, energy_flash, _ = img._emitted if img._emitted is not None else _emitted(rig, plan)
     rate = compact(np.asarray(plan.supply.flash_rate_average_hz, dtype=float))
     mirrors = opt.mirror_reflectance * ((1.0 - opt.beamsplitter) * opt.beamsplitter
                                         if double else opt.mirror_reflectance)
