@@ -193,3 +193,36 @@ def test_grid_chunk_exposure_equals_the_full_plan(base):
             continue
         assert np.array_equal(np.broadcast_to(got, design.shape),
                               np.broadcast_to(value, design.shape), equal_nan=True), name
+
+
+def test_rule_masks_are_read_only_views_equal_to_the_broadcast_conditions():
+    # checks.masks: each mask equals numpy's broadcast of the rule's conditions (ORed over
+    # its hits), is read-only, and the evaluation's verdict is 2 where a hazard or fault
+    # fires, else 1 where a warning does, else 0
+    from strobeplan.checks import masks
+
+    rig = rig_from_dict(patched("unsafe-bench", {}))
+    design = _grid_design(rig)
+    shape = design.shape
+    plan = solve(rig, design, checks=False)
+    fired = masks(plan, shape)
+    load_all()
+    assert fired
+    for code, m in fired.items():
+        hits = RULES[code].func(plan)
+        hits = hits if isinstance(hits, list) else [hits]
+        want = np.zeros(shape, dtype=bool)
+        for h in hits:
+            want = want | np.broadcast_to(np.asarray(h.when, dtype=bool), shape)
+        assert m.shape == shape and not m.flags.writeable
+        assert np.array_equal(m, want), code
+    ev = tuner.evaluate(rig, design)
+    fail = np.zeros(shape, dtype=bool)
+    warn = np.zeros(shape, dtype=bool)
+    for code, m in fired.items():
+        if RULES[code].severity in ("hazard", "fault"):
+            fail |= m
+        elif RULES[code].severity == "warning":
+            warn |= m
+    assert np.array_equal(ev.verdict, np.where(fail, 2, np.where(warn, 1, 0)))
+    assert ev.verdict.dtype == np.int64 and ev.score.shape == shape
