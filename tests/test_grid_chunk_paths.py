@@ -18,7 +18,7 @@ from strobeplan import tune as tuner
 from strobeplan.checks import RULES, load_all
 from strobeplan.checks.image import EYE_HAZARD_TIME
 from strobeplan.physics import camera as cam_model
-from strobeplan.physics.arrays import compact, expand
+from strobeplan.physics.arrays import compact, expand, expanded
 from strobeplan.physics.photobiology import HAZARD_TIME
 from strobeplan.rig import rig_from_dict
 from strobeplan.solve import solve
@@ -52,6 +52,23 @@ def test_compact_and_expand_agree_with_broadcast_to(case):
     assert np.array_equal(np.broadcast_to(back, shape), view)
     assert back.size == x.size  # every broadcast axis cut to one
     assert np.array_equal(expand(view, shape), view)
+
+
+@settings(max_examples=40, deadline=None)
+@given(broadcast_cases(), broadcast_cases())
+def test_expanded_operands_give_numpys_broadcast_result(a, b):
+    rng = np.random.default_rng(0)
+    x = rng.normal(size=a[0])
+    y = rng.normal(size=b[0])
+    try:
+        want = np.less_equal(x, y), x * y, x / y
+    except ValueError:  # numpy refuses: so does expanded
+        with pytest.raises(ValueError):
+            expanded(x, y)
+        return
+    xe, ye = expanded(x, y)
+    for got, ref in zip((np.less_equal(xe, ye), xe * ye, xe / ye), want, strict=True):
+        assert np.array_equal(got, ref)
 
 
 def test_expand_refuses_shapes_that_do_not_broadcast():

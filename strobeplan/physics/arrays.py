@@ -17,7 +17,7 @@ import numpy as np
 FWHM_PER_SIGMA = 2.0 * math.sqrt(2.0 * math.log(2.0))
 """Full width at half maximum of a Gaussian over its standard deviation (2.3548). [1]"""
 
-__all__ = ["unique", "compact", "expand"]
+__all__ = ["unique", "compact", "expand", "expanded"]
 
 
 def unique(values) -> np.ndarray:
@@ -91,3 +91,21 @@ def expand(x, shape: tuple[int, ...]) -> np.ndarray:
         if a.shape[axis] == 1 and shape[axis] != 1:
             a = np.repeat(a, shape[axis], axis=axis)
     return np.ascontiguousarray(a)
+
+
+def expanded(*xs) -> list:
+    """The operands as arrays of their common broadcast shape: each one with broadcast axes
+    of its own expanded (:func:`expand`), the others (full-shaped, or one value) as given.
+
+    ``op(*expanded(a, b))`` equals ``op(a, b)`` for any elementwise numpy operation (the
+    same numbers), faster when ``a`` and ``b`` broadcast against each other along short
+    inner axes.
+
+    Parameters
+    ----------
+    *xs : array_like
+        Operands that broadcast together. [any unit]
+    """
+    arrays = [np.asarray(x) for x in xs]
+    shape = np.broadcast_shapes(*(a.shape for a in arrays))
+    return [expand(a, shape) if a.size > 1 and a.shape != shape else a for a in arrays]

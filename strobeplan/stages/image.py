@@ -35,7 +35,7 @@ from ..physics import camera as cam_model
 from ..physics import cutoff as cut_model
 from ..physics import demod, imaging
 from ..physics import photobiology as eye_model
-from ..physics.arrays import compact, expand
+from ..physics.arrays import compact, expand, expanded
 from ..plan import Section, q
 from ..quickdc import dataclass
 
@@ -279,17 +279,9 @@ def _flux(led, current):
                                   [p.current for p in table], [p.ratio for p in table])
 
 
-def _expanded(*xs):
-    """The arrays broadcast against one another, those with broadcast axes of their own
-    expanded (physics.arrays.expand: elementwise work on them is faster, same numbers)."""
-    xs = [np.asarray(x) for x in xs]
-    shape = np.broadcast_shapes(*(x.shape for x in xs))
-    return [expand(x, shape) if x.size > 1 and x.shape != shape else x for x in xs]
-
-
 def _times(a, b):
-    """``a * b`` on :func:`_expanded` operands."""
-    a, b = _expanded(a, b)
+    """``a * b`` on expanded operands (physics.arrays.expanded: faster, same numbers)."""
+    a, b = expanded(a, b)
     return a * b
 
 
@@ -309,7 +301,7 @@ def _emitted(rig, plan):
     end = compact(np.asarray(lp.end_current_a, dtype=float))
     last = plan.supply.last_flash_current_a if plan.supply is not None else lp.peak_current_a
     safe = np.where(pk > 0, pk, 1.0)
-    lit, safe, last = _expanded(pk > 0, safe, compact(np.asarray(last, dtype=float)))
+    lit, safe, last = expanded(pk > 0, safe, compact(np.asarray(last, dtype=float)))
     s_last = np.where(lit, last / safe, 1.0)
     width = compact(np.asarray(plan.flash.current_width_s, dtype=float))
 
