@@ -243,3 +243,28 @@ def test_rule_masks_are_read_only_views_equal_to_the_broadcast_conditions():
             warn |= m
     assert np.array_equal(ev.verdict, np.where(fail, 2, np.where(warn, 1, 0)))
     assert ev.verdict.dtype == np.int64 and ev.score.shape == shape
+
+
+def test_grid_chunks_share_the_trigger_links_divider_search():
+    # The link stage of an array design remembers its divider search; each chunk's section
+    # is its own copy, equal to a fresh link_section's, with the chunk's own edge limits.
+    from strobeplan.stages import link as link_stage
+
+    rig = rig_from_dict(patched("levitator-40k", {}))
+    design = _grid_design(rig)
+    first = solve(rig, design, checks=False, upto="drive").trigger_link
+    again = solve(rig, design.with_(pulse_width=design.pulse_width * 0.5), checks=False,
+                  upto="drive").trigger_link
+    assert first is not again
+    assert np.shape(first.edge_limit_s) == np.shape(design.pulse_width)
+    link_stage._LINK_MEMO.clear()
+    fresh = solve(rig, design, checks=False, upto="drive").trigger_link
+    for name, value in vars(fresh).items():
+        if name.startswith("_") or name == "alternatives":
+            continue
+        got = getattr(first, name)
+        if isinstance(value, np.ndarray):
+            assert np.array_equal(got, value), name
+        else:
+            assert got == value, name
+    assert [str(a) for a in first.alternatives] == [str(a) for a in fresh.alternatives]
