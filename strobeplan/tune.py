@@ -39,6 +39,7 @@ import numpy as np
 
 from .design import Design
 from .physics.air import ZERO_CELSIUS
+from .physics.arrays import compact, expand
 from .physics.supply import forget_circuits
 from .quickdc import dataclass
 from .search_space import (
@@ -70,7 +71,7 @@ class Evaluation:
     """A grid plan and its rules: every array has the design's broadcast shape."""
 
     plan: Any
-    masks: dict[str, np.ndarray]  # code -> fires
+    masks: dict[str, np.ndarray]  # code -> fires (read-only; a broadcast view: checks.masks)
     verdict: np.ndarray  # 0 pass, 1 warn, 2 fail
     feasible: np.ndarray
     light: np.ndarray
@@ -98,28 +99,44 @@ def evaluate(rig, design: Design, known: dict | None = None, *,
     shape = design.shape
     plan = solve(rig, design, checks=False, known=known, rules_only=rules_only)
     fired = masks(plan, shape)
-    fail = np.zeros(shape, dtype=bool)
-    warn = np.zeros(shape, dtype=bool)
-    avoid = np.zeros(shape, dtype=bool)
+    fail, warn, avoid = [], [], []
     for code, m in fired.items():
         sev = RULES[code].severity
         if sev in ("hazard", "fault"):
-            fail |= m
+            fail.append(m)
         elif sev == "warning":
-            warn |= m
+            warn.append(m)
         if code in AVOID:
-            avoid |= m
-    verdict = np.where(fail, 2, np.where(warn, 1, 0))
+            avoid.append(m)
+    fail = _any_of(fail, shape)
+    warn = _any_of(warn, shape) | fail
+    verdict = np.add(fail, warn, dtype=np.int64)  # 2 fail, 1 warn, 0 pass
 
     def full(x):
         return np.broadcast_to(np.asarray(x, dtype=float), shape)
 
     name, score = objective(plan)
-    return Evaluation(plan=plan, masks=fired, verdict=verdict, feasible=~fail & ~avoid,
+    score = compact(np.asarray(score, dtype=float))
+    return Evaluation(plan=plan, masks=fired, verdict=verdict,
+                      feasible=~(fail | _any_of(avoid, shape)),
                       light=full(plan.led.light_per_frame_a_s),
                       margin=full(plan.led.thermal_margin_k),
                       retention=full(plan.exposure.retention),
-                      score=np.nan_to_num(full(score), nan=-np.inf))
+                      score=expand(np.nan_to_num(score, nan=-np.inf), shape))
+
+
+def _any_of(masks: list, shape: tuple) -> np.ndarray:
+    """A new bool array of ``shape``: where any of ``masks`` (arrays broadcasting to it)
+    holds. Masks of the same design dimensions are combined at those dimensions first."""
+    by_shape: dict[tuple, np.ndarray] = {}
+    for m in masks:
+        c = compact(m)
+        c = c.reshape((1,) * (len(shape) - c.ndim) + c.shape)
+        by_shape[c.shape] = by_shape[c.shape] | c if c.shape in by_shape else c
+    out = np.zeros(shape, dtype=bool)
+    for c in by_shape.values():
+        out |= c if c.shape == tuple(shape) else expand(c, shape)
+    return out
 
 
 # Sections that depend on the rig alone (not on the design): solved once per search.
@@ -235,7 +252,8 @@ def _search(rig, limits, grid, known, t0, *, chunk, runner_ups, progress, refine
         sl = slice(start, min(nw, start + rows))
         ev = evaluate(rig, grid.design(sl), known, rules_only=True)
         goal = goal or objective(ev.plan)[0]
-        cons = ev.constraint_masks()
+        # whole arrays: a mask may be a broadcast view (checks.masks), slow to reduce
+        cons = {c: expand(m, m.shape) for c, m in ev.constraint_masks().items()}
         n_bad = sum((m.astype(np.int64) for m in cons.values()), np.zeros(ev.light.shape, int))
         alone = n_bad == 1
         for code, m in cons.items():

@@ -11,12 +11,15 @@ import math
 
 import numpy as np
 
+from ..physics.photobiology import HAZARD_TIME
 from ..stages.image import TOO_DARK
 from ..units import render
 from .registry import Hit, rule
 
 OBJECT_PIXEL_TOLERANCE = 0.05  # a given object_pixel more than 5 % off the layout's
-EYE_HAZARD_TIME = 0.25  # [s] IEC 62471: the aversion response; risk group 3 below it
+# [s] IEC 62471: the aversion response; risk group 3 below it (the eye stage's grid plans
+# resolve the time to the limit just as far as this threshold: stages/image.py)
+EYE_HAZARD_TIME = HAZARD_TIME
 
 
 def _f(x) -> float:

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from ..physics.arrays import expanded
 from ..stages.power import RATING_DISAGREEMENT, REACTION_TIME
 from ..units import render
 from .registry import Hit, rule
@@ -37,7 +38,7 @@ def pulse_over_rating(plan):
                f"{render(s.rated_pulse_current_a, 'current')} allowed by {s.rating_source} at "
                f"{render(plan.design.pulse_width, 'time')} and {s.rating_duty:.2%} duty",
                value=s.peak_current_a, limit=s.rated_pulse_current_a, unit="A",
-               when=~(np.asarray(s.peak_current_a) <= s.rated_pulse_current_a))
+               when=~np.less_equal(*expanded(s.peak_current_a, s.rated_pulse_current_a)))
 
 
 @rule("led.ratings_disagree", "note",
@@ -298,7 +299,7 @@ def recharge_slow(plan):
     return Hit(lambda: f"recharge takes {render(s.recharge_time_s, 'time')}, the idle time is "
                f"{render(s.idle_time_s, 'time')}", value=s.recharge_time_s,
                limit=s.idle_time_s, unit="s",
-               when=~(np.asarray(s.recharge_time_s) <= s.idle_time_s))
+               when=~np.less_equal(*expanded(s.recharge_time_s, s.idle_time_s)))
 
 
 @rule("supply.brightness_drop", "warning",

@@ -14,11 +14,13 @@ depend on the design (pulse width, every, series resistor, supply voltage) must 
 
 from __future__ import annotations
 
+import math
 from collections.abc import Callable
 from typing import Any
 
 import numpy as np
 
+from ..physics.arrays import compact
 from ..plan import SEVERITIES, SEVERITY_RANK, Finding
 from ..quickdc import dataclass
 
@@ -97,18 +99,28 @@ def _scalar(x):
 
 def rule_masks(plan, shape: tuple[int, ...] = ()) -> dict[str, Any]:
     """code -> where the rule fires (bool array of ``shape``, the plan's design shape), for
-    every rule that fires somewhere. The design search's view of the same rules."""
+    every rule that fires somewhere. The design search's view of the same rules.
+
+    A mask is a read-only array of ``shape``: a broadcast view when the rule's condition
+    depends on fewer design dimensions (the condition is combined and tested for any hit
+    at those dimensions only).
+    """
+    shape = tuple(shape)
+    empty = math.prod(shape) == 0
     out: dict[str, Any] = {}
     for r in RULES.values():
         result = r.func(plan)
         if result is None:
             continue
         hits = result if isinstance(result, list) else [result]
-        mask = np.zeros(shape, dtype=bool)
+        mask = None
         for h in hits:
-            mask = mask | np.broadcast_to(np.asarray(h.when, dtype=bool), shape)
-        if mask.any():
-            out[r.code] = mask
+            when = compact(np.asarray(h.when, dtype=bool))
+            mask = when if mask is None else mask | when
+        if mask is None or empty or not mask.any():
+            continue
+        view = np.broadcast_to(mask, shape)  # a read-only view (raises if it does not fit)
+        out[r.code] = view
     return out
 
 

@@ -60,7 +60,9 @@ def jitter_rms(rig) -> float:
 def compute(rig, design, plan) -> ExposureSection:
     """The exposure section; needs ``plan.timing`` (realised frequency, smear) and
     ``plan.flash``. The widest pulse meeting the target and the harmonics are figures for
-    people, computed for a scalar design only (None over a grid)."""
+    people, computed for a scalar design only (None over a grid). A grid chunk's plan
+    (``plan.rules_only``) of a standing wave leaves the optical duration and the blur None:
+    no rule or search figure reads them then."""
     width = plan.flash.current_width_s  # the current's duration (gate plus switch delays)
     rise, fall = plan.flash.rise_s, plan.flash.fall_s
     w, tau = phosphor(rig)
@@ -70,8 +72,16 @@ def compute(rig, design, plan) -> ExposureSection:
     smear = plan.timing.smear
     target = rig.strobe.min_retention
     retention = scalar(model.retention(f, width, rise, fall, w, tau, sigma, smear))
-    duration = scalar(model.fwhm(width, rise, fall, w, tau))
-    if rig.wave.kind == "travelling":
+    travelling = rig.wave.kind == "travelling"
+    if plan.rules_only and not travelling:
+        # a grid chunk: the sampled FWHM feeds only the blur, which a standing wave has not
+        # (and which only exposure.blur_over_pixel reads, for travelling waves)
+        duration = blur = None
+    else:
+        duration = scalar(model.fwhm(width, rise, fall, w, tau))
+    if duration is None:
+        pass
+    elif travelling:
         blur = scalar(model.blur_distance(speed, duration))
     else:
         blur = scalar(np.zeros_like(np.asarray(duration, dtype=float)))
@@ -92,7 +102,8 @@ def compute(rig, design, plan) -> ExposureSection:
         centroid_delay_s=scalar(model.optical_centroid(width, rise, fall, w, tau)),
         optical_area_s=scalar(model.optical_area(width, rise, fall, w, tau)),
         blur_distance_m=blur,
-        blur_pixels=scalar(model.blur_pixels(blur, pixel)) if pixel else None,
+        blur_pixels=scalar(model.blur_pixels(blur, pixel)) if pixel and blur is not None
+        else None,
         wavelength_m=float(model.wavelength(speed, f)),
         retention=retention,
         retention_by_harmonic=by_harmonic,

@@ -26,12 +26,16 @@ scalar rig and a grid of designs alike (fields are then arrays).
 
 from __future__ import annotations
 
+from dataclasses import field
+from typing import Any
+
 import numpy as np
 
 from ..physics import camera as cam_model
 from ..physics import cutoff as cut_model
 from ..physics import demod, imaging
 from ..physics import photobiology as eye_model
+from ..physics.arrays import compact, expand, expanded
 from ..plan import Section, q
 from ..quickdc import dataclass
 
@@ -104,6 +108,8 @@ class ImageSection(Section):
     min_snr: float | None = q(default=None)
     min_detectable_spl_db: float | None = q("dB", default=None)
     visible: bool | None = q(default=None)
+    # (flashes per frame, one flash's optical energy, peak flux): ``_emitted``, for the eye
+    _emitted: Any = field(default=None, repr=False, compare=False)
 
 
 @dataclass
@@ -200,7 +206,7 @@ def compute(rig, design, plan) -> ImageSection | None:
     bench = imaging.bench_length(double, f, d, cam.lens.focal_length, separation)
     pupil = cam.lens.focal_length / cam.lens.f_number
     lens_pass = cam_model.lens_pass(pupil, img_w, img_h)
-    t0 = cut_model.transmission(0.0, img_h, rod, opt.cut_fraction, width, blur)
+    t0 = _cutoff("transmission", 0.0, img_h, rod, opt.cut_fraction, width, blur)
     rng = cut_model.linear_range(img_h, rod, opt.cut_fraction, width)
 
     section = ImageSection(
@@ -225,8 +231,8 @@ def compute(rig, design, plan) -> ImageSection | None:
     if optics is not None and optics.deflection_rad is not None:
         eps = optics.deflection_rad
         shift = f2 * np.asarray(eps)
-        mean, first, second = cut_model.harmonics(shift, img_h, rod, opt.cut_fraction, width,
-                                                  blur)
+        mean, first, second = _cutoff("harmonics", shift, img_h, rod, opt.cut_fraction, width,
+                                      blur)
         section.deflection_rad = _val(eps)
         section.shift_amplitude_m = _val(shift)
         section.saturated = _flag(shift > rng)
@@ -234,13 +240,36 @@ def compute(rig, design, plan) -> ImageSection | None:
         section.second_harmonic = _val(second)
         # the highest harmonic the phase sweep must resolve, and the fewest equal steps
         # that do (N steps resolve orders up to (N - 1) / 2: physics/demod.py)
-        amps = cut_model.harmonic_amplitudes(shift, img_h, rod, opt.cut_fraction, width, blur,
-                                             orders=HARMONICS_CHECKED)
+        amps = _cutoff("harmonic_amplitudes", shift, img_h, rod, opt.cut_fraction, width, blur,
+                       HARMONICS_CHECKED)
         top = demod.highest_significant_order(amps, order, ALIAS_FRACTION)
         section.harmonic_order = _int(top)
         section.min_phase_steps = _int(demod.min_steps(top))
     _light_budget(rig, design, plan, section, img_w, img_h, lens_pass, retention)
     return section
+
+
+_CUTOFF_MEMO: dict = {}
+
+
+def _cutoff(name, shift, *args):
+    """``physics.cutoff.<name>(shift, *args)``, remembered for a scalar shift and scalar
+    arguments: every chunk of a design search shares one deflection, so the cutoff's
+    response (a pure function of these numbers) is computed once. Arrays are returned
+    read-only."""
+    fn = getattr(cut_model, name)
+    if np.ndim(shift) != 0 or any(np.ndim(a) != 0 for a in args):
+        return fn(shift, *args)
+    key = (name,) + tuple(repr(float(a)) for a in (shift,) + args)
+    if key not in _CUTOFF_MEMO:
+        if len(_CUTOFF_MEMO) >= 256:
+            _CUTOFF_MEMO.clear()
+        out = fn(shift, *args)
+        for a in out if isinstance(out, tuple) else (out,):
+            if isinstance(a, np.ndarray):
+                a.flags.writeable = False
+        _CUTOFF_MEMO[key] = out
+    return _CUTOFF_MEMO[key]
 
 
 def _flux(led, current):
@@ -250,41 +279,83 @@ def _flux(led, current):
                                   [p.current for p in table], [p.ratio for p in table])
 
 
-def _emitted_per_frame(rig, design, plan):
-    """(optical energy of the flashes in one frame, of one mean flash, flashes, peak flux)."""
+def _times(a, b):
+    """``a * b`` on expanded operands (physics.arrays.expanded: faster, same numbers)."""
+    a, b = expanded(a, b)
+    return a * b
+
+
+def _emitted(rig, plan):
+    """(flashes per frame, optical energy of one mean flash, peak flux), each at the fewest
+    dimensions of the design it depends on.
+
+    The flash's energy is Simpson-averaged over the pulse (peak, mean and end current) and
+    over the burst (first, middle and last flash). Where the last flash's current equals the
+    peak's (no droop over the burst) every flash is the first: the middle and last flashes
+    are computed only where the current droops (elementwise, so with the same numbers).
+    """
     led = rig.led
     lp = plan.led
-    pk = np.asarray(lp.peak_current_a, dtype=float)
-    mean = np.asarray(lp.mean_current_a, dtype=float)
-    end = np.asarray(lp.end_current_a, dtype=float)
+    pk = compact(np.asarray(lp.peak_current_a, dtype=float))
+    mean = compact(np.asarray(lp.mean_current_a, dtype=float))
+    end = compact(np.asarray(lp.end_current_a, dtype=float))
     last = plan.supply.last_flash_current_a if plan.supply is not None else lp.peak_current_a
     safe = np.where(pk > 0, pk, 1.0)
-    s_last = np.where(pk > 0, np.asarray(last, dtype=float) / safe, 1.0)
+    lit, safe, last = expanded(pk > 0, safe, compact(np.asarray(last, dtype=float)))
+    s_last = np.where(lit, last / safe, 1.0)
+    width = compact(np.asarray(plan.flash.current_width_s, dtype=float))
 
-    def flash(scale):  # Simpson over the pulse: peak, mean and end current
-        width = plan.flash.current_width_s
+    def flash(scale, pk, mean, end, width):  # Simpson over the pulse: peak, mean, end current
         return width * (_flux(led, scale * pk) + 4.0 * _flux(led, scale * mean)
                         + _flux(led, scale * end)) / 6.0
 
     n = plan.timing.flashes_per_frame
-    n = np.asarray(n if n is not None else 1, dtype=float)
+    n = compact(np.asarray(n if n is not None else 1, dtype=float))
     n = np.where(n > 0, n, 0.0)
-    one = (flash(1.0) + 4.0 * flash((1.0 + s_last) / 2.0) + flash(s_last)) / 6.0
-    return n * one, one, n, _flux(led, pk)
+    first = flash(1.0, pk, mean, end, width)
+    one = (first + 4.0 * first + first) / 6.0  # where s_last == 1
+    droops = s_last != 1.0  # (nan included)
+    if droops.any() and np.ndim(droops) == 0:  # one design
+        one = (first + 4.0 * flash((1.0 + s_last) / 2.0, pk, mean, end, width)
+               + flash(s_last, pk, mean, end, width)) / 6.0
+    elif droops.any():
+        shape = np.broadcast_shapes(one.shape, droops.shape)
+        at = np.unravel_index(np.flatnonzero(np.broadcast_to(droops, shape)), shape)
+
+        def pick(x):
+            return np.broadcast_to(x, shape)[at]
+
+        s, args = pick(s_last), [pick(x) for x in (pk, mean, end, width)]
+        one = expand(one, shape)
+        one[at] = (pick(first) + 4.0 * flash((1.0 + s) / 2.0, *args) + flash(s, *args)) / 6.0
+    return n, one, _flux(led, pk)
+
+
+def _emitted_per_frame(rig, design, plan, section=None):
+    """(optical energy of the flashes in one frame, of one mean flash, flashes, peak flux);
+    ``_emitted`` is kept on ``section`` (the image section) for the eye stage."""
+    n, one, flux_pk = _emitted(rig, plan)
+    if section is not None:
+        section._emitted = (n, one, flux_pk)
+    return _times(n, one), one, n, flux_pk
 
 
 def _light_budget(rig, design, plan, section, img_w, img_h, lens_pass, retention):
+    """The light budget's figures on ``section``. In a grid chunk's plan
+    (``plan.rules_only``) the figures that no rule and no search figure reads (grey level,
+    electrons per flash, shot noise, smallest detectable SPL, visible) stay None."""
     led, cam, opt = rig.led, rig.camera, rig.optics
     needed = (led is not None and led.optical_power is not None and led.emitting_size
               and cam.quantum_efficiency is not None and cam.full_well is not None
               and cam.read_noise is not None and plan.led is not None)
     if not needed:
         return
+    every_figure = not plan.rules_only
     double = opt.layout == "double-pass"
     white = led.spectrum == "white"
     peak = led.wavelength or 0.0
     lam = eye_model.photon_wavelength(peak, white)
-    energy_frame, energy_flash, n, flux_pk = _emitted_per_frame(rig, design, plan)
+    energy_frame, energy_flash, n, flux_pk = _emitted_per_frame(rig, design, plan, section)
     area = led.emitting_size**2
     src_w, src_h = _source(rig)
     src_area = src_w * src_h
@@ -304,19 +375,19 @@ def _light_budget(rig, design, plan, section, img_w, img_h, lens_pass, retention
     dark = cam.dark_current * cam.exposure
     background = unit * t0 + dark
     mean_t = t0 if section.fundamental is None else _mean_transmission(rig, section, img_h)
-    mean_e = unit * mean_t + dark
+    mean_e = _times(unit, mean_t) + dark
     order = section.response_order
     if section.fundamental is not None:
         harmonic = section.second_harmonic if order == 2 else section.fundamental
-        signal = unit * np.asarray(harmonic) * np.asarray(retention) ** order
+        signal = _times(_times(unit, harmonic), np.asarray(retention) ** order)
         peak_t = np.minimum(1.0, mean_t + np.asarray(section.fundamental)
                             + np.asarray(section.second_harmonic))
     else:
         signal = None
         peak_t = t0
     noise = cam_model.noise(mean_e, cam.read_noise, cam.full_well, cam.bit_depth, dark)
-    v_pk = np.asarray(plan.led.forward_voltage_peak_v, dtype=float)
-    i_pk = np.asarray(plan.led.peak_current_a, dtype=float)
+    v_pk = compact(np.asarray(plan.led.forward_voltage_peak_v, dtype=float))
+    i_pk = compact(np.asarray(plan.led.peak_current_a, dtype=float))
     electrical = np.where(i_pk * v_pk > 0, i_pk * v_pk, np.nan)
     table = led.relative_output or []
     top = max([p.current for p in table] + [led.optical_power.current])
@@ -326,13 +397,15 @@ def _light_budget(rig, design, plan, section, img_w, img_h, lens_pass, retention
     section.wall_plug_efficiency = _val(flux_pk / electrical)
     section.output_extrapolated = _flag(i_pk > top * 1.0001)
     section.radiance_w_m2_sr = _val(cam_model.lambertian_radiance(flux_pk, area))
-    per_flash = np.where(n > 0, unit * t0 / np.where(n > 0, n, 1.0), 0.0)
-    section.electrons_per_flash = _val(per_flash)
+    if every_figure:
+        per_flash = np.where(n > 0, unit * t0 / np.where(n > 0, n, 1.0), 0.0)
+        section.electrons_per_flash = _val(per_flash)
+        section.grey_level = _val(cam_model.grey_level(background, cam.full_well,
+                                                       cam.bit_depth))
+        section.grey_fraction = _val(background / cam.full_well)
     section.electrons_per_frame = _val(background)
     section.full_well = cam.full_well
-    section.grey_level = _val(cam_model.grey_level(background, cam.full_well, cam.bit_depth))
-    section.grey_fraction = _val(background / cam.full_well)
-    peak_level = unit * peak_t + dark
+    peak_level = _times(unit, peak_t) + dark
     section.electrons_open = _val(unit)
     section.peak_electrons = _val(peak_level)
     # dark field (rod): the background is dark by design; judge the wave's brightest level
@@ -340,8 +413,9 @@ def _light_budget(rig, design, plan, section, img_w, img_h, lens_pass, retention
                              < TOO_DARK * cam.full_well)
     section.sensor_saturated = _flag(peak_level >= cam.full_well)
     section.noise_electrons = _val(noise)
-    # the parts of that noise (EMVA 1288): shot, read and quantisation, for the budget
-    section.shot_noise_electrons = _val(np.sqrt(np.maximum(mean_e, 0.0)))
+    if every_figure:
+        # the parts of that noise (EMVA 1288): shot, read and quantisation, for the budget
+        section.shot_noise_electrons = _val(np.sqrt(np.maximum(mean_e, 0.0)))
     section.read_noise_electrons = cam.read_noise
     section.quantisation_noise_electrons = _val(cam_model.quantisation_noise(cam.full_well,
                                                                              cam.bit_depth))
@@ -350,13 +424,16 @@ def _light_budget(rig, design, plan, section, img_w, img_h, lens_pass, retention
     section.min_snr = opt.min_snr
     if signal is not None:
         snr = cam_model.snr(signal, noise)
-        binned = cam_model.snr(signal, noise, cam.binning, cam.average_frames)
+        # snr() scales its ratio by binning x sqrt(frames): by 1 x 1.0 it is that ratio
+        binned = (snr if cam.binning == 1 and cam.average_frames == 1
+                  else cam_model.snr(signal, noise, cam.binning, cam.average_frames))
         section.signal_electrons = _val(signal)
         section.snr = _val(snr)
         section.snr_binned = _val(binned)
-        section.min_detectable_spl_db = _val(cam_model.min_detectable_spl(
-            plan.optics.spl_at_view_db, binned, opt.min_snr, order))
-        section.visible = _flag(binned >= opt.min_snr)
+        if every_figure:
+            section.min_detectable_spl_db = _val(cam_model.min_detectable_spl(
+                plan.optics.spl_at_view_db, binned, opt.min_snr, order))
+            section.visible = _flag(binned >= opt.min_snr)
 
 
 def cutoff_blur(rig) -> float:
@@ -371,32 +448,53 @@ def cutoff_blur(rig) -> float:
 def _mean_transmission(rig, section, img_h):
     opt = rig.optics
     blur = cutoff_blur(rig)
-    mean, _, _ = cut_model.harmonics(np.asarray(section.shift_amplitude_m), img_h,
+    mean, _, _ = _cutoff("harmonics", np.asarray(section.shift_amplitude_m), img_h,
                                      opt.cutoff == "rod", opt.cut_fraction,
                                      opt.cutoff_width or 0.0, blur)
     return np.asarray(mean)
 
 
 def compute_eye(rig, design, plan) -> EyeSection | None:
-    """The ``eye`` section: needs the LED's optics and the power stage's flash pattern."""
+    """The ``eye`` section: needs the LED's optics and the power stage's flash pattern.
+
+    In a grid chunk's plan (``plan.rules_only``) only ``time_to_limit_s`` is given, the one
+    figure a rule reads (eye.hazard: under ``photobiology.HAZARD_TIME``), and only as far as
+    that rule needs: when no candidate's radiance can reach either limit within that time
+    (a bound over the chunk), it is inf for all; otherwise it is exact.
+    """
     led, opt, img = rig.led, rig.optics, plan.image
     if img is None or img.flux_peak_w is None or plan.supply is None:
         return None
     double = opt.layout == "double-pass"
-    _, energy_flash, _, _ = _emitted_per_frame(rig, design, plan)
-    rate = np.asarray(plan.supply.flash_rate_average_hz, dtype=float)
+    _, energy_flash, _ = img._emitted if img._emitted is not None else _emitted(rig, plan)
+    rate = compact(np.asarray(plan.supply.flash_rate_average_hz, dtype=float))
     mirrors = opt.mirror_reflectance * ((1.0 - opt.beamsplitter) * opt.beamsplitter
                                         if double else opt.mirror_reflectance)
-    average = mirrors * cam_model.lambertian_radiance(energy_flash * rate,
-                                                      led.emitting_size**2)
+    area = led.emitting_size**2
     white = led.spectrum == "white"
     peak = led.wavelength or 0.0
-    lb = average * eye_model.weighted_fraction(peak, white, eye_model.blue_light_weight)
-    lr = average * eye_model.weighted_fraction(peak, white, eye_model.thermal_weight)
+    blue = eye_model.weighted_fraction(peak, white, eye_model.blue_light_weight)
+    thermal = eye_model.weighted_fraction(peak, white, eye_model.thermal_weight)
     alpha = opt.mirror_diameter / opt.cutoff_distance
+    if plan.rules_only and _eye_limits_out_of_reach(energy_flash, rate, mirrors, area, blue,
+                                                   thermal, alpha):
+        return EyeSection(
+            radiance_average_w_m2_sr=None, blue_radiance_w_m2_sr=None,
+            thermal_radiance_w_m2_sr=None, angular_subtense_rad=float(alpha),
+            blue_time_to_limit_s=None, thermal_time_to_limit_s=None,
+            time_to_limit_s=np.inf, limited_by=None, risk_group=None)
+    average = mirrors * cam_model.lambertian_radiance(_times(energy_flash, rate), area)
+    lb = average * blue
+    lr = average * thermal
     tb = eye_model.blue_time_to_limit(lb)
     tt = eye_model.thermal_time_to_limit(lr, alpha)
     t = np.minimum(tb, tt)
+    if plan.rules_only:
+        return EyeSection(
+            radiance_average_w_m2_sr=None, blue_radiance_w_m2_sr=None,
+            thermal_radiance_w_m2_sr=None, angular_subtense_rad=float(alpha),
+            blue_time_to_limit_s=None, thermal_time_to_limit_s=None,
+            time_to_limit_s=_val(t), limited_by=None, risk_group=None)
     group = eye_model.risk_group(tb, tt)
     limited = np.where(tt < tb, "retinal thermal", "blue light")
     return EyeSection(
@@ -407,3 +505,37 @@ def compute_eye(rig, design, plan) -> EyeSection | None:
         limited_by=str(limited) if np.ndim(limited) == 0 else limited,
         risk_group=int(group) if np.ndim(group) == 0 else group,
     )
+
+
+_BOUND_MARGIN = 1e-9  # relative: far above the rounding of the few operations bounded
+
+
+def _eye_limits_out_of_reach(energy_flash, rate, mirrors, area, blue, thermal, alpha) -> bool:
+    """True when no candidate's time-averaged radiance, mirrors x (E_flash x rate) /
+    (pi A), reaches the blue-light or the retinal thermal limit within
+    ``photobiology.HAZARD_TIME``: then each candidate's time to the limit exceeds it.
+
+    Each rounded operation is monotonic in the flash rate, so a candidate's radiance lies
+    between its values at the chunk's lowest and highest rates; the largest of those is held
+    against the radiances that reach a limit in HAZARD_TIME (blue: the dose limit /
+    HAZARD_TIME; thermal: the constant / (alpha HAZARD_TIME^(1/4))), less a margin far above
+    the rounding. Anything not finite, or negative weights, answers False (compute it).
+    """
+    if not (np.isfinite(blue) and np.isfinite(thermal) and blue >= 0 and thermal >= 0):
+        return False
+    r = np.asarray(rate)
+    if r.size == 0 or not np.all(np.isfinite(r)):
+        return False
+    ends = [mirrors * cam_model.lambertian_radiance(energy_flash * x, area)
+            for x in (r.min(), r.max())]
+    if np.size(ends[0]) == 0:
+        return True  # no candidates
+    top = float(np.max(np.maximum(ends[0], ends[1])))  # nan propagates
+    if not np.isfinite(top):
+        return False
+    al = float(np.clip(alpha, eye_model.ALPHA_MIN, eye_model.ALPHA_MAX))
+    t = eye_model.HAZARD_TIME
+    keep = 1.0 - _BOUND_MARGIN
+    blue_reach = eye_model.BLUE_DOSE_LIMIT / t * keep
+    thermal_reach = eye_model.THERMAL_CONSTANT / t**0.25 * keep
+    return top * blue <= blue_reach and al * (top * thermal) <= thermal_reach

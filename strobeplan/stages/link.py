@@ -13,6 +13,7 @@ rated to the driver's own supply + 0.3 V (common practice for gate-driver logic 
 
 from __future__ import annotations
 
+import copy
 from dataclasses import field
 from types import SimpleNamespace
 
@@ -206,12 +207,15 @@ def compute(rig, design, plan) -> dict:
         dst = resolve_family(ti.family, "camera.trigger_input.family", custom)
         tl = rig.trigger_link
         limit = edge_limit_for(design.pulse_width, cam.trigger_latency)
-        section = link_section(
-            src, dst, series=tl.series if tl else "E24", tolerance=tl.tolerance if tl else None,
-            capacitance=ti.capacitance, tolerant=ti.tolerant,
-            top=tl.top if tl else None, bottom=tl.bottom if tl else None,
-            edge_limit=None if limit is None else float(np.min(limit)),
-            source_resistance=ctrl.output_resistance)
+        args = dict(series=tl.series if tl else "E24", tolerance=tl.tolerance if tl else None,
+                    capacitance=ti.capacitance, tolerant=ti.tolerant,
+                    top=tl.top if tl else None, bottom=tl.bottom if tl else None,
+                    edge_limit=None if limit is None else float(np.min(limit)),
+                    source_resistance=ctrl.output_resistance)
+        if design.is_scalar:
+            section = link_section(src, dst, **args)
+        else:
+            section = copy.copy(_shared_link(src, dst, args))
         section.edge_limit_s = limit
         out["trigger_link"] = section
     gd = rig.gate_driver
@@ -225,6 +229,21 @@ def compute(rig, design, plan) -> dict:
             input_max_v=d.input_max, margin_high_v=d.margin_high, margin_max_v=d.margin_max,
             margin_low_v=d.margin_low)
     return out
+
+
+_LINK_MEMO: dict = {}
+
+
+def _shared_link(src, dst, args: dict) -> TriggerLinkSection:
+    """``link_section(src, dst, **args)`` remembered for a design search: its chunks mostly
+    share one edge limit (set by the trigger latency when it exceeds the pulse widths), so
+    the divider search runs once. The caller copies the section before changing it."""
+    key = (src, dst) + tuple(sorted((k, repr(v)) for k, v in args.items()))
+    if key not in _LINK_MEMO:
+        if len(_LINK_MEMO) >= 64:
+            _LINK_MEMO.clear()
+        _LINK_MEMO[key] = link_section(src, dst, **args)
+    return _LINK_MEMO[key]
 
 
 def standalone(source: str, destination: str, **kwargs) -> Plan:
