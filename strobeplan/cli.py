@@ -293,19 +293,39 @@ def plot(rig, kind, output, dpi):
     from .report.plots import plot as draw
 
     with user_errors():
-        result = _search_for_plot(plan) if kind == "tradeoff" else None
-        data = figure_bytes(draw(plan, kind, tune_result=result), suffix[1:], dpi)
+        search = _search_for_plot(plan) if kind == "tradeoff" else None
+        try:
+            if search is not None:  # matplotlib loads while the search runs
+                _import_backend(suffix[1:])
+            result = search() if search is not None else None
+            data = figure_bytes(draw(plan, kind, tune_result=result), suffix[1:], dpi)
+        finally:
+            if search is not None:
+                search.cancel()
         write_atomic(output, data, rig)
 
 
+def _import_backend(fmt: str) -> None:
+    """Load matplotlib's figure and the backend that writes ``fmt`` (png or svg)."""
+    import matplotlib.figure  # noqa: F401
+
+    if fmt == "svg":
+        import matplotlib.backends.backend_svg  # noqa: F401
+    else:
+        import matplotlib.backends.backend_agg  # noqa: F401
+
+
 def _search_for_plot(plan):
-    """The default design search of a solved rig (the trade-off plot draws it); None when
-    the rig has nothing to search (the plot then says which section is missing)."""
+    """The default design search of a solved rig (the trade-off plot draws it), begun in
+    the background (:func:`strobeplan.background.start`: call the returned function for the
+    result); None when the rig has nothing to search (the plot then says which section is
+    missing)."""
     from . import tune as tuner
+    from .background import start
 
     if plan.led is None or plan.supply is None:
         return None
-    return tuner.tune(plan.rig)
+    return start(tuner.tune, plan.rig)
 
 
 def _solve_with_text(rig_path: str):
@@ -334,13 +354,17 @@ def report(rig, output, frames):
     _check_output(output, rig)
     plan, text = _solve_with_text(rig)
     with user_errors():
-        measured = None
-        if frames:
-            from .analyse import analyse_frames
+        search = _search_for_plot(plan)
+        try:
+            measured = None
+            if frames:
+                from .analyse import analyse_frames
 
-            measured = analyse_frames(plan.rig, list(frames), plan=plan)
-        page = report_html(plan, rig_text=text, tune_result=_search_for_plot(plan),
-                           measured=measured)
+                measured = analyse_frames(plan.rig, list(frames), plan=plan)
+            page = report_html(plan, rig_text=text, tune_result=search, measured=measured)
+        finally:
+            if search is not None:
+                search.cancel()
     _write_or_echo(page, output, rig)
 
 

@@ -417,8 +417,10 @@ def report_html(plan, rig_text: str | None = None, plots=PLOT_ORDER, tune_result
     plots : sequence of str, optional
         Which plots to draw, in order (a plot whose inputs the plan lacks is listed with
         the reason instead).
-    tune_result : strobeplan.tune.TuneResult, optional
-        The design search of the rig, for the trade-off plot.
+    tune_result : strobeplan.tune.TuneResult or callable, optional
+        The design search of the rig, for the trade-off plot; or a function returning it
+        (:func:`strobeplan.background.start`), called once the figures that do not need
+        it and the preview are drawn (the search may run in another process meanwhile).
     measured : strobeplan.analyse.Analysis, optional
         Captured frames analysed (``report --frames``): a "Measured against planned"
         section (strobeplan/report/measured.py).
@@ -432,7 +434,16 @@ def report_html(plan, rig_text: str | None = None, plots=PLOT_ORDER, tune_result
 
     rig = plan.rig
     verdict = plan.verdict
-    drawn, missing = _figures(plan, plots, tune_result)
+    # The search's figure last: the others and the preview do not wait for it.
+    searched = [k for k in plots if k == "tradeoff"]
+    drawn, missing = _figures(plan, [k for k in plots if k not in searched])
+    preview = _preview(plan)
+    if searched:
+        result = tune_result() if callable(tune_result) else tune_result
+        more, why = _figures(plan, searched, result)
+        order = {k: i for i, k in enumerate(plots)}
+        drawn = sorted(drawn + more, key=lambda kv: order[kv[0]])
+        missing = sorted(missing + why, key=lambda kv: order[kv[0]])
     parts = [
         "<!DOCTYPE html>",
         '<html lang="en">',
@@ -474,7 +485,7 @@ def report_html(plan, rig_text: str | None = None, plots=PLOT_ORDER, tune_result
         parts.append('<p class="missing">Not drawn:</p><ul class="missing">'
                      + "".join(f"<li>{_e(k)}: {_e(why)}</li>" for k, why in missing)
                      + "</ul>")
-    parts += ["</section>", '<section id="preview"><h2>Preview</h2>', _preview(plan),
+    parts += ["</section>", '<section id="preview"><h2>Preview</h2>', preview,
               "</section>", '<section id="plan"><h2>Plan</h2>']
     parts += [_section_table(name, section) for name, section in plan.sections()]
     if measured is not None:

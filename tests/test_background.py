@@ -1,0 +1,82 @@
+"""strobeplan.background: a call run in a forked child gives the caller's answer.
+
+The checks run in fresh interpreters (subprocess): a test runner's worker has threads of
+its own, where :func:`strobeplan.background.parallel` refuses to fork.
+"""
+
+from __future__ import annotations
+
+import os
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+from tests.conftest import example
+
+ROOT = Path(__file__).resolve().parents[1]
+
+SCRIPT = """
+import os, sys
+from strobeplan import background
+
+def boom():
+    if os.getpid() != PARENT:
+        raise ValueError("in the child")
+    raise KeyError("in the parent")
+
+PARENT = os.getpid()
+print("parallel", background.parallel())
+pid = background.start(os.getpid)
+print("child", pid() != PARENT, pid() == pid())
+try:
+    background.start(boom)()
+except KeyError as exc:
+    print("raised", exc.args[0])
+slow = background.start(__import__("time").sleep, 30)
+slow.cancel()
+print("cancelled")
+"""
+
+
+def _run(env_extra: dict) -> list[str]:
+    env = {**os.environ, "PYTHONPATH": str(ROOT)}
+    env.pop("STROBEPLAN_SERIAL", None)
+    env.update(env_extra)
+    out = subprocess.run([sys.executable, "-c", SCRIPT], env=env, capture_output=True,
+                         text=True, timeout=60, check=True).stdout
+    return out.splitlines()
+
+
+def test_the_child_computes_and_failures_rerun_in_the_caller():
+    lines = _run({})
+    forks = lines[0] == "parallel True"
+    if not forks:
+        pytest.skip("one usable CPU: nothing is forked")
+    # the result came from another process, and is kept for a second call
+    assert lines[1] == "child True True"
+    # the child's failure is not trusted: the caller runs the call and raises its own error
+    assert lines[2] == "raised in the parent"
+    assert lines[3] == "cancelled"  # a cancelled child does not hold the caller for 30 s
+
+
+def test_serial_when_asked():
+    lines = _run({"STROBEPLAN_SERIAL": "1"})
+    assert lines[0] == "parallel False"
+    assert lines[1] == "child False True"
+    assert lines[2] == "raised in the parent"
+
+
+@pytest.mark.slow
+def test_tradeoff_plot_is_the_same_with_and_without_the_child(tmp_path):
+    """The trade-off plot's search runs in a child while matplotlib loads: same bytes."""
+    outs = []
+    for serial in ("", "1"):
+        out = tmp_path / f"t{serial}.png"
+        env = {**os.environ, "PYTHONPATH": str(ROOT), "STROBEPLAN_SERIAL": serial}
+        subprocess.run([sys.executable, "-m", "strobeplan.cli", "plot",
+                        str(example("levitator-40k")), "--kind", "tradeoff", "-o", str(out)],
+                       env=env, check=True, timeout=300, capture_output=True)
+        outs.append(out.read_bytes())
+    assert outs[0] == outs[1]
