@@ -40,6 +40,19 @@ def _same(a, b):
         assert x.shape == y.shape and np.array_equal(x, y, equal_nan=x.dtype.kind == "f")
 
 
+def _at_limit(rng, d, z, lim, spread, at_limit):
+    """Start rises in [0, spread], a fraction ``at_limit`` of them moved to where a random
+    step's line meets the limit exactly (the ties the scan must get right)."""
+    n_steps = d.shape[0]
+    r0 = rng.uniform(0.0, 1.0, size=lim.shape) * spread
+    k = rng.integers(0, n_steps, size=lim.shape)
+    cols = np.arange(lim.shape[1])[None, :]
+    with np.errstate(divide="ignore", over="ignore"):
+        exact = (lim - z[k, cols]) / d[k, cols]
+    pick = (rng.random(lim.shape) < at_limit) & (exact >= 0) & (exact <= 2 * spread + 1)
+    return np.where(pick, exact, r0), cols
+
+
 @settings(max_examples=40, deadline=None)
 @given(seed=st.integers(0, 2**32 - 1), n_steps=st.integers(20, 400),
        n_c=st.integers(1, 12), n_a=st.integers(1, 40),
@@ -52,14 +65,8 @@ def test_kept_steps_give_the_full_scans_bits(seed, n_steps, n_c, n_a, spread, at
     lim = np.full((n_a, n_c), rng.uniform(20.0, 250.0))
     if per_candidate_limit:
         lim = lim + rng.uniform(-5.0, 5.0, size=lim.shape)
-    r0 = rng.uniform(0.0, 1.0, size=(n_a, n_c)) * spread
-    # Candidates right at the limit: the start rise that puts step k exactly on it.
-    k = rng.integers(0, n_steps, size=(n_a, n_c))
-    cols = np.arange(n_c)[None, :]
-    with np.errstate(divide="ignore", over="ignore"):
-        exact = (lim - z[k, cols]) / d[k, cols]
-    pick = (rng.random((n_a, n_c)) < at_limit) & (exact >= 0) & (exact <= 2 * spread + 1)
-    r0 = np.where(pick, exact, r0)
+    # Candidates right at the limit: the start rise that puts a step exactly on it.
+    r0, cols = _at_limit(rng, d, z, lim, spread, at_limit)
     # ... and right at a tie between two steps (their lines cross there).
     i, j = rng.integers(0, n_steps, size=(2, n_a, n_c))
     with np.errstate(divide="ignore", invalid="ignore"):
@@ -175,13 +182,7 @@ def test_crossing_only_steps_give_the_full_scans_crossing(seed, n_steps, n_c, n_
     rng = np.random.default_rng(seed)
     d, z, g = _lines(rng, n_steps, n_c)
     lim = np.full((n_a, n_c), rng.uniform(20.0, 250.0)) + rng.uniform(-5.0, 5.0, (n_a, n_c))
-    r0 = rng.uniform(0.0, 1.0, size=(n_a, n_c)) * spread
-    k = rng.integers(0, n_steps, size=(n_a, n_c))
-    cols = np.arange(n_c)[None, :]
-    with np.errstate(divide="ignore", over="ignore"):
-        exact = (lim - z[k, cols]) / d[k, cols]
-    pick = (rng.random((n_a, n_c)) < at_limit) & (exact >= 0) & (exact <= 2 * spread + 1)
-    r0 = np.where(pick, exact, r0)
+    r0, _cols = _at_limit(rng, d, z, lim, spread, at_limit)
     steps = supply._steps_that_matter(r0, lim, d, z, False)
     pk, pt, bk, open_ = supply._scan(r0, lim, d, z, g, steps, False)
     full = supply._scan(r0, lim, d, z, g, None)
