@@ -211,10 +211,12 @@ class Plan:
     banding: BandingSection | None = None
     findings: list[Finding] = _field(default_factory=list)
     skipped: dict[str, str] = _field(default_factory=dict)
-    # A grid chunk of the design search: the plan feeds only the rules' masks and the
-    # search's figures (tune.Evaluation). A stage may then resolve a figure that only a
-    # rule's threshold reads just as far as that threshold needs (the rule's verdict is
-    # unchanged; tests/test_tune_equals_check.py); every other plan has every figure exact.
+    # A plan of the design search (its grid chunks and the rows it evaluates after them):
+    # it feeds only the rules' masks and the search's figures (tune.Evaluation and the
+    # candidates built from it). A stage may then resolve a figure that only a rule's
+    # threshold reads just as far as that threshold needs, or skip a figure nothing there
+    # reads (the verdicts and the candidates' figures are unchanged:
+    # tests/test_tune_equals_check.py); every other plan has every figure exact.
     rules_only: bool = False
 
     @property

@@ -91,8 +91,8 @@ def evaluate(rig, design: Design, known: dict | None = None, *,
              rules_only: bool = False) -> Evaluation:
     """Solve ``rig`` for an (array) design and evaluate every rule over it (``known``: sections
     that do not depend on the design, computed once per search: see :func:`rig_constants`;
-    ``rules_only``: a grid chunk, whose plan feeds only the masks and the search's figures,
-    see ``Plan.rules_only``)."""
+    ``rules_only``: the search's own evaluations, whose plan feeds only the masks, the
+    search's figures and its candidates, see ``Plan.rules_only``)."""
     from .checks import RULES, masks
     from .solve import solve
 
@@ -350,7 +350,7 @@ def _evaluate_by_circuit(rig, rows: list, known: dict | None = None) -> list:
     out: list = [None] * len(rows)
     for members in groups.values():
         design = _design_of([rows[i] for i in members])
-        ev = evaluate(rig, design, known)
+        ev = evaluate(rig, design, known, rules_only=True)
         for k, i in enumerate(members):
             out[i] = (ev, k, design)
     return out
@@ -403,7 +403,7 @@ def _limited_by(rig, grid: Grid, best: Candidate, known: dict | None = None) -> 
     counts: dict[str, int] = {}
     if neighbours:
         design = _design_of(neighbours)
-        ev = evaluate(rig, design, known)
+        ev = evaluate(rig, design, known, rules_only=True)
         for code, m in ev.constraint_masks().items():
             n = int((m & (ev.score > best.score)).sum())
             if n:
@@ -428,7 +428,7 @@ def _frontier(rig, grid: Grid, cloud: Cloud, known: dict | None = None) -> list[
             cells.append(int(c))
             best = light[c]
     design = _design_of([grid.at(cloud.safe_flat.ravel()[c]) for c in cells])
-    ev = evaluate(rig, design, known)
+    ev = evaluate(rig, design, known, rules_only=True)
     return [_candidate(ev, k, design) for k in range(len(cells))]
 
 

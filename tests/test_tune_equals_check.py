@@ -76,6 +76,8 @@ def test_tune_verdict_equals_check(case):
     for name in ("verdict", "feasible", "score", "margin", "retention", "light"):
         assert np.array_equal(getattr(grid, name), getattr(ev, name),
                               equal_nan=name not in ("verdict", "feasible")), name
+    for k in range(len(designs)):  # the candidates the search reports, from either mode
+        assert repr(tuner._candidate(grid, k, design)) == repr(tuner._candidate(ev, k, design))
     for k, values in enumerate(designs):
         plan = solve(tuner.candidate_rig(rig, _candidate(values)))
         # The timer counters' discrete fits and the schedule's frame-by-frame checks are
