@@ -328,6 +328,15 @@ def _search_for_plot(plan):
     return start(tuner.tune, plan.rig)
 
 
+def _search_and_preview(plan):
+    """(the default design search or None, the report's preview section) of a solved rig."""
+    from . import tune as tuner
+    from .report.html import preview_html
+
+    has_search = plan.led is not None and plan.supply is not None
+    return (tuner.tune(plan.rig) if has_search else None), preview_html(plan)
+
+
 def _solve_with_text(rig_path: str):
     """(plan, rig text as given) for outputs that show the rig file itself."""
     from .io import read_rig_bytes
@@ -354,17 +363,21 @@ def report(rig, output, frames):
     _check_output(output, rig)
     plan, text = _solve_with_text(rig)
     with user_errors():
-        search = _search_for_plot(plan)
+        from .background import start
+
+        # The design search and the synthetic preview need no matplotlib: begun in the
+        # background while the figures are drawn here.
+        both = start(_search_and_preview, plan)
         try:
             measured = None
             if frames:
                 from .analyse import analyse_frames
 
                 measured = analyse_frames(plan.rig, list(frames), plan=plan)
-            page = report_html(plan, rig_text=text, tune_result=search, measured=measured)
+            page = report_html(plan, rig_text=text, tune_result=lambda: both()[0],
+                               measured=measured, preview=lambda: both()[1])
         finally:
-            if search is not None:
-                search.cancel()
+            both.cancel()
     _write_or_echo(page, output, rig)
 
 

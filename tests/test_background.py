@@ -80,3 +80,19 @@ def test_tradeoff_plot_is_the_same_with_and_without_the_child(tmp_path):
                        env=env, check=True, timeout=300, capture_output=True)
         outs.append(out.read_bytes())
     assert outs[0] == outs[1]
+
+
+@pytest.mark.slow
+def test_report_is_the_same_with_and_without_the_child(tmp_path):
+    """The report's search and preview run in a child while the figures are drawn: the
+    page is the same bytes."""
+    outs = []
+    for serial in ("", "1"):
+        out = tmp_path / f"r{serial}.html"
+        env = {**os.environ, "PYTHONPATH": str(ROOT), "STROBEPLAN_SERIAL": serial}
+        subprocess.run([sys.executable, "-m", "strobeplan.cli", "report",
+                        str(example("levitator-40k")), "-o", str(out)],
+                       env=env, check=True, timeout=300, capture_output=True)
+        outs.append(out.read_bytes())
+    assert b"preview-sheet" in outs[0] and b"tradeoff" in outs[0]
+    assert outs[0] == outs[1]

@@ -373,7 +373,7 @@ PREVIEW_FRAMES = 12   # and this many frames over the sweep
 PREVIEW_SECONDS = 3.0  # the report draws no preview whose estimate is longer
 
 
-def _preview(plan) -> str:
+def preview_html(plan) -> str:
     """A reduced preview's contact sheet, embedded as a PNG data URI (or why it is missing)."""
     import base64
 
@@ -405,7 +405,7 @@ def _preview(plan) -> str:
 
 
 def report_html(plan, rig_text: str | None = None, plots=PLOT_ORDER, tune_result=None,
-                measured=None) -> str:
+                measured=None, preview=None) -> str:
     """The whole report as one self-contained HTML page.
 
     Parameters
@@ -424,6 +424,10 @@ def report_html(plan, rig_text: str | None = None, plots=PLOT_ORDER, tune_result
     measured : strobeplan.analyse.Analysis, optional
         Captured frames analysed (``report --frames``): a "Measured against planned"
         section (strobeplan/report/measured.py).
+    preview : str or callable, optional
+        The preview section's HTML (:func:`preview_html` of the same plan), or a function
+        returning it, called once the figures that do not need the search are drawn (it
+        may be computed in another process meanwhile); default: computed here.
 
     Returns
     -------
@@ -437,7 +441,10 @@ def report_html(plan, rig_text: str | None = None, plots=PLOT_ORDER, tune_result
     # The search's figure last: the others and the preview do not wait for it.
     searched = [k for k in plots if k == "tradeoff"]
     drawn, missing = _figures(plan, [k for k in plots if k not in searched])
-    preview = _preview(plan)
+    if preview is None:
+        preview = preview_html(plan)
+    elif callable(preview):
+        preview = preview()
     if searched:
         result = tune_result() if callable(tune_result) else tune_result
         more, why = _figures(plan, searched, result)
