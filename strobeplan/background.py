@@ -47,6 +47,13 @@ def start(fn: Callable[..., Any], *args, **kwargs) -> Callable[[], Any]:
     ``cancel()`` ends a child whose result was not asked for (call it in a ``finally``)."""
     if not parallel():
         return _Deferred(lambda: fn(*args, **kwargs))
+    return forked(fn, *args, **kwargs)
+
+
+def forked(fn: Callable[..., Any], *args, **kwargs) -> Callable[[], Any]:
+    """:func:`start`'s forked case, whatever :func:`parallel` says (the caller has decided
+    that forking is safe): the call runs in a child; a failed ``os.fork`` runs it here when
+    its result is asked for."""
     read, write = os.pipe()
     try:
         pid = os.fork()
