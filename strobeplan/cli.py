@@ -323,9 +323,12 @@ def _search_for_plot(plan):
     from . import tune as tuner
     from .background import start
 
-    if plan.led is None or plan.supply is None:
-        return None
-    return start(tuner.tune, plan.rig)
+    return start(tuner.tune, plan.rig) if _searchable(plan) else None
+
+
+def _searchable(plan) -> bool:
+    """Whether the rig has what the design search varies ([led] and [supply])."""
+    return plan.led is not None and plan.supply is not None
 
 
 def _search_and_preview(plan):
@@ -333,8 +336,7 @@ def _search_and_preview(plan):
     from . import tune as tuner
     from .report.html import preview_html
 
-    has_search = plan.led is not None and plan.supply is not None
-    return (tuner.tune(plan.rig) if has_search else None), preview_html(plan)
+    return (tuner.tune(plan.rig) if _searchable(plan) else None), preview_html(plan)
 
 
 def _solve_with_text(rig_path: str):

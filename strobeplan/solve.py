@@ -83,8 +83,9 @@ def solve(rig, design: Design | None = None, *, checks: bool = True,
         Slot -> section already solved for this rig, used instead of running its stage
         (only for stages that read no design choice: ``tune.rig_constants``).
     rules_only : bool
-        The plan of a grid chunk of the design search (``Plan.rules_only``): figures that
-        only a rule's threshold reads may be resolved just as far as the verdict needs.
+        A plan of the design search (``Plan.rules_only``): figures that only a rule's
+        threshold reads may be resolved just as far as the verdict needs, and figures that
+        no rule, search figure or candidate reads may be left out.
 
     Floating-point overflow in an absurd but valid rig becomes inf/nan in a figure (shown as
     null, with the checks saying why) rather than a warning on stderr.

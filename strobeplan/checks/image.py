@@ -11,15 +11,14 @@ import math
 
 import numpy as np
 
+# HAZARD_TIME [s]: IEC 62471's aversion response, risk group 3 below it (a design search's
+# plans resolve the eye's time to the limit just as far as it: stages/image.py)
 from ..physics.photobiology import HAZARD_TIME
 from ..stages.image import TOO_DARK
 from ..units import render
 from .registry import Hit, rule
 
 OBJECT_PIXEL_TOLERANCE = 0.05  # a given object_pixel more than 5 % off the layout's
-# [s] IEC 62471: the aversion response; risk group 3 below it (the eye stage's grid plans
-# resolve the time to the limit just as far as this threshold: stages/image.py)
-EYE_HAZARD_TIME = HAZARD_TIME
 
 
 def _f(x) -> float:
@@ -238,7 +237,7 @@ def output_extrapolated(plan):
 @rule("eye.hazard", "hazard",
       trigger="the source image seen at the cutoff (where people look while aligning) reaches "
               "an IEC 62471 retinal limit (blue light or thermal, time-averaged over the flash "
-              f"pattern) in under {EYE_HAZARD_TIME} s: risk group 3. A caution, not a "
+              f"pattern) in under {HAZARD_TIME} s: risk group 3. A caution, not a "
               "certification",
       fix="never look into the cutoff: align with a card or a camera, at reduced current "
           "(continuous low-current alignment mode), or with a neutral-density filter",
@@ -252,8 +251,8 @@ def eye_hazard(plan):
     return Hit(lambda: f"looking into the source image at the cutoff reaches the IEC 62471 "
                        f"{e.limited_by} limit in {_f(t):.3g} s (risk group {e.risk_group}); "
                        "a caution, not a certification",
-               value=e.time_to_limit_s, limit=EYE_HAZARD_TIME, unit="s",
-               when=t < EYE_HAZARD_TIME)
+               value=e.time_to_limit_s, limit=HAZARD_TIME, unit="s",
+               when=t < HAZARD_TIME)
 
 
 @rule("image.steps_alias", "warning",

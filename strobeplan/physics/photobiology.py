@@ -217,6 +217,34 @@ def thermal_time_to_limit(thermal_radiance, alpha):
     return _out(np.where((lr > 0) & (t <= 10.0), t, np.inf))
 
 
+def radiances_reaching_limits(time, alpha):
+    """The B- and R-weighted radiances that reach the blue-light dose limit and the retinal
+    thermal limit in ``time``: the inverses of :func:`blue_time_to_limit` (``1e6 / t``) and
+    :func:`thermal_time_to_limit` (``50000 / (alpha t^(1/4))``, alpha clipped to
+    0.0017-0.1 rad). A lower radiance takes longer.
+
+    Parameters
+    ----------
+    time : float or ndarray
+        Exposure time (up to 10 s for the thermal limit). [s]
+    alpha : float or ndarray
+        Angular subtense of the source. [rad]
+
+    Returns
+    -------
+    tuple of float or ndarray
+        Blue-light radiance L_B and retinal thermal radiance L_R. [W m^-2 sr^-1]
+
+    References
+    ----------
+    1. IEC 62471:2006, sec. 4.3.3, eq. 4.5a (blue light) and sec. 4.3.4, eq. 4.6 (retinal
+       thermal).
+    """
+    t = _a(time)
+    al = np.clip(_a(alpha), ALPHA_MIN, ALPHA_MAX)
+    return _out(BLUE_DOSE_LIMIT / t), _out(THERMAL_CONSTANT / (al * t**0.25))
+
+
 def risk_group(blue_time, thermal_time):
     """IEC 62471 risk group 0 (exempt) to 3 from the times to the limits. [1]
 

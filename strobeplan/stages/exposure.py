@@ -60,7 +60,7 @@ def jitter_rms(rig) -> float:
 def compute(rig, design, plan) -> ExposureSection:
     """The exposure section; needs ``plan.timing`` (realised frequency, smear) and
     ``plan.flash``. The widest pulse meeting the target and the harmonics are figures for
-    people, computed for a scalar design only (None over a grid). A grid chunk's plan
+    people, computed for a scalar design only (None over a grid). A design search's plan
     (``plan.rules_only``) of a standing wave leaves the optical duration and the blur None:
     no rule or search figure reads them then."""
     width = plan.flash.current_width_s  # the current's duration (gate plus switch delays)
@@ -74,17 +74,13 @@ def compute(rig, design, plan) -> ExposureSection:
     retention = scalar(model.retention(f, width, rise, fall, w, tau, sigma, smear))
     travelling = rig.wave.kind == "travelling"
     if plan.rules_only and not travelling:
-        # a grid chunk: the sampled FWHM feeds only the blur, which a standing wave has not
-        # (and which only exposure.blur_over_pixel reads, for travelling waves)
+        # a design search's plan: the sampled FWHM feeds only the blur, which a standing
+        # wave has not (and which only exposure.blur_over_pixel reads, for travelling waves)
         duration = blur = None
     else:
         duration = scalar(model.fwhm(width, rise, fall, w, tau))
-    if duration is None:
-        pass
-    elif travelling:
-        blur = scalar(model.blur_distance(speed, duration))
-    else:
-        blur = scalar(np.zeros_like(np.asarray(duration, dtype=float)))
+        blur = scalar(model.blur_distance(speed, duration) if travelling
+                      else np.zeros_like(np.asarray(duration, dtype=float)))
     cam = rig.camera
     pixel = cam.object_pixel if cam is not None else None
     by_harmonic = widest = energy = None

@@ -341,7 +341,7 @@ def _emitted_per_frame(rig, design, plan, section=None):
 
 
 def _light_budget(rig, design, plan, section, img_w, img_h, lens_pass, retention):
-    """The light budget's figures on ``section``. In a grid chunk's plan
+    """The light budget's figures on ``section``. In a design search's plan
     (``plan.rules_only``) the figures that no rule and no search figure reads (grey level,
     electrons per flash, shot noise, smallest detectable SPL, visible) stay None."""
     led, cam, opt = rig.led, rig.camera, rig.optics
@@ -457,7 +457,7 @@ def _mean_transmission(rig, section, img_h):
 def compute_eye(rig, design, plan) -> EyeSection | None:
     """The ``eye`` section: needs the LED's optics and the power stage's flash pattern.
 
-    In a grid chunk's plan (``plan.rules_only``) only ``time_to_limit_s`` is given, the one
+    In a design search's plan (``plan.rules_only``) only ``time_to_limit_s`` is given, the one
     figure a rule reads (eye.hazard: under ``photobiology.HAZARD_TIME``), and only as far as
     that rule needs: when no candidate's radiance can reach either limit within that time
     (a bound over the chunk), it is inf for all; otherwise it is exact.
@@ -478,11 +478,7 @@ def compute_eye(rig, design, plan) -> EyeSection | None:
     alpha = opt.mirror_diameter / opt.cutoff_distance
     if plan.rules_only and _eye_limits_out_of_reach(energy_flash, rate, mirrors, area, blue,
                                                    thermal, alpha):
-        return EyeSection(
-            radiance_average_w_m2_sr=None, blue_radiance_w_m2_sr=None,
-            thermal_radiance_w_m2_sr=None, angular_subtense_rad=float(alpha),
-            blue_time_to_limit_s=None, thermal_time_to_limit_s=None,
-            time_to_limit_s=np.inf, limited_by=None, risk_group=None)
+        return _eye_time_only(alpha, np.inf)
     average = mirrors * cam_model.lambertian_radiance(_times(energy_flash, rate), area)
     lb = average * blue
     lr = average * thermal
@@ -490,11 +486,7 @@ def compute_eye(rig, design, plan) -> EyeSection | None:
     tt = eye_model.thermal_time_to_limit(lr, alpha)
     t = np.minimum(tb, tt)
     if plan.rules_only:
-        return EyeSection(
-            radiance_average_w_m2_sr=None, blue_radiance_w_m2_sr=None,
-            thermal_radiance_w_m2_sr=None, angular_subtense_rad=float(alpha),
-            blue_time_to_limit_s=None, thermal_time_to_limit_s=None,
-            time_to_limit_s=_val(t), limited_by=None, risk_group=None)
+        return _eye_time_only(alpha, _val(t))
     group = eye_model.risk_group(tb, tt)
     limited = np.where(tt < tb, "retinal thermal", "blue light")
     return EyeSection(
@@ -507,6 +499,15 @@ def compute_eye(rig, design, plan) -> EyeSection | None:
     )
 
 
+def _eye_time_only(alpha, time_to_limit) -> EyeSection:
+    """The eye section of a design search's plan: the time to the limit alone."""
+    return EyeSection(
+        radiance_average_w_m2_sr=None, blue_radiance_w_m2_sr=None,
+        thermal_radiance_w_m2_sr=None, angular_subtense_rad=float(alpha),
+        blue_time_to_limit_s=None, thermal_time_to_limit_s=None,
+        time_to_limit_s=time_to_limit, limited_by=None, risk_group=None)
+
+
 _BOUND_MARGIN = 1e-9  # relative: far above the rounding of the few operations bounded
 
 
@@ -517,9 +518,9 @@ def _eye_limits_out_of_reach(energy_flash, rate, mirrors, area, blue, thermal, a
 
     Each rounded operation is monotonic in the flash rate, so a candidate's radiance lies
     between its values at the chunk's lowest and highest rates; the largest of those is held
-    against the radiances that reach a limit in HAZARD_TIME (blue: the dose limit /
-    HAZARD_TIME; thermal: the constant / (alpha HAZARD_TIME^(1/4))), less a margin far above
-    the rounding. Anything not finite, or negative weights, answers False (compute it).
+    against the radiances that reach a limit in HAZARD_TIME
+    (``photobiology.radiances_reaching_limits``), less a margin far above the rounding.
+    Anything not finite, or negative weights, answers False (compute it).
     """
     if not (np.isfinite(blue) and np.isfinite(thermal) and blue >= 0 and thermal >= 0):
         return False
@@ -533,9 +534,7 @@ def _eye_limits_out_of_reach(energy_flash, rate, mirrors, area, blue, thermal, a
     top = float(np.max(np.maximum(ends[0], ends[1])))  # nan propagates
     if not np.isfinite(top):
         return False
-    al = float(np.clip(alpha, eye_model.ALPHA_MIN, eye_model.ALPHA_MAX))
-    t = eye_model.HAZARD_TIME
+    blue_reach, thermal_reach = eye_model.radiances_reaching_limits(eye_model.HAZARD_TIME,
+                                                                   alpha)
     keep = 1.0 - _BOUND_MARGIN
-    blue_reach = eye_model.BLUE_DOSE_LIMIT / t * keep
-    thermal_reach = eye_model.THERMAL_CONSTANT / t**0.25 * keep
-    return top * blue <= blue_reach and al * (top * thermal) <= thermal_reach
+    return top * blue <= blue_reach * keep and top * thermal <= thermal_reach * keep

@@ -23,7 +23,7 @@ Models (strobeplan.physics.led / thermal / switching / supply):
   The junction follows the Foster network driven by that heat from the mean junction
   temperature of normal operation (:func:`strobeplan.physics.supply.stuck_on_transient`):
   time to junction_max, the peak and when it happens; the series resistor's peak power and
-  the dump's energy in it. In a design search's chunks (``plan.rules_only``) the time to
+  the dump's energy in it. In a design search's plans (``plan.rules_only``) the time to
   junction_max is resolved only as far as its comparison with ``REACTION_TIME`` needs (a
   time inside the same grid interval, on the same side of it) and the peak and its time are
   not computed (NaN): no rule reads them.
@@ -213,7 +213,7 @@ STUCK_ON_POINTS_PER_DECADE = 32
 RATING_DISAGREEMENT = 0.20
 
 # Nobody notices and switches off a stuck gate faster (common practice): the stuck-on rules
-# compare the time to the junction limit with it, and a design search's chunks resolve that
+# compare the time to the junction limit with it, and a design search's plans resolve that
 # time only as far as this comparison needs.
 REACTION_TIME = 10.0  # [s]
 

@@ -78,3 +78,17 @@ def test_spectra():
     assert pb.photon_wavelength(625e-9, False) == pytest.approx(625e-9, rel=1e-3)
     out = pb.weighted_fraction(np.array([450e-9, 625e-9]), False, pb.thermal_weight)
     assert out.shape == (2,)
+
+
+@pytest.mark.parametrize("t", [0.25, 1.0, 5.0])
+@pytest.mark.parametrize("alpha", [0.001, 0.05, 0.5])
+def test_radiances_reaching_the_limits_invert_the_times(t, alpha):
+    # IEC 62471 Table 6.1's RG2/RG3 boundary values at 0.25 s: L_B = 4e6 (1e6 / 0.25) and
+    # L_R alpha = 70711 (50000 / 0.25^0.25); at other times the round trip through the
+    # times to the limits.
+    lb, lr = pb.radiances_reaching_limits(t, alpha)
+    assert pb.blue_time_to_limit(lb) == pytest.approx(t, rel=1e-12)
+    assert pb.thermal_time_to_limit(lr, alpha) == pytest.approx(t, rel=1e-12)
+    if t == 0.25:
+        assert lb == pytest.approx(4e6, rel=1e-12)
+        assert lr * min(max(alpha, 0.0017), 0.1) == pytest.approx(70711.0, rel=1e-5)
