@@ -2,9 +2,10 @@
 
 Random rigs (bundled examples with a few keys changed) and random designs inside the
 search's ranges: the grid engine's verdict of each design (tune.evaluate on an array design)
-equals `check` of the rig with that design written in, in both directions, and the same
-findings fire. At least 500 examples run in CI (a file of its own, so the parallel suite
-runs it beside tests/test_tune.py).
+equals `check` of the rig with that design written in, in both directions, the same
+findings fire, and its figures (score, light, margin, retention) are check's to the last
+bit. At least 500 examples run in CI (a file of its own, so the parallel suite runs it
+beside tests/test_tune.py).
 """
 
 from __future__ import annotations
@@ -91,5 +92,12 @@ def test_tune_verdict_equals_check(case):
         assert ("pass", "warn", "fail")[int(ev.verdict[k])] == verdict, (
             values, sorted(f.code for f in found), sorted(fired))
         assert fired == {f.code for f in found}
+        # ... and the figures it lists for a candidate are check's, to the last bit: no
+        # solver's answer depends on the other candidates solved beside it (a design
+        # search's frontier once listed a score 2e-15 off check's)
+        figures = {"score": tuner.objective(plan)[1], "light": plan.led.light_per_frame_a_s,
+                   "margin": plan.led.thermal_margin_k, "retention": plan.exposure.retention}
+        for name, value in figures.items():
+            assert getattr(ev, name)[k] == value, (name, values)
 
 

@@ -106,7 +106,8 @@ def current_at_voltage(voltage, n_vt, saturation_current, series_resistance, ite
     Solves ``v = a*u + R*Is*expm1(u)`` for ``u = ln(I/Is + 1)`` by Newton's method. The
     right-hand side is convex and increasing in ``u``; starting from an upper bound
     (the smaller of the diode-only and resistor-only solutions) the iterates decrease
-    monotonically to the root, so a fixed iteration count is safe on arrays.
+    monotonically to the root. Each element stops on its own converged step, so its
+    current does not depend on the other elements of the array.
     Reverse bias is not modelled: ``voltage <= 0`` gives 0 A.
 
     Parameters
@@ -120,7 +121,8 @@ def current_at_voltage(voltage, n_vt, saturation_current, series_resistance, ite
     series_resistance : float or ndarray
         Total series resistance (LED plus any external resistance). [ohm]
     iterations : int
-        Maximum Newton iterations (stops early once every element has converged).
+        Maximum Newton iterations (each element stops once its own step is below 1e-14 of
+        ``max(1, u)``).
 
     Returns
     -------
@@ -138,20 +140,39 @@ def current_at_voltage(voltage, n_vt, saturation_current, series_resistance, ite
         np.asarray(series_resistance, dtype=float),
     )
     v, a, i_s, r = np.broadcast_arrays(v, a, i_s, r)
-    with np.errstate(divide="ignore"):
-        u_resistor = np.log1p(v / (r * i_s))  # inf when r == 0
-    u = np.minimum(v / a, u_resistor)
-    has_r = r * i_s > 0  # without resistance u = v/a is already exact
+    ris = r * i_s
+    with np.errstate(divide="ignore", invalid="ignore"):
+        u_resistor = np.log1p(v / ris)  # inf when r == 0 (NaN at v == 0 too: not taken)
+    u = np.where(ris > 0, np.minimum(v / a, u_resistor), v / a)
+    # Without resistance u = v/a is already exact. Each element is iterated until its own
+    # step is negligible, and no further: its current is the same whatever else is in the
+    # array (a design search's candidate gets the bits ``check`` gives it alone). The
+    # unconverged elements' arguments are narrowed as the others finish.
+    uf = u.reshape(-1).copy()
+    active = np.flatnonzero(ris > 0)
+    part = [x.ravel()[active] for x in (a, ris, v)]
+    ua = uf[active]
     for _ in range(iterations):
-        e = np.expm1(np.where(has_r, u, 0.0))
-        g = a * u + r * i_s * e - v
-        dg = a + r * i_s * (e + 1.0)
-        step = np.where(has_r, g / dg, 0.0)
-        u = u - step
-        if np.all(np.abs(step) <= 1e-14 * np.maximum(1.0, np.abs(u))):
+        if active.size == 0:
             break
+        a_, ris_, v_ = part
+        e = np.expm1(ua)
+        g = a_ * ua + ris_ * e - v_
+        dg = a_ + ris_ * (e + 1.0)
+        step = g / dg
+        ua = ua - step
+        done = np.abs(step) <= 1e-14 * np.maximum(1.0, np.abs(ua))
+        if done.all():
+            uf[active] = ua
+            active, ua = active[:0], ua[:0]
+            break
+        uf[active[done]] = ua[done]
+        more = ~done
+        active, ua = active[more], ua[more]
+        part = [x[more] for x in part]
+    uf[active] = ua  # (the iterations ran out: the last iterate)
     with np.errstate(over="ignore"):
-        out = i_s * np.expm1(np.maximum(u, 0.0))
+        out = i_s * np.expm1(np.maximum(uf.reshape(u.shape), 0.0))
     return out[()] if out.ndim == 0 else out
 
 

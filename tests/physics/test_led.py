@@ -113,6 +113,35 @@ def test_current_at_voltage_vectorised_and_reverse():
     assert_allclose(led.forward_voltage(i[2:], 0.08, 1e-16, 0.5), v[2:], rtol=1e-12)
 
 
+@BOUNDED
+@given(st.lists(st.tuples(st.floats(0.0, 60.0), st.floats(0.04, 0.2), st.floats(-30, -8),
+                          st.floats(0.0, 20.0)), min_size=2, max_size=12))
+def test_current_at_voltage_each_element_as_alone(rows):
+    # An element's current is the same bits whatever else is solved beside it (a design
+    # search solves thousands of candidates in one array; check solves one).
+    v, n_vt, log_is, r = (np.array(x) for x in zip(*rows, strict=True))
+    batch = led.current_at_voltage(v, n_vt, 10.0**log_is, r)
+    alone = [led.current_at_voltage(*x) for x in zip(v, n_vt, 10.0**log_is, r, strict=True)]
+    assert batch.tolist() == alone
+
+
+def test_current_at_voltage_element_beside_a_slower_one():
+    # Explicit example (found by a random search against the previous solver, which iterated
+    # every element until the slowest converged: there the second came out 3.5e-15 high).
+    v = np.array([57.71860302299531, 43.625001476025254])
+    a = np.array([0.12659629688758947, 0.08430259264725934])
+    i_s = 10.0 ** np.array([-26.465655806947208, -8.661640909245083])
+    r = np.array([10.321855642372025, 2.318196383802935])
+    batch = led.current_at_voltage(v, a, i_s, r)
+    assert batch.tolist() == [led.current_at_voltage(*x) for x in zip(v, a, i_s, r, strict=True)]
+
+
+def test_current_at_voltage_zero_volts_without_resistance():
+    # voltage 0 gives 0 A with no series resistance too (0/0 once gave NaN)
+    assert led.current_at_voltage(0.0, 0.1, 1e-12, 0.0) == 0.0
+    assert led.current_at_voltage(np.zeros(2), 0.1, 1e-12, 0.0).tolist() == [0.0, 0.0]
+
+
 def test_dilog_against_scipy_spence():
     # scipy.special.spence(z) = Li2(1 - z) (scipy docs), so Li2(-y) = spence(1 + y).
     y = np.logspace(-2, 12, 60)
