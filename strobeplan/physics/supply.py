@@ -861,9 +861,17 @@ def _compute_circuit_response(circuit, points_per_decade) -> _CircuitResponse:
     t_lo = 1e-3 * np.minimum(np.min(tau, axis=-1), t_rc)
     t_hi = DISCHARGE_END * np.max(tau, axis=-1)
     decades = np.log10(t_hi / t_lo)
-    n_steps = max(int(np.ceil(points_per_decade * np.max(decades, initial=1.0))), 1)
-    step = decades / n_steps  # per candidate, at most 1/points_per_decade decades
-    grid = t_lo[..., None] * 10.0 ** (step[..., None] * np.arange(n_steps + 1))
+    # Each circuit's own number of steps (what it gets solved alone: a candidate's figures
+    # do not depend on the circuits solved beside it); the shorter grids are padded to the
+    # longest by repeating their last time, a step of no length and no heat that changes
+    # nothing (the same rise again: neither a higher peak nor a first crossing).
+    own = np.maximum(np.ceil(points_per_decade * np.maximum(decades, 1.0)), 1.0)
+    own = np.where(np.isfinite(own), own, 1.0).astype(np.int64)
+    n_steps = int(np.max(own, initial=1))
+    step = decades / own  # per circuit, at most 1/points_per_decade decades
+    index = np.arange(n_steps + 1)
+    padding = index > own[..., None]
+    grid = t_lo[..., None] * 10.0 ** (step[..., None] * np.minimum(index, own[..., None]))
     # LED energy up to each grid time, the grid axis in chunks of about 2**20 elements.
     energy = np.empty(grid.shape)
     per = max(1, (1 << 20) // max(1, math.prod(cshape)))
@@ -872,7 +880,9 @@ def _compute_circuit_response(circuit, points_per_decade) -> _CircuitResponse:
         energy[..., j:j + per] = pulse_operating_point(
             *cols[:6], grid[..., j:j + per], *cols[6:]).led_energy
     dt = np.diff(grid, axis=-1, prepend=0.0)
-    heat = (1.0 - eff)[..., None] * np.diff(energy, axis=-1, prepend=0.0) / dt
+    with np.errstate(invalid="ignore", divide="ignore"):
+        heat = (1.0 - eff)[..., None] * np.diff(energy, axis=-1, prepend=0.0) / dt
+    heat = np.where(padding, 0.0, heat)
     # Zero-state response of each term after each step (circuit shape, steps, terms).
     # (foster_advance step by step: its target and decay factors for every step at once,
     # then the recurrence, steps first so each step is one run of memory)
