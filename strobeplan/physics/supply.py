@@ -790,16 +790,21 @@ class _CircuitResponse(NamedTuple):
     decay_k: np.ndarray  # decay, rise_zero and grid as (steps, circuits): the scan's layout
     rise_zero_k: np.ndarray
     grid_k: np.ndarray
-    n_steps: int
+    n_steps: int  # the longest of the circuits' grids (the others padded to it)
+    own: np.ndarray  # each circuit's own number of steps (circuit shape)
 
 
 _LAST_CIRCUIT: list = []  # [(key, _CircuitResponse)]: the last circuit computed
+# [(points_per_decade, {circuit row's bytes: flat index}, _CircuitResponse)]: the response
+# with the most circuits computed so far, whose rows later arrays of its circuits reuse
+_POOL: list = []
 
 
 def forget_circuits() -> None:
-    """Drop the remembered stuck-on circuit response (a design search calls this when it
+    """Drop the remembered stuck-on circuit responses (a design search calls this when it
     starts and ends, so the memory is held only during one search)."""
     _LAST_CIRCUIT.clear()
+    _POOL.clear()
 
 
 def _circuit_key(circuit, points_per_decade):
@@ -807,19 +812,76 @@ def _circuit_key(circuit, points_per_decade):
     return (points_per_decade, tuple((a.shape, a.tobytes()) for a in arrays))
 
 
+def _circuit_params(circuit):
+    """(circuit shape, one row of parameters per circuit: (circuits, 10 + 2 x terms)), the
+    circuits laid out as :func:`_compute_circuit_response` lays them out."""
+    arrays = [np.asarray(x, dtype=float) for x in circuit]
+    scalars, (r, tau) = np.broadcast_arrays(*arrays[:10]), np.broadcast_arrays(*arrays[10:])
+    cshape = np.broadcast_shapes(scalars[0].shape, r.shape[:-1], tau.shape[:-1])
+    n = math.prod(cshape)
+    cols = [np.broadcast_to(x, cshape).reshape(n, 1) for x in scalars]
+    cols += [np.broadcast_to(x, cshape + x.shape[-1:]).reshape(n, -1) for x in (r, tau)]
+    return cshape, np.ascontiguousarray(np.concatenate(cols, axis=1))
+
+
+def _row_keys(rows):
+    return [row.tobytes() for row in rows]
+
+
+def _gathered(pool: _CircuitResponse, at: np.ndarray, cshape: tuple) -> _CircuitResponse:
+    """The response of the circuits at flat rows ``at`` of ``pool``, shaped ``cshape``: each
+    circuit's arrays are its own (see _compute_circuit_response: no circuit's numbers depend
+    on the others'), cut to the longest of their grids."""
+    n_steps = int(np.max(pool.own.reshape(-1)[at], initial=1))
+    cut = n_steps + 1
+
+    def per(x):  # (circuit shape) arrays
+        return np.array(np.broadcast_to(x, pool.cshape).reshape(-1)[at].reshape(cshape))
+
+    def rows(x, steps=False):  # (circuit shape, ...) arrays
+        flat = x.reshape((-1,) + x.shape[len(pool.cshape):])[at]
+        flat = flat[:, :cut] if steps else flat
+        return np.ascontiguousarray(flat).reshape(cshape + flat.shape[1:])
+
+    out = _CircuitResponse(
+        cshape, per(pool.i_ss), per(pool.i0), per(pool.rser), per(pool.pulse_energy),
+        rows(pool.share), rows(pool.r), rows(pool.tau),
+        *(rows(x, steps=True) for x in (pool.grid, pool.heat, pool.dt, pool.zero, pool.free,
+                                     pool.rise_zero, pool.decay)),
+        *(np.ascontiguousarray(x[:cut, at]) for x in (pool.decay_k, pool.rise_zero_k,
+                                                      pool.grid_k)),
+        n_steps, per(pool.own))
+    return out
+
+
 def _circuit_response(circuit, points_per_decade) -> _CircuitResponse:
-    """The circuit part of :func:`stuck_on_transient`, remembered for the last circuit.
+    """The circuit part of :func:`stuck_on_transient`, remembered.
 
     A design search solves chunk after chunk of pulse widths over the same grid of series
     resistors and supply voltages: the circuit's arrays are equal from chunk to chunk, so
     their response is computed once (the key is the arrays' exact bytes; the result is
-    the same arrays the computation gives, read-only).
+    the same arrays the computation gives, read-only). The search's later evaluations (its
+    best rows, their neighbours, its frontier, its verification) meet circuits of that grid
+    again, in other arrays: their rows are taken from the largest response computed so far
+    when every circuit is found there (by its parameters' exact bytes), the same numbers
+    as computing them (each circuit's response is its own).
     """
     key = _circuit_key(circuit, points_per_decade)
     if _LAST_CIRCUIT and _LAST_CIRCUIT[0][0] == key:
         return _LAST_CIRCUIT[0][1]
-    out = _compute_circuit_response(circuit, points_per_decade)
-    for x in out[1:-1]:
+    out = None
+    cshape, rows = _circuit_params(circuit)
+    if _POOL and _POOL[0][0] == points_per_decade:
+        index = _POOL[0][1]
+        at = [index.get(k) for k in _row_keys(rows)]
+        if None not in at:
+            out = _gathered(_POOL[0][2], np.array(at, dtype=np.intp), cshape)
+    if out is None:
+        out = _compute_circuit_response(circuit, points_per_decade)
+        if not _POOL or len(_POOL[0][1]) < rows.shape[0]:
+            index = {k: i for i, k in enumerate(_row_keys(rows))}
+            _POOL[:] = [(points_per_decade, index, out)]
+    for x in out[1:-2]:
         x.setflags(write=False)
     _LAST_CIRCUIT[:] = [(key, out)]
     return out
@@ -904,4 +966,5 @@ def _compute_circuit_response(circuit, points_per_decade) -> _CircuitResponse:
                             np.array(r), np.array(tau), grid, heat, dt, zero, free,
                             rise_zero, decay, *(np.ascontiguousarray(
                                 x.reshape(math.prod(cshape), -1).T) for x in (
-                                    decay, rise_zero, grid)), n_steps)
+                                    decay, rise_zero, grid)), n_steps,
+                            np.broadcast_to(own, cshape).copy())

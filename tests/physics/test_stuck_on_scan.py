@@ -122,9 +122,8 @@ LEVITATOR_FIT = dict(n_vt=0.0913, saturation_current=2.2e-11, led_series_resista
 
 
 def test_stuck_on_grid_is_its_candidates_bit_for_bit():
-    # A grid of (resistor, voltage) circuits against a spread of starting temperatures:
-    # the grid's circuits share one time grid (the widest one needs the most steps), so the
-    # reference is the full scan on that same grid, forced by disabling the shortcut.
+    # A grid of (resistor, voltage) circuits against a spread of starting temperatures; the
+    # reference is the full scan, forced by disabling the shortcut.
     volts = np.array([12.0, 24.0, 36.0])[None, None, :]
     ohms = np.array([0.5, 1.0, 2.2, 4.7, 10.0])[None, :, None]
     start = 298.15 + np.linspace(0.0, 30.0, 17)[:, None, None]
@@ -145,6 +144,44 @@ def test_stuck_on_grid_is_its_candidates_bit_for_bit():
     crossed = np.isfinite(full.time_to_limit)
     assert crossed.any() and (~crossed).any()  # both verdicts occur
     _same(fast, full)
+
+
+def test_circuits_taken_from_a_remembered_grid_are_computed_ones():
+    # A search's later evaluations meet its grid's circuits again in other arrays: their
+    # rows are taken from the grid's response. Every array equals computing them afresh,
+    # for subsets in any order and shape, repeats included (circuits 0.1 uF to 47 mF, so
+    # their own time grids have different numbers of steps).
+    caps = np.array([0.1e-6, 2.2e-6, 470e-6, 47e-3])[:, None]
+    ohms = np.array([0.5, 2.2, 10.0])[None, :]
+    base = dict(supply_voltage=24.0, esr=0.05, on_resistance=0.01, current_limit=0.5,
+                efficiency=0.3, resistances=[1.5, 3.0, 6.0, 15.0],
+                time_constants=[20e-6, 2e-3, 80e-3, 20.0], **LEVITATOR_FIT)
+
+    def circuit(c, r):
+        return tuple(base[k] if k not in ("capacitance", "series_resistor") else
+                     (c if k == "capacitance" else r) for k in (
+            "supply_voltage", "capacitance", "esr", "series_resistor", "on_resistance",
+            "current_limit", "n_vt", "saturation_current", "led_series_resistance",
+            "efficiency", "resistances", "time_constants"))
+
+    supply.forget_circuits()
+    try:
+        whole = supply._circuit_response(circuit(caps, ohms), 32)
+        assert len(set(whole.own.ravel().tolist())) > 1  # grids of different lengths
+        for c, r in [(caps[[3, 0]], ohms), (np.array([2.2e-6, 2.2e-6]), np.array([10.0, 0.5])),
+                     (0.1e-6, 0.5), (47e-3, 2.2), (caps[1:2], ohms[:, 2:])]:
+            real = supply._compute_circuit_response
+            supply._compute_circuit_response = None  # (taken from the grid's, not computed)
+            try:
+                got = supply._circuit_response(circuit(c, r), 32)
+            finally:
+                supply._compute_circuit_response = real
+            fresh = real(circuit(c, r), 32)
+            for name, x, y in zip(got._fields, got, fresh, strict=True):
+                assert np.array_equal(x, y, equal_nan=True), name
+                assert np.shape(x) == np.shape(y), name
+    finally:
+        supply.forget_circuits()
 
 
 def test_burst_sag_grid_is_its_candidates_bit_for_bit():
