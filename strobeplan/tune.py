@@ -288,11 +288,14 @@ def _search(rig, limits, grid, known, t0, *, chunk, runner_ups, progress, refine
         if progress is not None:
             progress(min(nw, start + rows) * nr * ne * nv, grid.size)
 
-    # The kept candidates and the refinement's ticks (at the best's circuit), evaluated on
-    # their own: grouped by circuit, so one evaluation per distinct (resistor, supply).
+    # The kept candidates, the refinement's ticks (at the best's circuit) and the
+    # frontier's cells, evaluated in one design (each row as on its own).
     rows = [grid.at(flat) for _l, _m, flat in top]
     ticks = _refine_rows(rig, grid, rows[0]) if rows and refine else []
-    done = _evaluate_by_circuit(rig, rows + ticks, known)
+    cells = _frontier_rows(grid, cloud)
+    done = _evaluate_rows(rig, rows + ticks + cells, known)
+    frontier = [_candidate(*one) for one in done[len(rows) + len(ticks):]]
+    done = done[:len(rows) + len(ticks)]
     cands = [_candidate(*one) for one in done[:len(rows)]]
     best = cands[0] if cands else None
     refined_from = None
@@ -325,7 +328,7 @@ def _search(rig, limits, grid, known, t0, *, chunk, runner_ups, progress, refine
         cands = [best] + [c for c in cands if c is not best and c.score <= best.score]
     explanation = None if best is not None else _explain(excluded, only, reached, rig, grid)
     return TuneResult(
-        best=best, runner_ups=cands[1:keep], frontier=_frontier(rig, grid, cloud, known),
+        best=best, runner_ups=cands[1:keep], frontier=frontier,
         candidates=grid.size, feasible=feasible, seconds=time.perf_counter() - t0,
         excluded=excluded, only_excluded=only, best_reached=reached, explanation=explanation,
         grid=grid, min_retention=rig.strobe.min_retention, min_margin=rig.led.min_margin,
@@ -334,26 +337,21 @@ def _search(rig, limits, grid, known, t0, *, chunk, runner_ups, progress, refine
         max_blur=rig.camera.max_blur if rig.camera is not None else None)
 
 
-def _evaluate_by_circuit(rig, rows: list, known: dict | None = None) -> list:
-    """Each row (width, resistor, every, supply) evaluated as if on its own: rows sharing
-    a circuit (resistor and supply) are evaluated together. Returns (evaluation, index,
-    design) per row, in order (the arguments of ``_candidate``).
+def _evaluate_rows(rig, rows: list, known: dict | None = None) -> list:
+    """Each row (width, resistor, every, supply) evaluated as if on its own, all in one
+    design. Returns (evaluation, index, design) per row, in order (the arguments of
+    ``_candidate``).
 
-    Nothing in a row's evaluation depends on the other rows of its group: the stages are
-    elementwise over the design, and the one figure shared across a batch, the stuck-on time
-    grid's step count (the most any circuit of the batch needs), is the same for equal
-    circuits.
+    Nothing in a row's evaluation depends on the other rows: the stages are elementwise
+    over the design, and every iterative solver (the diode's current, the end of a pulse,
+    the stuck-on time grid) stops or sizes itself per candidate, so a row's figures are the
+    bits it gets alone (tests/test_tune_grouped.py, tests/test_tune_equals_check.py).
     """
-    groups: dict[tuple, list[int]] = {}
-    for i, row in enumerate(rows):
-        groups.setdefault((row[1], row[3]), []).append(i)
-    out: list = [None] * len(rows)
-    for members in groups.values():
-        design = _design_of([rows[i] for i in members])
-        ev = evaluate(rig, design, known, rules_only=True)
-        for k, i in enumerate(members):
-            out[i] = (ev, k, design)
-    return out
+    if not rows:
+        return []
+    design = _design_of(rows)
+    ev = evaluate(rig, design, known, rules_only=True)
+    return [(ev, k, design) for k in range(len(rows))]
 
 
 def _refine_rows(rig, grid: Grid, best: tuple) -> list[tuple[float, float, int, float]]:
@@ -413,9 +411,10 @@ def _limited_by(rig, grid: Grid, best: Candidate, known: dict | None = None) -> 
     return "search range (" + ", ".join(ends) + ")" if ends else "search range"
 
 
-def _frontier(rig, grid: Grid, cloud: Cloud, known: dict | None = None) -> list[Candidate]:
-    """Pareto front of (retention, light) over the (width, every) cells' brightest safe
-    candidates (safe: passing every constraint but the traded ones)."""
+def _frontier_rows(grid: Grid, cloud: Cloud) -> list[tuple[float, float, int, float]]:
+    """The rows of the Pareto front of (retention, light) over the (width, every) cells'
+    brightest safe candidates (safe: passing every constraint but the traded ones), in
+    order of falling retention."""
     light = cloud.safe_light.ravel()
     ret = cloud.retention.ravel()
     idx = np.flatnonzero(np.isfinite(light) & (light > 0))
@@ -427,9 +426,7 @@ def _frontier(rig, grid: Grid, cloud: Cloud, known: dict | None = None) -> list[
         if light[c] > best:
             cells.append(int(c))
             best = light[c]
-    design = _design_of([grid.at(cloud.safe_flat.ravel()[c]) for c in cells])
-    ev = evaluate(rig, design, known, rules_only=True)
-    return [_candidate(ev, k, design) for k in range(len(cells))]
+    return [grid.at(cloud.safe_flat.ravel()[c]) for c in cells]
 
 
 def _explain(excluded, only, reached, rig, grid) -> str:

@@ -1,8 +1,9 @@
-"""`tune` evaluates its kept candidates and the refinement's ticks grouped by circuit.
+"""`tune` evaluates its kept candidates, the refinement's ticks and the frontier's cells
+together, in one design.
 
-Oracle: each candidate evaluated on its own (a one-row design, what the search did before it
-grouped them): the candidate's figures, verdict and violated constraints must be equal, and
-the refinement must pick the same tick as the one-design-per-refinement evaluation.
+Oracle: each candidate evaluated on its own (a one-row design): the candidate's figures,
+verdict and violated constraints must be equal, to the last bit, and the refinement must
+pick the same tick as the one-design-per-refinement evaluation.
 """
 
 from __future__ import annotations
@@ -21,7 +22,7 @@ def _alone(rig, grid, flat, known):
     return tuner._candidate(tuner.evaluate(rig, design, known), 0, design)
 
 
-def test_grouped_rows_equal_rows_alone():
+def test_rows_together_equal_rows_alone():
     rig = load_rig(example("levitator-40k"))
     grid = tuner.default_grid(rig, solve(rig, checks=False), widths=24,
                               resistor_range=(0.5, 10.0), max_every=3,
@@ -35,8 +36,8 @@ def test_grouped_rows_equal_rows_alone():
              for ir, iv in ((1, 0), (nr - 2, nv - 1))]
     flats += [int(f) for f in rng.integers(0, grid.size, 3)]
     rows = [grid.at(f) for f in flats]
-    done = tuner._evaluate_by_circuit(rig, rows, known)
-    assert len({(r[1], r[3]) for r in rows}) < len(rows)  # some groups hold several rows
+    done = tuner._evaluate_rows(rig, rows, known)
+    assert 1 < len({(r[1], r[3]) for r in rows}) < len(rows)  # circuits shared and not
     for flat, one in zip(flats, done, strict=True):
         alone = _alone(rig, grid, flat, known)
         assert tuner._candidate(*one).to_json() == alone.to_json()
@@ -53,7 +54,7 @@ def test_grouped_refinement_is_the_refinement_alone():
     row = grid.at(best_flat)
     ticks = tuner._refine_rows(rig, grid, row)
     assert ticks
-    together = tuner._evaluate_by_circuit(rig, [row] + ticks, known)
+    together = tuner._evaluate_rows(rig, [row] + ticks, known)
     grouped = tuner._refined(tuner._candidate(*together[0]), together[1:])
     # the refinement evaluated as one design of its ticks (its form before the grouping)
     design = tuner._design_of(ticks)
