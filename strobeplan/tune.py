@@ -33,6 +33,7 @@ from __future__ import annotations
 
 import math
 import time
+from dataclasses import field
 from typing import Any
 
 import numpy as np
@@ -78,13 +79,17 @@ class Evaluation:
     margin: np.ndarray
     retention: np.ndarray
     score: np.ndarray  # what the search maximises (see :func:`objective`)
+    _constraints: dict | None = field(default=None, repr=False, compare=False)
 
     def constraint_masks(self) -> dict[str, np.ndarray]:
-        """The masks that exclude candidates: hazards, faults and the avoided warnings."""
+        """The masks that exclude candidates: hazards, faults and the avoided warnings
+        (worked out once per evaluation: each listed candidate asks)."""
         from .checks import RULES
 
-        return {c: m for c, m in self.masks.items()
-                if RULES[c].severity in ("hazard", "fault") or c in AVOID}
+        if self._constraints is None:
+            self._constraints = {c: m for c, m in self.masks.items()
+                                 if RULES[c].severity in ("hazard", "fault") or c in AVOID}
+        return dict(self._constraints)
 
 
 def evaluate(rig, design: Design, known: dict | None = None, *,
@@ -293,8 +298,13 @@ def _search(rig, limits, grid, known, t0, *, chunk, runner_ups, progress, refine
     rows = [grid.at(flat) for _l, _m, flat in top]
     ticks = _refine_rows(rig, grid, rows[0]) if rows and refine else []
     cells = _frontier_rows(grid, cloud)
-    done = _evaluate_rows(rig, rows + ticks + cells, known)
-    frontier = [_candidate(*one) for one in done[len(rows) + len(ticks):]]
+    # (and the grid best's brighter neighbours, which name the binding constraint when
+    # neither the refinement nor the verification replaces it)
+    near = _neighbours(grid, rows[0])[0] if rows else []
+    done = _evaluate_rows(rig, rows + ticks + cells + near, known)
+    n_front = len(rows) + len(ticks) + len(cells)
+    near = dict(zip(near, done[n_front:], strict=True))
+    frontier = [_candidate(*one) for one in done[len(rows) + len(ticks):n_front]]
     done = done[:len(rows) + len(ticks)]
     cands = [_candidate(*one) for one in done[:len(rows)]]
     best = cands[0] if cands else None
@@ -324,7 +334,7 @@ def _search(rig, limits, grid, known, t0, *, chunk, runner_ups, progress, refine
     else:
         best = None
     if best is not None:
-        best.limited_by = _limited_by(rig, grid, best, known)
+        best.limited_by = _limited_by(rig, grid, best, known, near)
         cands = [best] + [c for c in cands if c is not best and c.score <= best.score]
     explanation = None if best is not None else _explain(excluded, only, reached, rig, grid)
     return TuneResult(
@@ -382,30 +392,44 @@ def _refined(best: Candidate, done: list) -> Candidate | None:
 _AXES = ("pulse width", "series resistor", "every", "supply voltage")
 
 
-def _limited_by(rig, grid: Grid, best: Candidate, known: dict | None = None) -> str:
-    """The constraint that a brighter neighbour (one grid step wider, lower resistor,
-    smaller every or higher supply) violates most often; else the grid's edge."""
-    steps = [(grid.widths, best.pulse_width_s, +1), (grid.resistors, best.series_resistor_ohm,
-                                                       -1),
-             (grid.everys, best.every, -1), (grid.voltages, best.supply_voltage_v, +1)]
+def _neighbours(grid: Grid, values: tuple) -> tuple[list[tuple], list[str]]:
+    """The brighter neighbours of a design (width, resistor, every, supply): one grid step
+    wider, lower resistor, smaller every or higher supply, each axis on its own; and the
+    axes along which it sits at the grid's edge."""
+    steps = [(grid.widths, +1), (grid.resistors, -1), (grid.everys, -1), (grid.voltages, +1)]
     neighbours, ends = [], []
-    for axis, (values, here, step) in enumerate(steps):
-        j = int(np.argmin(np.abs(values - here))) + step
-        if values.size > 1 and 0 <= j < values.size:
-            v = [best.pulse_width_s, best.series_resistor_ohm, best.every,
-                 best.supply_voltage_v]
-            v[axis] = values[j]
+    for axis, (axis_values, step) in enumerate(steps):
+        j = int(np.argmin(np.abs(axis_values - values[axis]))) + step
+        if axis_values.size > 1 and 0 <= j < axis_values.size:
+            v = list(values)
+            v[axis] = axis_values[j]
             neighbours.append(tuple(v))
-        elif values.size > 1:
+        elif axis_values.size > 1:
             ends.append(_AXES[axis])
+    return neighbours, ends
+
+
+def _values(c: Candidate) -> tuple:
+    return (c.pulse_width_s, c.series_resistor_ohm, c.every, c.supply_voltage_v)
+
+
+def _limited_by(rig, grid: Grid, best: Candidate, known: dict | None = None,
+                done: dict | None = None) -> str:
+    """The constraint that a brighter neighbour (:func:`_neighbours`) violates most often;
+    else the grid's edge. ``done``: rows already evaluated ({row: (evaluation, index,
+    design)}), used when they hold every neighbour."""
+    neighbours, ends = _neighbours(grid, _values(best))
     counts: dict[str, int] = {}
     if neighbours:
-        design = _design_of(neighbours)
-        ev = evaluate(rig, design, known, rules_only=True)
-        for code, m in ev.constraint_masks().items():
-            n = int((m & (ev.score > best.score)).sum())
-            if n:
-                counts[code] = n
+        if done is None or any(n not in done for n in neighbours):
+            done = dict(zip(neighbours, _evaluate_rows(rig, neighbours, known), strict=True))
+        for n in neighbours:
+            ev, k, _design = done[n]
+            if not ev.score[k] > best.score:
+                continue
+            for code, m in ev.constraint_masks().items():
+                if m[k]:
+                    counts[code] = counts.get(code, 0) + 1
     if counts:
         return max(sorted(counts), key=lambda c: counts[c])
     return "search range (" + ", ".join(ends) + ")" if ends else "search range"

@@ -9,6 +9,7 @@ pick the same tick as the one-design-per-refinement evaluation.
 from __future__ import annotations
 
 import numpy as np
+import pytest
 
 from strobeplan import tune as tuner
 from strobeplan.rig import load_rig
@@ -65,3 +66,28 @@ def test_grouped_refinement_is_the_refinement_alone():
     else:
         k = int(ok[np.argmax(ev.score[ok])])
         assert grouped.to_json() == tuner._candidate(ev, k, design).to_json()
+
+
+@pytest.mark.parametrize("options", [None, {"widths": 30, "max_every": 3}])
+def test_search_evaluates_once_after_its_grid_and_names_the_same_binding_rule(
+        monkeypatch, options):
+    # The kept rows, the ticks, the frontier and the grid best's neighbours are one
+    # evaluation; the binding constraint named from it equals the one from the neighbours
+    # evaluated on their own (the form before the merge). With the default grid the grid's
+    # best stands; on the coarse one the refinement replaces it, and its own neighbours
+    # are evaluated after.
+    rig = load_rig(example("levitator-40k"))
+    calls = []
+    real = tuner.evaluate
+
+    def spy(rig_, design, known=None, **kw):
+        calls.append(len(design.shape))
+        return real(rig_, design, known, **kw)
+
+    monkeypatch.setattr(tuner, "evaluate", spy)
+    result = tuner.tune(rig, grid_options=options)
+    assert (result.refined_from is None) == (options is None)
+    assert calls.count(1) == (1 if result.refined_from is None else 2)
+    known = tuner.rig_constants(rig)
+    alone = tuner._limited_by(rig, result.grid, result.best, known)  # its own evaluation
+    assert result.best.limited_by == alone
