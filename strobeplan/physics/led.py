@@ -31,7 +31,7 @@ from typing import NamedTuple
 
 import numpy as np
 
-from .arrays import unique
+from .arrays import compact, unique
 
 BOLTZMANN = 1.380649e-23  # [J/K], CODATA 2018 exact
 ELEMENTARY_CHARGE = 1.602176634e-19  # [C], CODATA 2018 exact
@@ -150,7 +150,7 @@ def current_at_voltage(voltage, n_vt, saturation_current, series_resistance, ite
     # unconverged elements' arguments are narrowed as the others finish.
     uf = u.reshape(-1).copy()
     active = np.flatnonzero(ris > 0)
-    part = [x.ravel()[active] for x in (a, ris, v)]
+    part = [_one(x) if _one(x) is not None else x.ravel()[active] for x in (a, ris, v)]
     ua = uf[active]
     for _ in range(iterations):
         if active.size == 0:
@@ -169,11 +169,18 @@ def current_at_voltage(voltage, n_vt, saturation_current, series_resistance, ite
         uf[active[done]] = ua[done]
         more = ~done
         active, ua = active[more], ua[more]
-        part = [x[more] for x in part]
+        part = [x[more] if x.ndim else x for x in part]
     uf[active] = ua  # (the iterations ran out: the last iterate)
     with np.errstate(over="ignore"):
         out = i_s * np.expm1(np.maximum(uf.reshape(u.shape), 0.0))
     return out[()] if out.ndim == 0 else out
+
+
+def _one(x):
+    """``x``'s single value as a 0-d array when all its elements are one broadcast value,
+    else None."""
+    c = compact(x)
+    return c.reshape(()) if c.size == 1 else None
 
 
 def _fit_residuals(x, free, fixed, i, v):
@@ -519,26 +526,27 @@ def _pulse(supply_voltage, capacitance, esr, series_resistor, on_resistance, rec
         i0 = np.array(i0_cap)
 
     # Safe placeholders where the capacitor does not droop.
-    ib_d = np.where(droops, ib, 0.0)
-    i0_d = np.where(droops, i0, 1.0)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        u0 = np.log(i0_d - ib_d)
+    ib_d = np.where(droops, ib, 0.0) if hold else ib
+    i0_d = np.where(droops, i0, 1.0) if hold else i0
     f_min = r_tot + a / (i0_d + i_s)  # smallest F'(I) along the discharge
     du = _solve_end(tp / (c * f_min), tp, i0_d, ib_d, i_s, a, r_tot, c, droops)  # t(hi) >= tp
-    u1 = u0 - du
     e0 = i0_d - ib_d
     e1 = e0 * np.exp(-du)
-    i1 = ib_d + e1
     de = -e0 * np.expm1(-du)  # e0 - e1 without cancellation
     d = ib_d + i_s  # X = I + Is = d + e^u
-    x0, x1 = d + e0, d + e1
-    lx1 = np.log(x1)
+    x1 = d + e1
     dl = np.log1p(de / x1)  # ln X0 - ln X1
-    with np.errstate(divide="ignore"):
-        ln_d = np.log(d)
     vc_drop = r_tot * de + a * dl
     if end_only:
-        return i0, vs - np.where(droops, vc_drop, 0.0)
+        return i0, vs - (np.where(droops, vc_drop, 0.0) if hold else vc_drop)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        u0 = np.log(i0_d - ib_d)
+    u1 = u0 - du
+    i1 = ib_d + e1
+    x0 = d + e0
+    lx1 = np.log(x1)
+    with np.errstate(divide="ignore"):
+        ln_d = np.log(d)
     charge = c * vc_drop + ib_d * tp
     # integral of du/X from u1 to u0, times D:  ln((X-D)/X) difference
     d_inv_x = np.logaddexp(0.0, ln_d - u1) - np.logaddexp(0.0, ln_d - u0)
@@ -588,7 +596,8 @@ def _solve_end(hi, tp, i0, ib, i_s, a, r_tot, c, mask, iterations=100):
     active = np.flatnonzero(np.broadcast_to(mask, v.shape))
     # The unsolved candidates' arguments and bracket, narrowed as they finish (a value the
     # same for all stays a scalar); each candidate's arithmetic is its own.
-    part = [x.reshape(()) if x.size == 1 else np.broadcast_to(x, v.shape).ravel()[active]
+    # (one value broadcast, e.g. a circuit constant over a grid, stays one value)
+    part = [_one(x) if _one(x) is not None else np.broadcast_to(x, v.shape).ravel()[active]
             for x in (np.asarray(y, dtype=float) for y in (tp, i0, ib, i_s, a, r_tot, c))]
     va = vf[active]
     lo_a, hi_a = np.zeros(active.size), va.copy()
