@@ -207,7 +207,8 @@ def burst_sag(supply_voltage, capacitance, esr, series_resistor, on_resistance,
         first = pulse_operating_point(vs, c, esr_, rser, ron, ib, tp, a, i_s, rs)
     peak = np.asarray(first.peak_current, dtype=float)
     end = np.asarray(first.end_voltage, dtype=float)
-    v_next = np.minimum(vs, end + ib * (s - tp) / c)
+    recharge = ib * (s - tp) / c  # the boost's recharge between flashes [V]
+    v_next = np.minimum(vs, end + recharge)
     grid = shape or (1,)  # (one candidate as a row of one)
     more = np.broadcast_to((1 < n) & (v_next != vs), grid)
 
@@ -226,18 +227,20 @@ def burst_sag(supply_voltage, capacitance, esr, series_resistor, on_resistance,
         return x.reshape(()) if x.size == 1 else np.broadcast_to(x, grid)[where]
 
     v = np.broadcast_to(v_next, grid)[where]
-    part = [take(x) for x in (c, esr_, rser, ron, ib, tp, a, i_s, rs, vs, s, n)]
+    part = [take(x) for x in (c, esr_, rser, ron, ib, tp, a, i_s, rs, vs, n, recharge)]
     k = 1
     while act.size:
-        c_a, esr_a, rser_a, ron_a, ib_a, tp_a, a_a, is_a, rs_a, vs_a, s_a, n_a = part
+        c_a, esr_a, rser_a, ron_a, ib_a, tp_a, a_a, is_a, rs_a, vs_a, n_a, re_a = part
         peak, end = pulse_end(v, c_a, esr_a, rser_a, ron_a, ib_a, tp_a, a_a, is_a, rs_a)
-        last[act] = peak
-        v_before_last[act] = v
-        v_end[act] = end
-        v_next = np.minimum(vs_a, end + ib_a * (s_a - tp_a) / c_a)
+        v_next = np.minimum(vs_a, end + re_a)
         more = (k + 1 < n_a) & (v_next != v)
-        act, v = act[more], v_next[more]
-        part = [x[more] if x.ndim else x for x in part]
+        if more.all():  # (a flash's figures are kept only when it is a candidate's last)
+            v = v_next
+        else:
+            gone = act[~more]
+            last[gone], v_before_last[gone], v_end[gone] = peak[~more], v[~more], end[~more]
+            act, v = act[more], v_next[more]
+            part = [x[more] if x.ndim else x for x in part]
         k += 1
     out = BurstSag(*((x).reshape(shape) for x in (vs_f - v_before_last, vs_f - v_end, first_i,
                                                    last)))
