@@ -143,15 +143,21 @@ def current_at_voltage(voltage, n_vt, saturation_current, series_resistance, ite
     ris = r * i_s
     with np.errstate(divide="ignore", invalid="ignore"):
         u_resistor = np.log1p(v / ris)  # inf when r == 0 (NaN at v == 0 too: not taken)
-    u = np.where(ris > 0, np.minimum(v / a, u_resistor), v / a)
+    has_r = ris > 0
+    u = np.where(has_r, np.minimum(v / a, u_resistor), v / a)
     # Without resistance u = v/a is already exact. Each element is iterated until its own
     # step is negligible, and no further: its current is the same whatever else is in the
     # array (a design search's candidate gets the bits ``check`` gives it alone). The
     # unconverged elements' arguments are narrowed as the others finish.
     uf = u.reshape(-1).copy()
-    active = np.flatnonzero(ris > 0)
-    part = [_one(x) if _one(x) is not None else x.ravel()[active] for x in (a, ris, v)]
-    ua = uf[active]
+    if has_r.all():  # (every element iterates: its arguments as they are)
+        active = np.arange(uf.size)
+        part = [_one(x) if _one(x) is not None else x.ravel() for x in (a, ris, v)]
+        ua = uf.copy()
+    else:
+        active = np.flatnonzero(has_r)
+        part = [_one(x) if _one(x) is not None else x.ravel()[active] for x in (a, ris, v)]
+        ua = uf[active]
     for _ in range(iterations):
         if active.size == 0:
             break
@@ -509,9 +515,11 @@ def _pulse(supply_voltage, capacitance, esr, series_resistor, on_resistance, rec
         supply_voltage, esr, series_resistor, on_resistance, recharge_current, n_vt,
         saturation_current, led_series_resistance)])
     vs_c, esr_c, rser_c, ron_c, ib_c, a_c, is_c, rs_c = circuit
+    # (r_tot's own sum when the circuit spans every candidate, e.g. a burst's flashes)
+    r_c = r_tot if vs_c.shape == vs.shape else rs_c + esr_c + rser_c + ron_c
     # Start current if the capacitor supplies the difference I - Ib through its ESR.
-    i0_cap = np.broadcast_to(current_at_voltage(vs_c + esr_c * ib_c, a_c, is_c,
-                                                rs_c + esr_c + rser_c + ron_c), vs.shape)
+    i0_cap = np.broadcast_to(current_at_voltage(vs_c + esr_c * ib_c, a_c, is_c, r_c),
+                             vs.shape)
     droops = np.asarray(i0_cap > ib)
     # (every candidate drooping, e.g. a burst's later flashes: the boost-only branch below is
     # selected nowhere, so it is not solved)
