@@ -602,9 +602,9 @@ def _solve_end(hi, tp, i0, ib, i_s, a, r_tot, c, mask, iterations=100):
     v = np.array(hi, dtype=float)
     vf = v.ravel()
     active = np.flatnonzero(np.broadcast_to(mask, v.shape))
-    # The unsolved candidates' arguments and bracket, narrowed as they finish (a value the
-    # same for all stays a scalar); each candidate's arithmetic is its own.
-    # (one value broadcast, e.g. a circuit constant over a grid, stays one value)
+    # The unsolved candidates' arguments and bracket, narrowed as they finish (one value
+    # broadcast to all, e.g. a circuit constant over a grid, stays one value); each
+    # candidate's arithmetic is its own.
     part = [_one(x) if _one(x) is not None else np.broadcast_to(x, v.shape).ravel()[active]
             for x in (np.asarray(y, dtype=float) for y in (tp, i0, ib, i_s, a, r_tot, c))]
     va = vf[active]
