@@ -301,16 +301,15 @@ def _search(rig, limits, grid, known, t0, *, chunk, runner_ups, progress, refine
     # (and the grid best's brighter neighbours, which name the binding constraint when
     # neither the refinement nor the verification replaces it)
     near = _neighbours(grid, rows[0])[0] if rows else []
-    done = _evaluate_rows(rig, rows + ticks + cells + near, known)
-    n_front = len(rows) + len(ticks) + len(cells)
-    near = dict(zip(near, done[n_front:], strict=True))
-    frontier = [_candidate(*one) for one in done[len(rows) + len(ticks):n_front]]
-    done = done[:len(rows) + len(ticks)]
-    cands = [_candidate(*one) for one in done[:len(rows)]]
+    done = iter(_evaluate_rows(rig, rows + ticks + cells + near, known))
+    kept, ticked, front = ([next(done) for _ in part] for part in (rows, ticks, cells))
+    near = dict(zip(near, done, strict=True))
+    frontier = [_candidate(*one) for one in front]
+    cands = [_candidate(*one) for one in kept]
     best = cands[0] if cands else None
     refined_from = None
     if best is not None and ticks:
-        better = _refined(best, done[len(rows):])
+        better = _refined(best, ticked)
         if better is not None:
             refined_from = best.pulse_width_s
             best = better

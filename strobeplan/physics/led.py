@@ -149,15 +149,14 @@ def current_at_voltage(voltage, n_vt, saturation_current, series_resistance, ite
     # step is negligible, and no further: its current is the same whatever else is in the
     # array (a design search's candidate gets the bits ``check`` gives it alone). The
     # unconverged elements' arguments are narrowed as the others finish.
-    uf = u.reshape(-1).copy()
-    if has_r.all():  # (every element iterates: its arguments as they are)
+    uf = u.reshape(-1)
+    if has_r.all():  # (every element iterates: its arguments as they are, not gathered)
         active = np.arange(uf.size)
-        part = [_one(x) if _one(x) is not None else x.ravel() for x in (a, ris, v)]
-        ua = uf.copy()
+        part = [_narrowed(x, np.ravel) for x in (a, ris, v)]
     else:
         active = np.flatnonzero(has_r)
-        part = [_one(x) if _one(x) is not None else x.ravel()[active] for x in (a, ris, v)]
-        ua = uf[active]
+        part = [_narrowed(x, lambda y: y.ravel()[active]) for x in (a, ris, v)]
+    ua = uf[active]
     for _ in range(iterations):
         if active.size == 0:
             break
@@ -170,23 +169,23 @@ def current_at_voltage(voltage, n_vt, saturation_current, series_resistance, ite
         done = np.abs(step) <= 1e-14 * np.maximum(1.0, np.abs(ua))
         if done.all():
             uf[active] = ua
-            active, ua = active[:0], ua[:0]
             break
         uf[active[done]] = ua[done]
         more = ~done
         active, ua = active[more], ua[more]
         part = [x[more] if x.ndim else x for x in part]
-    uf[active] = ua  # (the iterations ran out: the last iterate)
+    else:
+        uf[active] = ua  # (the iterations ran out: the last iterate)
     with np.errstate(over="ignore"):
         out = i_s * np.expm1(np.maximum(uf.reshape(u.shape), 0.0))
     return out[()] if out.ndim == 0 else out
 
 
-def _one(x):
-    """``x``'s single value as a 0-d array when all its elements are one broadcast value,
-    else None."""
+def _narrowed(x, take):
+    """``x``'s one value as a 0-d array when every element is that broadcast value (e.g. a
+    circuit constant over a grid), else ``take(x)`` (its elements for the active set)."""
     c = compact(x)
-    return c.reshape(()) if c.size == 1 else None
+    return c.reshape(()) if c.size == 1 else take(x)
 
 
 def _fit_residuals(x, free, fixed, i, v):
@@ -605,7 +604,7 @@ def _solve_end(hi, tp, i0, ib, i_s, a, r_tot, c, mask, iterations=100):
     # The unsolved candidates' arguments and bracket, narrowed as they finish (one value
     # broadcast to all, e.g. a circuit constant over a grid, stays one value); each
     # candidate's arithmetic is its own.
-    part = [_one(x) if _one(x) is not None else np.broadcast_to(x, v.shape).ravel()[active]
+    part = [_narrowed(x, lambda y: np.broadcast_to(y, v.shape).ravel()[active])
             for x in (np.asarray(y, dtype=float) for y in (tp, i0, ib, i_s, a, r_tot, c))]
     va = vf[active]
     lo_a, hi_a = np.zeros(active.size), va.copy()
